@@ -1,0 +1,218 @@
+"""The plain data that flows between stages.
+
+Loading produces a :class:`DeckData`; checking adds :class:`Finding`s; the
+analysis of one season x leader partition produces a :class:`PartitionResult`
+holding its :class:`Archetype`s; season linking produces a :class:`History`.
+All are frozen dataclasses or dataframes, so they pickle (for worker processes
+and the cache) and never reach back into the stage that made them.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import pandas as pd
+
+#: The ``leader`` value of a partition that pools every leader of a season
+#: (``analysis.by_leader = false``).
+ALL_LEADERS = "*"
+
+#: The key of the group of decks that belong to no archetype.
+OTHER_KEY = "other"
+
+#: Column layout of :attr:`DeckData.decks`.
+DECK_COLUMNS = ("deck_id", "season", "leader", "wins", "losses", "event", "player", "title")
+#: Column layout of :attr:`DeckData.cards`.
+CARD_ROW_COLUMNS = ("deck_id", "card", "quantity")
+
+
+@dataclass(frozen=True)
+class Finding:
+    """A data-quality note: a warning for the build report and the season page.
+
+    ``kind`` is a short code such as ``copies-over-limit``, ``deck-too-small``,
+    ``deck-too-large``, ``name-variants``, ``note-orphan``.
+    """
+
+    kind: str
+    message: str
+    deck_id: str | None = None
+    season: str | None = None
+    leader: str | None = None
+
+
+@dataclass(frozen=True)
+class DeckData:
+    """Every deck, validated and normalised.
+
+    ``decks``: one row per deck, columns :data:`DECK_COLUMNS` (strings; wins
+    and losses nullable Int64; event, player, title may be missing), sorted by
+    deck_id. ``cards``: one row per deck and card, columns
+    :data:`CARD_ROW_COLUMNS` (quantity int), sorted by deck_id then card.
+    ``card_info``: the card table, ``card`` and ``type`` first, then any
+    further columns, or None when no card table was given. ``seasons``:
+    season names in publication order.
+    """
+
+    decks: pd.DataFrame
+    cards: pd.DataFrame
+    card_info: pd.DataFrame | None
+    seasons: tuple[str, ...]
+    findings: tuple[Finding, ...] = ()
+    excluded: frozenset[str] = frozenset()
+
+
+@dataclass(frozen=True)
+class PartitionInput:
+    """The decks of one season and leader, ready to analyse.
+
+    ``cards`` holds the long-form rows of these decks only; ``fingerprint``
+    is a digest of those rows and of the settings that affect the analysis.
+    """
+
+    season: str
+    leader: str
+    decks: pd.DataFrame
+    cards: pd.DataFrame
+    card_types: dict[str, str] = field(default_factory=dict)
+    fingerprint: str = ""
+
+
+@dataclass(frozen=True)
+class CardLine:
+    """One row of a card-inclusion table.
+
+    ``share``: share of the decks that play the card; ``mean_copies``: mean
+    copies among those decks; ``at_1``, ``at_2``, ``at_3_plus``: share of the
+    decks playing it at 1, 2, 3 or more copies; ``tier``: one of
+    :data:`TIERS`.
+    """
+
+    card: str
+    card_type: str
+    share: float
+    mean_copies: float
+    at_1: float
+    at_2: float
+    at_3_plus: float
+    tier: str
+
+
+#: Inclusion tiers, most played first: (name, least share).
+TIERS: tuple[tuple[str, float], ...] = (("mainstay", 0.9), ("regular", 0.5), ("occasional", 0.0))
+
+
+@dataclass(frozen=True)
+class SignatureCard:
+    """A card that marks an archetype: played far more inside it than around it."""
+
+    card: str
+    score: float
+    rate_in: float
+    rate_out: float
+
+
+@dataclass(frozen=True)
+class DeckLine:
+    """One card of a decklist, with its type (empty when no card table)."""
+
+    card_type: str
+    card: str
+    quantity: int
+
+
+@dataclass(frozen=True)
+class Archetype:
+    """One archetype (or the other-decks group) of one partition.
+
+    ``key`` is stable within its partition (``a1``, ``a2``... by size, or
+    :data:`OTHER_KEY`); ``slug`` is file-name safe and, after season
+    linking, stable across seasons. ``profile`` maps each card to the share
+    of member decks playing it (used to name, compare and link archetypes).
+    ``centre_distance`` is the mean cosine distance of members to the centre.
+    """
+
+    key: str
+    slug: str
+    name: str
+    season: str
+    leader: str
+    n_decks: int
+    share: float
+    signature: tuple[SignatureCard, ...]
+    medoid_deck_id: str
+    medoid: tuple[DeckLine, ...]
+    medoid_total: int
+    inclusion: tuple[CardLine, ...]
+    profile: dict[str, float]
+    wins: int = 0
+    losses: int = 0
+    is_other: bool = False
+    mean_distance: float = 0.0
+
+
+@dataclass(frozen=True)
+class PartitionResult:
+    """Everything the analysis found in one season x leader partition.
+
+    ``status`` is ``"clustered"`` or ``"too-small"`` (then ``reason`` says
+    why and ``archetypes`` is empty). ``silhouette`` is the (k, mean
+    silhouette) curve the chosen k was picked from; ``k_reason`` says how k
+    was chosen in plain words (automatic, pinned, refined by splits).
+    ``assignments``: one row per deck, columns deck_id, archetype (key),
+    distance (cosine distance to its archetype's centre), x, y (map
+    coordinates, NaN where the deck was not drawn). ``map_points``: the
+    drawn decks, columns deck_id, archetype, x, y, cards (a short text of
+    its top cards for a tooltip).
+    """
+
+    season: str
+    leader: str
+    n_decks: int
+    status: str
+    reason: str
+    chosen_k: int | None
+    silhouette: tuple[tuple[int, float], ...]
+    k_reason: str
+    archetypes: tuple[Archetype, ...]
+    other: Archetype | None
+    assignments: pd.DataFrame
+    map_points: pd.DataFrame
+    inclusion: tuple[CardLine, ...]
+    fingerprint: str = ""
+
+    @property
+    def groups(self) -> tuple[Archetype, ...]:
+        """Archetypes then, if any, the other-decks group."""
+        return self.archetypes + ((self.other,) if self.other is not None else ())
+
+
+@dataclass(frozen=True)
+class Link:
+    """How an archetype of one season relates to the previous season's.
+
+    ``kind``: ``continues`` (same slug), ``new``, ``split`` (one of several
+    that came from one earlier archetype), ``merge`` (one that took in
+    several earlier archetypes). ``sources``: slugs of the earlier
+    archetypes it came from; ``similarity``: best profile similarity.
+    """
+
+    season: str
+    leader: str
+    slug: str
+    kind: str
+    sources: tuple[str, ...] = ()
+    similarity: float = 0.0
+
+
+@dataclass(frozen=True)
+class History:
+    """Archetype identity across seasons.
+
+    ``links``: one :class:`Link` per archetype and season; ``last_seen``:
+    slug -> last season it appears in; ``seasons_of``: slug -> seasons it
+    appears in, in publication order.
+    """
+
+    links: tuple[Link, ...]
+    last_seen: dict[str, str]
+    seasons_of: dict[str, tuple[str, ...]]
