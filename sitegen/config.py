@@ -45,6 +45,8 @@ SETTINGS: tuple[Setting, ...] = (
     _S("site.description", "", str, "One line under the title on the front page."),
     _S("site.base_url", "", str, "Absolute URL the site is published at; needed for sitemap.xml (left out when empty)."),
     _S("site.output", "site", str, "Folder the built site is written to, relative to the config file."),
+    _S("site.content", "content", str, "Folder of the analysts' Markdown notes, relative to the config file."),
+    _S("site.templates", "templates", str, "Folder of templates that override the packaged ones file by file, relative to the config file."),
     _S("site.leader_word", "leader", str, "What the site calls the card or persona every deck declares."),
     _S("site.leader_word_plural", "leaders", str, "Plural of site.leader_word."),
     _S("site.publish_players", False, bool, "Publish player names. Off by default: names of real people stay out of the site."),
