@@ -35,7 +35,7 @@ case "${1:-}" in
     ;;
   test)
     shift
-    setup "[test]"
+    setup "[test,dask]"
     need_chromium
     exec .venv/bin/python -m pytest "$@"
     ;;

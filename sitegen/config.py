@@ -55,7 +55,7 @@ SETTINGS: tuple[Setting, ...] = (
     _S("data.decks", "", str, "Deck table (CSV or Parquet): deck id, season or date, leader, optional results."),
     _S("data.cards", "", str, "Optional card table (CSV or Parquet): card name, card type, further columns."),
     _S("data.decklists", "", str, "Folder of plain-text decklists, instead of data.deck_cards and data.decks."),
-    _S("data.parquet_folder", "", str, "Folder of Parquet files partitioned by season (season=NAME/ folders), instead of data.deck_cards and data.decks."),
+    _S("data.parquet_folder", "", str, "Folder of Parquet files partitioned by season: season=NAME/ folders each holding decks.parquet and deck_cards.parquet; instead of data.deck_cards and data.decks."),
     # -- which column means what
     _S("columns.deck_id", "deck_id", str, "Deck id column, in both the deck table and the long-form table."),
     _S("columns.card", "card", str, "Card name column of the long-form table."),
@@ -92,6 +92,12 @@ SETTINGS: tuple[Setting, ...] = (
     _S("analysis.inclusion_min_share", 0.05, float, "Cards played by fewer of an archetype's decks are left out of its card table.", minimum=0, maximum=1),
     _S("analysis.name_cards", 2, int, "Signature cards used in an archetype's default name.", minimum=1, maximum=5),
     _S("analysis.map_points", 3000, int, "Most decks drawn per map (sampled per archetype).", minimum=10),
+    _S("analysis.map_iterations", 150, int, "t-SNE steps per map after 125 of early exaggeration; more gives a tidier map, slower.", minimum=50),
+    _S("analysis.svd_dims", 32, int, "Dimensions the deck features are reduced to (truncated SVD) before clustering.", minimum=2),
+    _S("analysis.kmeans_starts", 4, int, "k-means starts per k; the best (least inertia) is kept.", minimum=1),
+    _S("analysis.fit_sample", 20000, int, "Most decks k-means is fitted on per partition; every deck is then assigned to its nearest centre.", minimum=100),
+    _S("analysis.split_silhouette", 0.3, float, "Least silhouette inside a cluster for a 2- or 3-way split of it to be kept; above 1 turns splits off.", minimum=0),
+    _S("analysis.min_signature", 0.6, float, "Least mean lead (share inside minus share outside) of a cluster's 3 most typical cards for it to be an archetype, and of each piece of a split over its sibling pieces.", minimum=0, maximum=1),
     _S("analysis.link_threshold", 0.5, float, "Least profile similarity for an archetype to continue from one season to the next.", minimum=0, maximum=1),
     _S("analysis.workers", 0, int, "Worker processes for partition analyses; 0 uses every core.", minimum=0),
     _S("analysis.scheduler", "", str, "Address of a Dask scheduler to send partition analyses to; empty runs them here."),
@@ -262,15 +268,23 @@ def settings_markdown() -> str:
     return "\n".join(lines) + "\n"
 
 
-def commented_toml() -> str:
-    """Every setting with its default and help, as a commented TOML file for ``sitegen new``."""
+def commented_toml(given: dict[str, Any] | None = None) -> str:
+    """Every setting with its help, as a TOML file for ``sitegen new``.
+
+    Keys in ``given`` are written with that value; the rest are commented out
+    at their default, so uncommenting a line is how a setting is changed.
+    """
+    given = given or {}
     out: list[str] = []
     for section in SECTIONS:
         out.append(f"[{section}]")
         for s in SETTINGS:
             if s.section == section:
                 out.append(f"# {s.help}")
-                out.append(f"# {s.name} = {_toml_literal(s.default)}")
+                if s.key in given:
+                    out.append(f"{s.name} = {_toml_literal(given[s.key])}")
+                else:
+                    out.append(f"# {s.name} = {_toml_literal(s.default)}")
         out.append("")
     return "\n".join(out)
 

@@ -148,6 +148,9 @@ class Archetype:
     losses: int = 0
     is_other: bool = False
     mean_distance: float = 0.0
+    #: True when at least one member deck has a win or loss count (wins and
+    #: losses are 0 both when nothing was reported and when all lost nothing).
+    has_results: bool = False
 
 
 @dataclass(frozen=True)

@@ -17,18 +17,16 @@ from .errors import SitegenError
 
 _SITE_TOML = """\
 # sitegen site config. Paths are relative to this file.
-# Every setting is listed below with its default, commented out; see the
-# README's settings table for more.
-
-[site]
-title = "My archetype guide"
-
-[data]
-decks = "data/decks.csv"
-deck_cards = "data/deck_cards.csv"
-cards = "data/cards.csv"
+# Every setting is listed with its help line; those commented out are at
+# their default. The README's settings table says more.
 
 """
+_GIVEN = {
+    "site.title": "My archetype guide",
+    "data.decks": "data/decks.csv",
+    "data.deck_cards": "data/deck_cards.csv",
+    "data.cards": "data/cards.csv",
+}
 
 _NOTE = """\
 ---
@@ -91,7 +89,7 @@ def new_site(folder: Path) -> Path:
         raise SitegenError(f"'{folder}' already exists and is not an empty folder; choose a new folder name")
     decks, rows, cards = _sample_tables()
     files = {
-        "site.toml": _SITE_TOML + commented_toml(),
+        "site.toml": _SITE_TOML + commented_toml(_GIVEN),
         "data/decks.csv": _csv(["deck_id", "season", "leader", "wins", "losses"], decks),
         "data/deck_cards.csv": _csv(["deck_id", "card", "quantity"], rows),
         "data/cards.csv": _csv(["card", "type", "cost"], cards),

@@ -108,10 +108,7 @@ def write_site(out: Path, files: Mapping[str, bytes]) -> WriteReport:
                 except OSError:
                     shutil.copy2(previous, target)
                 continue
-            with open(target, "wb") as fh:
-                fh.write(data)
-                fh.flush()
-                os.fsync(fh.fileno())
+            target.write_bytes(data)
             changed += 1
         removed = 0
         if out.exists():

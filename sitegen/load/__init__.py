@@ -1,1 +1,181 @@
-"""sitegen."""
+"""Reading deck data: tables (CSV/Parquet), a Parquet folder, or text decklists.
+
+:func:`load_data` is the one entry point. It reads whichever input the
+config names, checks every row, and returns a validated
+:class:`~sitegen.model.DeckData`; every problem in the data becomes a
+:class:`~sitegen.errors.DataError` (many at once as
+:class:`~sitegen.errors.DataErrors`), never a traceback.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from ..config import Config
+from ..errors import ConfigError, DataError, DataErrors
+from ..model import DeckData
+from .decklists import read_decklists
+from .normalise import build
+from .origin import StackedOrigin
+from .tables import PARQUET_SUFFIXES, Table, read_table
+
+__all__ = ["load_data", "read_decklists", "read_table"]
+
+_DECK_OPTIONAL = ("wins", "losses", "event", "player", "title")
+
+
+def _deck_columns(cfg: Config) -> tuple[dict[str, str], dict[str, str]]:
+    required = {"deck_id": cfg["columns.deck_id"], "leader": cfg["columns.leader"]}
+    optional = {c: cfg[f"columns.{c}"] for c in _DECK_OPTIONAL}
+    if cfg["seasons.source"] == "calendar":
+        required["date"] = cfg["columns.date"]
+    else:
+        required["season"] = cfg["columns.season"]
+        optional["date"] = cfg["columns.date"]
+    return required, optional
+
+
+def _card_rows_columns(cfg: Config) -> dict[str, str]:
+    return {"deck_id": cfg["columns.deck_id"], "card": cfg["columns.card"], "quantity": cfg["columns.quantity"]}
+
+
+def _read_card_table(cfg: Config) -> Table | None:
+    path = cfg.path("data.cards")
+    if path is None:
+        return None
+    return read_table(path, setting="data.cards",
+                      required={"card": cfg["columns.card_name"], "type": cfg["columns.card_type"]},
+                      all_columns=True)
+
+
+def _read_both(reads) -> list[Table]:
+    """Run several reads, raising every file's errors together (file order)."""
+    tables, errors = [], []
+    for read in reads:
+        try:
+            tables.append(read())
+        except DataErrors as exc:
+            errors.extend(exc.errors)
+        except DataError as exc:
+            errors.append(exc)
+    if errors:
+        raise errors[0] if len(errors) == 1 else DataErrors(errors)
+    return tables
+
+
+def load_data(cfg: Config) -> DeckData:
+    """Read, check and normalise the deck data the config names.
+
+    Give either ``data.decks`` with ``data.deck_cards``, or
+    ``data.decklists`` (a folder of ``*.txt``), or ``data.parquet_folder``;
+    ``data.cards`` (optional) adds the card table. Raises ConfigError when
+    the settings name no usable input, DataError/DataErrors for bad data.
+
+    ``data.parquet_folder`` layout: one sub-folder per season named
+    ``season=NAME`` (hive style), each holding ``decks.parquet`` and
+    ``deck_cards.parquet``; the season comes from the folder name and
+    replaces any season column in the files.
+    """
+    source = str(cfg.source or "<config>")
+    decks_path, cards_path = cfg.path("data.decks"), cfg.path("data.deck_cards")
+    folder, parquet_folder = cfg.path("data.decklists"), cfg.path("data.parquet_folder")
+    given = [k for k, v in (("data.decks", decks_path), ("data.deck_cards", cards_path),
+                            ("data.decklists", folder), ("data.parquet_folder", parquet_folder)) if v is not None]
+    if folder is not None and (decks_path or cards_path or parquet_folder):
+        raise ConfigError(source, "data.decklists", f"given together with {', '.join(k for k in given if k != 'data.decklists')}",
+                          "give either a decklist folder or the tables, not both")
+    if parquet_folder is not None and (decks_path or cards_path):
+        raise ConfigError(source, "data.parquet_folder", "given together with data.decks/data.deck_cards",
+                          "give either the Parquet folder or the two tables, not both")
+    if folder is not None:
+        decks, cards = read_decklists(folder)
+        (card_table,) = _read_both([lambda: _read_card_table(cfg)])
+        return build(decks, cards, card_table, cfg)
+    if parquet_folder is not None:
+        decks, cards = _read_parquet_folder(parquet_folder, cfg)
+        (card_table,) = _read_both([lambda: _read_card_table(cfg)])
+        return build(decks, cards, card_table, cfg)
+    if decks_path is None or cards_path is None:
+        missing = "data.decks" if decks_path is None else "data.deck_cards"
+        raise ConfigError(source, missing,
+                          "no deck data: give data.decks and data.deck_cards (tables), or data.decklists (a folder of text decklists)",
+                          f"set {missing} to the path of the table, relative to the config file")
+    required, optional = _deck_columns(cfg)
+    decks, cards, card_table = _read_both([
+        lambda: read_table(decks_path, setting="data.decks", required=required, optional=optional,
+                           numeric=frozenset({"wins", "losses"})),
+        lambda: read_table(cards_path, setting="data.deck_cards", required=_card_rows_columns(cfg),
+                           numeric=frozenset({"quantity"})),
+        lambda: _read_card_table(cfg),
+    ])
+    return build(decks, cards, card_table, cfg)
+
+
+def _read_parquet_folder(folder: Path, cfg: Config) -> tuple[Table, Table]:
+    """The season=NAME/ sub-folders as one deck table and one long-form table."""
+    if not folder.is_dir():
+        raise DataError(folder, "folder not found" if not folder.exists() else "is a file, not a folder",
+                        fix="check the path given in setting 'data.parquet_folder' (relative to the config file)")
+    parts = sorted(p for p in folder.iterdir() if p.is_dir() and p.name.startswith("season="))
+    if not parts:
+        raise DataError(folder, "no season=NAME sub-folders",
+                        fix="put each season's decks.parquet and deck_cards.parquet in a folder named season=NAME")
+    required, optional = _deck_columns(cfg)
+    required.pop("season", None)
+    optional.pop("season", None)
+    deck_tables: list[tuple[str, Table]] = []
+    card_tables: list[Table] = []
+    errors: list[DataError] = []
+    for part in parts:
+        season = part.name.split("=", 1)[1]
+        decks_file = _one_file(part, "decks")
+        cards_file = _one_file(part, "deck_cards")
+        try:
+            d, c = _read_both([
+                lambda: read_table(decks_file, setting="data.parquet_folder", required=required, optional=optional,
+                                   numeric=frozenset({"wins", "losses"})),
+                lambda: read_table(cards_file, setting="data.parquet_folder", required=_card_rows_columns(cfg),
+                                   numeric=frozenset({"quantity"})),
+            ])
+        except DataErrors as exc:
+            errors.extend(exc.errors)
+            continue
+        except DataError as exc:
+            errors.append(exc)
+            continue
+        deck_tables.append((season, d))
+        card_tables.append(c)
+    if errors:
+        raise errors[0] if len(errors) == 1 else DataErrors(errors)
+    return _stack([_with_season(t, s) for s, t in deck_tables]), _stack(card_tables)
+
+
+def _one_file(part: Path, stem: str) -> Path:
+    for suffix in PARQUET_SUFFIXES:
+        candidate = part / f"{stem}{suffix}"
+        if candidate.exists():
+            return candidate
+    return part / f"{stem}.parquet"
+
+
+def _with_season(table: Table, season: str) -> Table:
+    frame = table.frame.copy()
+    frame["season"] = pd.Series([season] * len(frame), dtype="str")
+    return Table(table.file, frame, table.origin, {**table.names, "season": "season (folder name)"}, table.column_origins)
+
+
+def _stack(tables: list[Table]) -> Table:
+    """Several tables as one, each row keeping its own file and row."""
+    frames = [t.frame for t in tables]
+    columns = list(dict.fromkeys(c for f in frames for c in f.columns))
+    frame = pd.concat([f.reindex(columns=columns) for f in frames], ignore_index=True)
+    for c in columns:
+        if pd.api.types.is_string_dtype(frame[c].dtype) or frame[c].dtype == object:
+            frame[c] = frame[c].fillna("").astype("str")
+    names = {}
+    for t in tables:
+        names.update(t.names)
+    sizes = np.array([len(f) for f in frames], dtype=np.int64)
+    return Table(str(tables[0].file), frame, StackedOrigin([t.origin for t in tables], sizes), names)

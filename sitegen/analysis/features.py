@@ -1,0 +1,126 @@
+"""Deck x card features: sparse counts, TF-IDF, truncated SVD.
+
+Decks are rows in the order given (the caller sorts them by deck id), cards
+are columns sorted by name, so the same input always gives the same matrix.
+Nothing here builds a dense deck x card table: a partition can hold a
+million decks, and a deck holds a few dozen of the thousands of cards.
+"""
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+import pandas as pd
+import scipy.sparse as sp
+from sklearn.decomposition import TruncatedSVD
+
+
+def build_matrix(cards_df: pd.DataFrame, deck_ids: Sequence[str]) -> tuple[sp.csr_matrix, tuple[str, ...]]:
+    """Copies of each card in each deck, as CSR, and the card names (columns).
+
+    ``cards_df`` has columns deck_id, card, quantity; rows of decks not in
+    ``deck_ids`` are ignored and repeated (deck, card) rows add up. Row i is
+    ``deck_ids[i]``; columns are the cards sorted by name.
+    """
+    # Factorise first (fast on Arrow strings), then look up only the distinct values.
+    deck_codes, deck_uniques = pd.factorize(cards_df["deck_id"], sort=False)
+    rows = pd.Index(list(deck_ids)).get_indexer(pd.Index(deck_uniques))[deck_codes]
+    keep = (deck_codes >= 0) & (rows >= 0)
+    card_codes, card_uniques = pd.factorize(cards_df["card"], sort=False)
+    card_codes = card_codes[keep]
+    used = np.unique(card_codes)
+    names = [str(card_uniques[i]) for i in used]
+    order = sorted(range(len(names)), key=names.__getitem__)
+    cards = tuple(names[i] for i in order)
+    column_of = np.full(len(card_uniques), -1, dtype=np.intp)
+    column_of[used[order]] = np.arange(len(order))
+    qty = np.asarray(cards_df["quantity"], dtype=np.float64)[keep]
+    counts = sp.csr_matrix((qty, (rows[keep], column_of[card_codes])), shape=(len(deck_ids), len(cards)))
+    counts.sum_duplicates()
+    counts.eliminate_zeros()
+    counts.sort_indices()
+    return counts, cards
+
+
+def presence(counts: sp.csr_matrix) -> sp.csr_matrix:
+    """1 where a deck plays a card (any number of copies), else 0."""
+    out = counts.copy()
+    out.data = np.ones_like(out.data)
+    return out
+
+
+def idf(term: sp.csr_matrix) -> np.ndarray:
+    """Smoothed inverse document frequency per card: ln((1 + n) / (1 + df)) + 1.
+
+    ``n`` is the number of decks and ``df`` the number of decks playing the
+    card; the same formula as scikit-learn's TfidfTransformer default
+    (smooth_idf=True). The +1 inside keeps a card played by every deck at
+    weight 1 rather than 0, so staples still count a little.
+    """
+    n = term.shape[0]
+    df = np.bincount(term.indices, minlength=term.shape[1]).astype(np.float64)
+    return np.log((1.0 + n) / (1.0 + df)) + 1.0
+
+
+def l2_rows(matrix):
+    """Rows scaled to unit Euclidean length (all-zero rows stay zero); sparse or dense."""
+    if sp.issparse(matrix):
+        m = sp.csr_matrix(matrix, dtype=np.float64, copy=True)
+        norms = np.sqrt(np.asarray(m.multiply(m).sum(axis=1)).ravel())
+        norms[norms == 0] = 1.0
+        m.data /= np.repeat(norms, np.diff(m.indptr))
+        return m
+    m = np.asarray(matrix, dtype=np.float64)
+    norms = np.linalg.norm(m, axis=1, keepdims=True)
+    norms[norms == 0] = 1.0
+    return m / norms
+
+
+def tfidf(counts: sp.csr_matrix, *, use_presence: bool = True) -> sp.csr_matrix:
+    """TF-IDF rows of unit length: w[d, c] = tf[d, c] * idf[c], then each row / its L2 norm.
+
+    ``tf`` is 1/0 presence when ``use_presence`` (the default: see the
+    method notes for the measurement), else the copy count. Equals
+    scikit-learn's ``TfidfTransformer(norm="l2", use_idf=True,
+    smooth_idf=True, sublinear_tf=False)`` applied to the same tf matrix.
+    """
+    term = presence(counts) if use_presence else sp.csr_matrix(counts, dtype=np.float64, copy=True)
+    weights = idf(term)
+    term.data *= weights[term.indices]
+    return l2_rows(term)
+
+
+def reduce(weights: sp.csr_matrix, dims: int, seed: int, fit_sample: int | None = None) -> np.ndarray:
+    """Truncated SVD of the TF-IDF rows to ``dims`` columns, rows re-normalised.
+
+    The SVD keeps the directions that separate decks and drops the noise of
+    one-off card choices; re-normalising puts the rows back on the unit
+    sphere, where Euclidean k-means is cosine k-means. With ``fit_sample``,
+    the directions are learnt from a fixed-seed sample of that many rows and
+    every row is projected on them (a million decks cost little more than
+    the sample). When the matrix is too small for an SVD of that size, the
+    dense TF-IDF rows are returned.
+    """
+    n, m = weights.shape
+    dims = min(dims, n - 1, m - 1)
+    if dims < 2:
+        return l2_rows(weights.toarray())
+    svd = TruncatedSVD(n_components=dims, algorithm="randomized", n_iter=5, random_state=seed)
+    if fit_sample is not None and n > fit_sample:
+        picked = np.sort(np.random.default_rng(seed).choice(n, size=fit_sample, replace=False))
+        svd.fit(weights[picked])
+        return l2_rows(svd.transform(weights))
+    return l2_rows(svd.fit_transform(weights))
+
+
+def top_cards(weights: sp.csr_matrix, cards: Sequence[str], rows: np.ndarray, n: int = 3) -> list[str]:
+    """For each of ``rows``, its ``n`` heaviest cards joined with ', ' (ties by card name)."""
+    out: list[str] = []
+    for r in rows:
+        lo, hi = weights.indptr[r], weights.indptr[r + 1]
+        idx = weights.indices[lo:hi]
+        vals = weights.data[lo:hi]
+        # Columns are sorted by name, so sorting by (-weight, column) breaks ties by name.
+        order = np.lexsort((idx, -vals))[:n]
+        out.append(", ".join(cards[i] for i in idx[order]))
+    return out

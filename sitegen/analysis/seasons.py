@@ -1,0 +1,195 @@
+"""Archetype identity across seasons: who continues, who is new, who split or merged.
+
+Each partition's analysis names its archetypes afresh; readers and analysts'
+notes need one archetype to keep one slug from season to season. For every
+leader, each season's archetypes are compared with those of the leader's
+previous analysed season (the most recent earlier season in which it had
+clustered archetypes: a season in which the leader is missing or too small
+to cluster is skipped, so lineages link across the gap). The other-decks
+group takes no part and keeps its slug.
+
+Similarity of two archetypes is the weighted Jaccard (Ruzicka) similarity of
+their card profiles (card -> share of member decks playing it)::
+
+    sum_c min(a_c, b_c) / sum_c max(a_c, b_c)
+
+It is 1 for equal profiles and 0 for disjoint ones. Unlike cosine
+similarity it counts the cards one archetype plays and the other does not
+at their full weight, so two archetypes that merely share the leader's
+staples and half their core stay apart.
+
+Pairs are matched one to one by the Hungarian algorithm, maximising total
+similarity (:func:`match`); a matched pair at least ``threshold`` similar
+continues: the later archetype takes the earlier one's slug. Then:
+
+* an unmatched later archetype at least ``threshold`` similar to an earlier
+  one (that continued into another) is a ``split`` from it;
+* a matched later archetype also at least ``threshold`` similar to earlier
+  ones that continued nowhere is a ``merge`` of them all;
+* any other unmatched later archetype is ``new``; an earlier one that
+  continues nowhere retires (its last season is in ``History.last_seen``).
+
+A link's ``similarity`` is that of the pair that continues (for
+``continues`` and ``merge``), else the best similarity to any earlier
+archetype (for ``split`` and ``new``; 0 in a leader's first season).
+
+New archetypes get their provisional slug, made unique site-wide with one
+:class:`~sitegen.slugs.SlugSet`. Slugs are handed out season by season
+(then leader by leader, in name order), so adding a later season never
+changes the slugs of earlier ones.
+"""
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Sequence
+
+import numpy as np
+from scipy.optimize import linear_sum_assignment
+
+from ..model import Archetype, History, Link, PartitionResult
+from ..slugs import SlugSet
+
+
+def profile_similarity(earlier: Sequence[dict[str, float]], later: Sequence[dict[str, float]]) -> np.ndarray:
+    """Weighted Jaccard similarity of every earlier profile (rows) with every later one (columns)."""
+    cards = sorted({c for p in (*earlier, *later) for c in p})
+    index = {c: i for i, c in enumerate(cards)}
+
+    def dense(profiles: Sequence[dict[str, float]]) -> np.ndarray:
+        out = np.zeros((len(profiles), len(cards)))
+        for r, p in enumerate(profiles):
+            for c, v in p.items():
+                out[r, index[c]] = float(v)
+        return out
+
+    a, b = dense(earlier), dense(later)
+    # (n, 1, cards) against (1, m, cards): archetypes per partition are few.
+    low = np.minimum(a[:, None, :], b[None, :, :]).sum(axis=2)
+    high = np.maximum(a[:, None, :], b[None, :, :]).sum(axis=2)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        sim = np.where(high > 0, low / np.where(high > 0, high, 1.0), 0.0)
+    return sim
+
+
+def match(similarity: np.ndarray, threshold: float) -> list[tuple[int, int]]:
+    """One-to-one pairs (row, column) of greatest total similarity, each at least ``threshold``.
+
+    Pairs below the threshold count as worth nothing, so the Hungarian
+    algorithm never gives up a qualifying pair to make room for one that
+    will be dropped anyway; those are then left out. Sorted by row.
+    """
+    sim = np.asarray(similarity, dtype=float)
+    if sim.ndim != 2 or sim.size == 0:
+        return []
+    worth = np.where(sim >= threshold, sim, 0.0)
+    rows, cols = linear_sum_assignment(worth, maximize=True)
+    return sorted((int(i), int(j)) for i, j in zip(rows, cols) if sim[i, j] >= threshold)
+
+
+def _classify(sim: np.ndarray, pairs: list[tuple[int, int]], threshold: float) -> list[tuple[str, list[int], float]]:
+    """For each later archetype: (kind, indices of its earlier sources, best similarity).
+
+    Input is already checked: ``pairs`` come from :func:`match` on ``sim``.
+    """
+    n_earlier, n_later = sim.shape
+    earlier_of = {j: i for i, j in pairs}
+    matched_earlier = {i for i, _ in pairs}
+    out: list[tuple[str, list[int], float]] = []
+    # An earlier archetype that continued nowhere merges into the one later
+    # archetype it is most similar to, if that is similar enough and matched.
+    merged_into: dict[int, list[int]] = {}
+    for i in range(n_earlier):
+        if i in matched_earlier or n_later == 0:
+            continue
+        j = int(np.argmax(sim[i]))
+        if sim[i, j] >= threshold and j in earlier_of:
+            merged_into.setdefault(j, []).append(i)
+    for j in range(n_later):
+        best = float(sim[:, j].max()) if n_earlier else 0.0
+        if j in earlier_of:
+            i = earlier_of[j]
+            extra = sorted(merged_into.get(j, []), key=lambda e: (-sim[e, j], e))
+            if extra:
+                out.append(("merge", [i, *extra], float(sim[i, j])))
+            else:
+                out.append(("continues", [i], float(sim[i, j])))
+        elif n_earlier and best >= threshold:
+            # Similar enough to an earlier archetype that went on as another:
+            # a split from the most similar one.
+            out.append(("split", [int(np.argmax(sim[:, j]))], best))
+        else:
+            out.append(("new", [], best))
+    return out
+
+
+def link_seasons(
+    results: Sequence[PartitionResult], seasons: Sequence[str], threshold: float
+) -> tuple[tuple[PartitionResult, ...], History]:
+    """Give archetypes slugs that are stable across seasons and say how they relate.
+
+    Returns the results in the order given, each archetype's ``slug``
+    replaced (assignments keep their archetype keys), and the
+    :class:`~sitegen.model.History`.
+    """
+    order = {s: i for i, s in enumerate(seasons)}
+    if len(order) != len(seasons):
+        raise ValueError("link_seasons: seasons must not repeat")
+    seen: set[tuple[str, str]] = set()
+    for r in results:
+        if r.season not in order:
+            raise ValueError(f"link_seasons: partition season {r.season!r} is not among the seasons {list(seasons)!r}")
+        if (r.season, r.leader) in seen:
+            raise ValueError(f"link_seasons: two results for season {r.season!r} and leader {r.leader!r}")
+        seen.add((r.season, r.leader))
+
+    slugs = SlugSet()
+    # Other-decks groups keep their slugs; no lineage may take one of them.
+    for r in results:
+        if r.other is not None and r.other.slug:
+            slugs.reserve(r.other.slug)
+
+    by_place = {(r.season, r.leader): r for r in results}
+    leaders = sorted({r.leader for r in results})
+    previous: dict[str, list[Archetype]] = {}  # leader -> its last analysed season's archetypes, slugs final
+    new_slug: dict[tuple[str, str, str], str] = {}  # (season, leader, key) -> slug
+    links: list[Link] = []
+
+    for season in seasons:
+        for leader in leaders:
+            r = by_place.get((season, leader))
+            if r is None or not r.archetypes:
+                continue  # the leader skips this season: its lineages wait for the next one
+            later = list(r.archetypes)
+            earlier = previous.get(leader, [])
+            sim = profile_similarity([a.profile for a in earlier], [a.profile for a in later])
+            kinds = _classify(sim, match(sim, threshold), threshold)
+            linked: list[Archetype] = []
+            for arch, (kind, sources, best) in zip(later, kinds):
+                if kind in ("continues", "merge"):
+                    slug = earlier[sources[0]].slug
+                else:
+                    slug = slugs.add(arch.slug or arch.name, fallback="archetype")
+                new_slug[(season, leader, arch.key)] = slug
+                links.append(Link(season, leader, slug, kind, tuple(earlier[i].slug for i in sources), round(best, 6)))
+                linked.append(dataclasses.replace(arch, slug=slug))
+            previous[leader] = linked
+
+    out: list[PartitionResult] = []
+    for r in results:
+        if not r.archetypes:
+            out.append(r)
+            continue
+        archetypes = tuple(dataclasses.replace(a, slug=new_slug[(r.season, r.leader, a.key)]) for a in r.archetypes)
+        out.append(dataclasses.replace(r, archetypes=archetypes))
+
+    seasons_of: dict[str, list[str]] = {}
+    for link in links:  # links are in season order already
+        got = seasons_of.setdefault(link.slug, [])
+        if not got or got[-1] != link.season:
+            got.append(link.season)
+    history = History(
+        links=tuple(links),
+        last_seen={slug: got[-1] for slug, got in sorted(seasons_of.items())},
+        seasons_of={slug: tuple(got) for slug, got in sorted(seasons_of.items())},
+    )
+    return tuple(out), history

@@ -1,0 +1,96 @@
+"""Deck-building rules: warnings about decks that break them, never errors.
+
+A deck may hold at most ``rules.max_copies`` copies of one card, at least
+``rules.min_cards`` cards and, when ``rules.max_cards`` is above 0, at most
+that many. Decks that break a rule are reported as :class:`Finding` s and,
+with ``rules.exclude_breakers``, left out of the analysis (listed in
+``DeckData.excluded``). The work is vectorised over the long-form table, so
+tens of millions of card rows take seconds.
+"""
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from .config import Config
+from .model import DeckData, Finding
+
+__all__ = ["check_rules", "deck_totals"]
+
+
+def _runs(deck_ids: pd.Series) -> np.ndarray | None:
+    """Start position of each run of equal deck ids, or None when they are not grouped."""
+    n = len(deck_ids)
+    if n == 0:
+        return np.array([], dtype=np.int64)
+    try:
+        arrow = pa.chunked_array(deck_ids.array.__arrow_array__())
+        differs = pc.not_equal(arrow[1:], arrow[:-1]).to_numpy(zero_copy_only=False)
+    except (AttributeError, TypeError, pa.ArrowException):
+        values = deck_ids.to_numpy(dtype=object)
+        differs = values[1:] != values[:-1]
+    starts = np.flatnonzero(np.concatenate([[True], np.asarray(differs, dtype=bool)]))
+    heads = deck_ids.iloc[starts]
+    return starts if heads.is_unique else None
+
+
+def deck_totals(cards: pd.DataFrame) -> pd.Series:
+    """Cards per deck (sum of quantities), indexed by deck_id in the order of ``cards``."""
+    starts = _runs(cards["deck_id"])
+    if starts is None:
+        return cards.groupby("deck_id", sort=False)["quantity"].sum()
+    if starts.size == 0:
+        return pd.Series([], dtype=np.int64, index=pd.Index([], dtype="str", name="deck_id"))
+    totals = np.add.reduceat(cards["quantity"].to_numpy(dtype=np.int64), starts)
+    return pd.Series(totals, index=pd.Index(cards["deck_id"].iloc[starts].to_numpy(), dtype="str", name="deck_id"))
+
+
+def check_rules(data: DeckData, cfg: Config) -> DeckData:
+    """A copy of ``data`` with rule findings added and, if asked, breakers excluded.
+
+    Findings come per deck in deck_id order: ``copies-over-limit`` (one
+    per deck, naming each card over the limit), ``deck-too-small``,
+    ``deck-too-large``.
+    """
+    max_copies = cfg["rules.max_copies"]
+    min_cards = cfg["rules.min_cards"]
+    max_cards = cfg["rules.max_cards"]
+    cards = data.cards
+    decks = data.decks.set_index("deck_id")[["season", "leader"]]
+
+    over = cards[cards["quantity"].to_numpy() > max_copies]
+    over_by_deck: dict[str, list[str]] = {}
+    for deck_id, card, qty in zip(over["deck_id"].tolist(), over["card"].tolist(), over["quantity"].tolist()):
+        over_by_deck.setdefault(deck_id, []).append(f"{qty} copies of {card!r}")
+
+    totals = deck_totals(cards)
+    small = totals[totals < min_cards] if min_cards > 0 else totals.iloc[:0]
+    large = totals[totals > max_cards] if max_cards > 0 else totals.iloc[:0]
+
+    found: list[tuple[str, int, Finding]] = []
+
+    def add(deck_id: str, rank: int, kind: str, message: str) -> None:
+        season, leader = (decks.at[deck_id, "season"], decks.at[deck_id, "leader"]) if deck_id in decks.index else (None, None)
+        found.append((deck_id, rank, Finding(kind, message, deck_id=deck_id,
+                                             season=None if pd.isna(season) else str(season),
+                                             leader=None if pd.isna(leader) else str(leader))))
+
+    for deck_id, items in over_by_deck.items():
+        add(deck_id, 0, "copies-over-limit",
+            f"deck {deck_id} plays {', '.join(items)}; the limit is {max_copies} copies of a card")
+    for deck_id, total in small.items():
+        add(str(deck_id), 1, "deck-too-small", f"deck {deck_id} holds {int(total)} cards; the least is {min_cards}")
+    for deck_id, total in large.items():
+        add(str(deck_id), 2, "deck-too-large", f"deck {deck_id} holds {int(total)} cards; the most is {max_cards}")
+    # Decks with no card rows hold 0 cards.
+    if min_cards > 0 and len(totals) < len(decks):
+        for deck_id in decks.index.difference(totals.index):
+            add(str(deck_id), 1, "deck-too-small", f"deck {deck_id} holds 0 cards; the least is {min_cards}")
+    found.sort(key=lambda item: (item[0], item[1]))
+    breakers = frozenset(deck_id for deck_id, _, _ in found)
+    excluded = breakers if cfg["rules.exclude_breakers"] else frozenset()
+    return dataclasses.replace(data, findings=data.findings + tuple(f for _, _, f in found), excluded=excluded)

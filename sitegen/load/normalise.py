@@ -1,0 +1,559 @@
+"""Validating and normalising read tables into one :class:`DeckData`.
+
+Input tables are already read (see :mod:`.tables`, :mod:`.decklists`) and
+hold text. Here every row-level rule is checked and every problem collected
+as a DataError naming file, row, column, value and fix, so a user fixes them
+all in one go. Work on the long-form table is vectorised on integer codes
+(names are cleaned once per distinct value, not per row), so tens of
+millions of rows take seconds.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import difflib
+import re
+from collections import defaultdict
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from ..config import Config
+from ..errors import ConfigError, DataError, DataErrors
+from ..model import DECK_COLUMNS, DeckData, Finding
+from .tables import Table
+
+#: Individual errors listed per problem before the rest are counted in one line.
+ERRORS_PER_PROBLEM = 50
+
+# Stripped from both ends of names: whitespace, C0 controls, DEL, byte-order mark.
+_EDGE = "".join(chr(c) for c in range(0x20)) + "\x7f\ufeff"
+_INT = re.compile(r"[+]?\d{1,18}")
+
+
+def clean_text(text: str) -> str:
+    """A name with whitespace and control characters trimmed from both ends (inner text kept as is)."""
+    return text.strip().strip(_EDGE).strip()
+
+
+def variant_key(name: str) -> str:
+    """Names equal under this key differ only by case or spacing."""
+    return " ".join(name.split()).casefold()
+
+
+def natural_key(text: str) -> tuple:
+    """Sort key that puts 'Season 2' before 'Season 10'."""
+    return tuple((0, int(part), "") if part.isdigit() else (1, 0, part.casefold() + "\0" + part)
+                 for part in re.split(r"([0-9]+)", text) if part)
+
+
+class _Problems:
+    """Collects DataErrors; each vectorised check reports at most a few rows in full."""
+
+    def __init__(self) -> None:
+        self.errors: list[DataError] = []
+
+    def flag(self, table: Table, positions: np.ndarray, problem: str, *, column: str, values=None,
+             notes: list[str] | None = None, fix: str = "") -> None:
+        """One DataError per row position; ``values`` and ``notes`` (extra words) go with the first shown rows."""
+        positions = np.asarray(positions, dtype=np.int64)
+        if positions.size == 0:
+            return
+        shown = positions[:ERRORS_PER_PROBLEM]
+        places = table.where(shown, column)
+        name = table.names.get(column, column)
+        for i, (file, row) in enumerate(places):
+            text = problem + (notes[i] if notes is not None else "")
+            value = values[i] if values is not None else None
+            self.errors.append(DataError(file, text, row=row, column=name, value=value,
+                                         has_value=values is not None, fix=fix))
+        rest = positions.size - shown.size
+        if rest:
+            file, row = table.where(positions[shown.size: shown.size + 1], column)[0]
+            self.errors.append(DataError(file, f"{rest} more rows like this from here on: {problem}", row=row,
+                                         column=name, fix=fix))
+
+    def raise_if_any(self) -> None:
+        if self.errors:
+            order = sorted(range(len(self.errors)),
+                           key=lambda i: (self.errors[i].file, self.errors[i].row or 0, i))
+            raise DataErrors([self.errors[i] for i in order])
+
+
+def _factorize(series: pd.Series) -> tuple[np.ndarray, list]:
+    """pd.factorize, faster when equal values sit in runs (a long table grouped by deck)."""
+    series = series.fillna("")
+    n = len(series)
+    if n > 100_000:
+        try:
+            arrow = pa.chunked_array(series.array.__arrow_array__())
+            differs = pc.not_equal(arrow[1:], arrow[:-1]).to_numpy(zero_copy_only=False)
+        except (AttributeError, TypeError, pa.ArrowException):
+            differs = None
+        if differs is not None:
+            starts = np.flatnonzero(np.concatenate([[True], differs]))
+            if starts.size < n // 4:
+                head_codes, uniques = pd.factorize(series.iloc[starts], sort=False)
+                return np.repeat(head_codes, np.diff(np.append(starts, n))), list(uniques)
+    codes, uniques = pd.factorize(series, sort=False)
+    return codes, list(uniques)
+
+
+# Characters clean_text trims (Python's str.isspace set, C0 controls, DEL, BOM), for a vectorised pre-check.
+_EDGE_CLASS = "[\\x00-\\x20\\x7f\\x85\\xa0\\x{1680}\\x{2000}-\\x{200a}\\x{2028}\\x{2029}\\x{202f}\\x{205f}\\x{3000}\\x{feff}]"
+_NEEDS_TRIM = f"^{_EDGE_CLASS}|{_EDGE_CLASS}$"
+
+
+def _codes(series: pd.Series) -> tuple[np.ndarray, list[str]]:
+    """Integer codes of the cleaned values and the cleaned distinct values."""
+    codes, uniques = _factorize(series)
+    names = [str(u) for u in uniques]
+    try:
+        flagged = np.flatnonzero(pc.match_substring_regex(pa.array(names, pa.string()), _NEEDS_TRIM)
+                                 .to_numpy(zero_copy_only=False))
+    except (pa.ArrowException, ValueError):
+        flagged = np.arange(len(names))
+    changed = False
+    for i in flagged:
+        cleaned = clean_text(names[i])
+        if cleaned != names[i]:
+            names[i] = cleaned
+            changed = True
+    if not changed:
+        return np.asarray(codes, dtype=np.int64), names
+    codes2, uniq2 = pd.factorize(pd.Series(names, dtype=object), sort=False)
+    return np.asarray(codes2, dtype=np.int64)[codes], [str(u) for u in uniq2]
+
+
+def _cleaned(series: pd.Series) -> pd.Series:
+    codes, uniques = _codes(series)
+    return pd.Series(np.asarray(uniques, dtype=object)[codes] if len(uniques) else np.array([], dtype=object),
+                     index=series.index, dtype="str")
+
+
+def parse_counts(series: pd.Series, *, positive: bool) -> tuple[pd.Series, np.ndarray]:
+    """Whole numbers (>= 1 when ``positive``, else >= 0) as Int64, and positions of bad values.
+
+    Empty cells become missing values without being bad (the caller decides
+    whether a missing value is allowed).
+    """
+    least = 1 if positive else 0
+    n = len(series)
+    kind = series.dtype
+    bad_format = np.array([], dtype=np.int64)
+    if pd.api.types.is_integer_dtype(kind) and not pd.api.types.is_bool_dtype(kind):
+        values = pd.Series(series.to_numpy(), dtype="Int64")
+    elif pd.api.types.is_float_dtype(kind):
+        arr = series.to_numpy(dtype=float, na_value=np.nan)
+        whole = np.isfinite(arr) & (np.floor(arr) == arr) & (np.abs(arr) < 2.0 ** 62)
+        values = pd.Series(pd.array(np.where(whole, arr, 0).astype(np.int64), dtype="Int64"))
+        values[~whole] = pd.NA
+        bad_format = np.flatnonzero(~whole & ~np.isnan(arr))
+    else:
+        text = pd.Series(series.to_numpy(dtype=object), dtype="str").fillna("")
+        try:
+            values = pd.Series(text.astype("int64").to_numpy(), dtype="Int64")
+        except (ValueError, TypeError, OverflowError):
+            stripped = text.str.strip()
+            ok = stripped.str.fullmatch(_INT.pattern).fillna(False).to_numpy(dtype=bool)
+            empty = (stripped == "").to_numpy(dtype=bool)
+            values = pd.Series(pd.array([pd.NA] * n, dtype="Int64"))
+            if ok.any():
+                values[ok] = stripped[ok].map(int).to_numpy()
+            bad_format = np.flatnonzero(~ok & ~empty)
+    low = np.flatnonzero((values < least).fillna(False).to_numpy(dtype=bool))
+    return values, np.union1d(bad_format, low).astype(np.int64)
+
+
+def _first_positions(codes: np.ndarray, wanted: np.ndarray) -> dict[int, int]:
+    """First row position of each wanted code."""
+    uniq, first = np.unique(codes, return_index=True)
+    found = dict(zip(uniq.tolist(), first.tolist()))
+    return {int(c): found[int(c)] for c in wanted if int(c) in found}
+
+
+def _calendar(cfg: Config) -> list[tuple[str, dt.date, dt.date]]:
+    out = []
+    source = str(cfg.source or "<config>")
+    for i, entry in enumerate(cfg["seasons.calendar"], start=1):
+        bounds = []
+        for part in ("start", "end"):
+            value = entry[part]
+            if isinstance(value, dt.datetime):
+                value = value.date()
+            if isinstance(value, str):
+                try:
+                    value = dt.date.fromisoformat(value.strip())
+                except ValueError:
+                    raise ConfigError(source, "seasons.calendar", f"entry {i} {part} {value!r} is not a date",
+                                      "write dates as 2026-03-01") from None
+            if not isinstance(value, dt.date):
+                raise ConfigError(source, "seasons.calendar", f"entry {i} {part} {value!r} is not a date",
+                                  "write dates as 2026-03-01")
+            bounds.append(value)
+        if bounds[0] > bounds[1]:
+            raise ConfigError(source, "seasons.calendar", f"entry {i} ({entry['name']!r}) ends before it starts",
+                              "swap start and end")
+        out.append((str(entry["name"]), bounds[0], bounds[1]))
+    if not out:
+        raise ConfigError(source, "seasons.calendar", "is empty but seasons.source is 'calendar'",
+                          'add [[seasons.calendar]] entries with name, start and end, or set seasons.source = "column"')
+    ranked = sorted(out, key=lambda e: e[1])
+    for a, b in zip(ranked, ranked[1:]):
+        if b[1] <= a[2]:
+            raise ConfigError(source, "seasons.calendar", f"seasons {a[0]!r} and {b[0]!r} overlap",
+                              "make each date belong to one season")
+    return out
+
+
+def _parse_dates(series: pd.Series) -> tuple[pd.Series, np.ndarray, np.ndarray]:
+    """Dates (NaT where empty or bad), positions of bad values, positions of empty ones.
+
+    Times with an offset are read in UTC, so mixed offsets never fail the parse.
+    """
+    text = pd.Series(series.to_numpy(dtype=object), dtype="str").fillna("").str.strip()
+    empty = (text == "").to_numpy(dtype=bool)
+    try:
+        dates = pd.to_datetime(text.where(~empty), format="ISO8601", errors="coerce", utc=True).dt.tz_localize(None)
+    except (ValueError, TypeError, OverflowError):
+        dates = pd.Series([_one_date(t) for t in text], dtype="datetime64[ns]")
+    bad = np.flatnonzero(dates.isna().to_numpy() & ~empty)
+    return dates.reset_index(drop=True), bad, np.flatnonzero(empty)
+
+
+def _one_date(text: str):
+    try:
+        return pd.Timestamp(dt.date.fromisoformat(text))
+    except (ValueError, TypeError, OverflowError):
+        return pd.NaT
+
+
+def _season_order(present: set[str], cfg: Config, calendar, first_date: dict[str, pd.Timestamp]) -> tuple[str, ...]:
+    order = list(cfg["seasons.order"])
+    if order:
+        missing = sorted(present - set(order), key=natural_key)
+        if missing:
+            raise ConfigError(str(cfg.source or "<config>"), "seasons.order",
+                              f"does not list season(s) {', '.join(map(repr, missing))} found in the data",
+                              "add them to seasons.order, or empty it to sort seasons automatically")
+        return tuple(s for s in dict.fromkeys(order) if s in present)
+    if calendar:
+        return tuple(name for name, start, _ in sorted(calendar, key=lambda e: e[1]) if name in present)
+    dated = [s for s in present if s in first_date]
+    undated = sorted(present - set(dated), key=natural_key)
+    return tuple(sorted(dated, key=lambda s: (first_date[s], natural_key(s)))) + tuple(undated)
+
+
+def _name_variants(names: list[str], counts: np.ndarray, known: dict[str, str] | None,
+                   what: str) -> tuple[list[str], list[Finding], list[int]]:
+    """Canonical spelling per distinct name, findings, and indices of names unknown to ``known``.
+
+    Without ``known`` (the card table's names by variant key) the most used
+    spelling wins, ties to the first in sort order.
+    """
+    groups: dict[str, list[int]] = defaultdict(list)
+    for i, name in enumerate(names):
+        groups[variant_key(name)].append(i)
+    canonical = list(names)
+    findings: list[Finding] = []
+    unknown: list[int] = []
+    for key in sorted(groups):
+        members = groups[key]
+        if known is not None:
+            if key not in known:
+                unknown.extend(members)
+                continue
+            winner = known[key]
+        else:
+            winner = names[min(members, key=lambda i: (-int(counts[i]), names[i]))]
+        spellings = sorted({names[i] for i in members} | {winner})
+        for i in members:
+            canonical[i] = winner
+        if len(spellings) > 1:
+            listed = ", ".join(f"{s!r}" + (f" ({int(counts[names.index(s)])} rows)" if s in names else "")
+                               for s in spellings)
+            findings.append(Finding("name-variants",
+                                    f"{what} written {len(spellings)} ways: {listed}; all read as {winner!r}"))
+    return canonical, findings, unknown
+
+
+def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config) -> DeckData:
+    """Check every row of the read tables and assemble the DeckData.
+
+    Names that differ only by case or spacing are read as one (the card
+    table's spelling, else the most used one) with a ``name-variants``
+    finding; a deck that lists both spellings gets their copies added up.
+    Raises DataErrors with every problem found (file and row order), or a
+    ConfigError when the settings do not fit the data.
+    """
+    problems = _Problems()
+    frame = decks.frame
+    source = cfg["seasons.source"]
+    cards_file = cards.file
+
+    # -- deck table
+    deck_codes, deck_names = _codes(frame["deck_id"])
+    n_decks = len(frame)
+    empty_id = [i for i, name in enumerate(deck_names) if not name]
+    if empty_id:
+        problems.flag(decks, np.flatnonzero(np.isin(deck_codes, empty_id)), "deck id is empty", column="deck_id",
+                      fix="give every deck an id")
+    named = np.array([bool(n) for n in deck_names], dtype=bool)
+    seen = pd.Series(deck_codes).duplicated().to_numpy() & named[deck_codes]
+    if seen.any():
+        dup = np.flatnonzero(seen)
+        shown = dup[:ERRORS_PER_PROBLEM]
+        first = _first_positions(deck_codes, deck_codes[shown])
+        problems.flag(decks, dup, "deck id appears on two rows", column="deck_id",
+                      values=[deck_names[deck_codes[p]] for p in shown],
+                      notes=[f" (also row {decks.where(np.array([first[int(deck_codes[p])]]), 'deck_id')[0][1]})" for p in shown],
+                      fix="give each deck one row and its own id")
+    deck_id = _text(deck_names, deck_codes)
+
+    leader = _cleaned(frame["leader"])
+    problems.flag(decks, np.flatnonzero((leader == "").to_numpy()), "deck has no leader", column="leader",
+                  fix="fill in the deck's leader")
+
+    dates = None
+    if "date" in frame:
+        dates, bad, empty = _parse_dates(frame["date"])
+        problems.flag(decks, bad, "not a date", column="date", values=frame["date"].to_numpy()[bad[:ERRORS_PER_PROBLEM]],
+                      fix="write dates as YYYY-MM-DD, for example 2026-03-01")
+    calendar = None
+    if source == "calendar":
+        calendar = _calendar(cfg)
+        if dates is None:
+            raise DataError(decks.file, f"missing column '{decks.names.get('date', cfg['columns.date'])}' "
+                            "(seasons.source is 'calendar', so every deck needs a date)", row=1,
+                            fix="add a date column, set columns.date to its name, or set seasons.source = \"column\"")
+        problems.flag(decks, empty, "deck has no date", column="date",
+                      fix="fill in the date the deck was played (YYYY-MM-DD)")
+        season = pd.Series([""] * n_decks, dtype=object)
+        for name, start, end in calendar:
+            low, high = pd.Timestamp(start), pd.Timestamp(end) + pd.Timedelta(days=1)
+            inside = (dates.notna() & (dates >= low) & (dates < high) & (season == "")).to_numpy()
+            season[inside] = name
+        outside = np.flatnonzero(dates.notna().to_numpy() & (season == "").to_numpy())
+        problems.flag(decks, outside, "date falls in no season of seasons.calendar",
+                      column="date", values=frame["date"].to_numpy()[outside[:ERRORS_PER_PROBLEM]],
+                      fix="add a season covering this date to seasons.calendar, or correct the date")
+        season = season.astype("str")
+    else:
+        if "season" not in frame:
+            raise DataError(decks.file, f"missing column '{cfg['columns.season']}'", row=1, column=cfg["columns.season"],
+                            fix="add a season column, set columns.season to its name, or use seasons.source = \"calendar\"")
+        season = _cleaned(frame["season"])
+        problems.flag(decks, np.flatnonzero((season == "").to_numpy()), "deck has no season", column="season",
+                      fix="fill in the deck's season")
+
+    results = {}
+    for column in ("wins", "losses"):
+        if column in frame:
+            values, bad = parse_counts(frame[column], positive=False)
+            problems.flag(decks, bad, f"{column} is not a whole number of 0 or more", column=column,
+                          values=frame[column].to_numpy()[bad[:ERRORS_PER_PROBLEM]], fix="write a count like 3, or leave it empty")
+            results[column] = values.reset_index(drop=True)
+        else:
+            results[column] = pd.Series(pd.array([pd.NA] * n_decks, dtype="Int64"))
+    extras = {}
+    for column in ("event", "player", "title"):
+        if column in frame:
+            text = _cleaned(frame[column])
+            extras[column] = text.where(text != "")
+        else:
+            extras[column] = pd.Series([np.nan] * n_decks, dtype="str")
+
+    # -- long-form table
+    cframe = cards.frame
+    cdeck_codes, cdeck_names = _codes(cframe["deck_id"])
+    card_codes, card_names = _codes(cframe["card"])
+    empty_card = [i for i, name in enumerate(card_names) if not name]
+    if empty_card:
+        problems.flag(cards, np.flatnonzero(np.isin(card_codes, empty_card)), "card name is empty", column="card",
+                      fix="fill in the card's name, or delete the row")
+    empty_cdeck = [i for i, name in enumerate(cdeck_names) if not name]
+    if empty_cdeck:
+        problems.flag(cards, np.flatnonzero(np.isin(cdeck_codes, empty_cdeck)), "deck id is empty", column="deck_id",
+                      fix="give every row the id of its deck")
+    quantity, bad = parse_counts(cframe["quantity"], positive=True)
+    missing_q = np.flatnonzero(quantity.isna().to_numpy())
+    bad = np.union1d(bad, missing_q)
+    problems.flag(cards, bad, "quantity is not a whole number of 1 or more", column="quantity",
+                  values=cframe["quantity"].to_numpy()[bad[:ERRORS_PER_PROBLEM]],
+                  fix="write the number of copies, like 2 (delete rows of cards the deck does not play)")
+
+    # Decks known to one table and not the other, both directions.
+    deck_index = pd.Index(deck_names)
+    where_in_decks = deck_index.get_indexer(cdeck_names)
+    orphan_codes = np.flatnonzero((where_in_decks < 0) & np.array([bool(n) for n in cdeck_names], dtype=bool))
+    if orphan_codes.size:
+        first = _first_positions(cdeck_codes, orphan_codes)
+        pos = np.array(sorted(first.values()), dtype=np.int64)
+        problems.flag(cards, pos, f"deck id is not in the deck table {decks.file}", column="deck_id",
+                      values=[cdeck_names[cdeck_codes[p]] for p in pos[:ERRORS_PER_PROBLEM]],
+                      fix="add the deck to the deck table, or correct the id")
+    used = np.zeros(len(deck_names), dtype=bool)
+    used[where_in_decks[where_in_decks >= 0]] = True
+    if not used.all():
+        lonely = [i for i in np.flatnonzero(~used) if deck_names[i]]
+        first = _first_positions(deck_codes, np.array(lonely, dtype=np.int64))
+        pos = np.array(sorted(first.values()), dtype=np.int64)
+        problems.flag(decks, pos, f"deck has no cards in {cards_file}", column="deck_id",
+                      values=[deck_names[deck_codes[p]] for p in pos[:ERRORS_PER_PROBLEM]],
+                      fix="add its cards to the long-form table, or delete the deck's row")
+
+    # Sort by deck id then card (codes ranked by the names' sort order).
+    deck_rank = _rank(deck_names)
+    card_rank = _rank(card_names)
+    key = _rank(cdeck_names)[cdeck_codes] * np.int64(max(len(card_names), 1)) + card_rank[card_codes]
+    order = _argsort(key)
+    sorted_key = key[order]
+    same = np.flatnonzero(sorted_key[1:] == sorted_key[:-1]) + 1
+    if same.size:
+        # Only now pay for a stable sort: within equal keys, file order; name the previous row of the pair.
+        order = _argsort(key, stable=True)
+        sorted_key = key[order]
+        same = np.flatnonzero(sorted_key[1:] == sorted_key[:-1]) + 1
+        earlier = dict(zip(order[same].tolist(), order[same - 1].tolist()))
+        later = np.sort(order[same])
+        shown = later[:ERRORS_PER_PROBLEM]
+        earlier_rows = [r for _, r in cards.where(np.array([earlier[int(p)] for p in shown]), "card")]
+        problems.flag(cards, later, "the same deck and card on two rows", column="card",
+                      values=[card_names[card_codes[p]] for p in shown],
+                      notes=[f" (deck {cdeck_names[cdeck_codes[p]]!r}, also row {r})" for p, r in zip(shown, earlier_rows)],
+                      fix="keep one row per deck and card, with the total quantity")
+
+    # Card names: one spelling per card, and known to the card table if there is one.
+    findings: list[Finding] = []
+    card_info = None
+    known = None
+    if card_table is not None:
+        card_info, known = _card_info(card_table, cfg, problems)
+    counts = np.bincount(card_codes, minlength=len(card_names))
+    canonical, name_findings, unknown = _name_variants(card_names, counts, known, "card name")
+    findings.extend(name_findings)
+    unknown = [i for i in unknown if card_names[i]]
+    if unknown:
+        first = _first_positions(card_codes, np.array(unknown, dtype=np.int64))
+        pos = np.array(sorted(first.values()), dtype=np.int64)
+        choices = list(known.values()) if known else []
+        values = [card_names[card_codes[p]] for p in pos[:ERRORS_PER_PROBLEM]]
+        hints = [difflib.get_close_matches(v, choices, n=1) for v in values]
+        problems.flag(cards, pos, f"card is not in the card table {card_table.file}", column="card", values=values,
+                      notes=[f" (did you mean {h[0]!r}?)" if h else "" for h in hints],
+                      fix="add the card to the card table, or correct its spelling")
+
+    leader_codes, leader_names = _codes(leader)
+    leader_canon, leader_findings, _ = _name_variants(
+        leader_names, np.bincount(leader_codes, minlength=len(leader_names)), None, cfg["site.leader_word"])
+    findings.extend(leader_findings)
+
+    problems.raise_if_any()
+
+    # -- assemble
+    leader = pd.Series(np.asarray(leader_canon, dtype=object)[leader_codes], dtype="str")
+    present = set(season.tolist())
+    first_date: dict[str, pd.Timestamp] = {}
+    if dates is not None and dates.notna().any():
+        first_date = {str(k): v for k, v in dates.groupby(season.to_numpy()).min().dropna().items()}
+    seasons = _season_order(present, cfg, calendar, first_date)
+    decks_out = pd.DataFrame({
+        "deck_id": deck_id, "season": season.reset_index(drop=True), "leader": leader,
+        "wins": results["wins"], "losses": results["losses"],
+        "event": extras["event"].reset_index(drop=True), "player": extras["player"].reset_index(drop=True),
+        "title": extras["title"].reset_index(drop=True),
+    })[list(DECK_COLUMNS)]
+    decks_out = decks_out.iloc[np.argsort(deck_rank[deck_codes], kind="stable")].reset_index(drop=True)
+
+    merged = any(c != n for c, n in zip(canonical, card_names))
+    qty = quantity.to_numpy(dtype=np.int64)[order]
+    cards_out = pd.DataFrame({"deck_id": _text(cdeck_names, cdeck_codes[order]),
+                              "card": _text(canonical, card_codes[order]), "quantity": qty})
+    if merged:
+        # Spellings that became one name may now sit twice in a deck: add them up and re-sort.
+        before = len(cards_out)
+        cards_out = (cards_out.groupby(["deck_id", "card"], sort=True, as_index=False)["quantity"].sum()
+                     .reset_index(drop=True))
+        cards_out["quantity"] = cards_out["quantity"].astype(np.int64)
+        if len(cards_out) < before:
+            findings.append(Finding("name-variants", f"{before - len(cards_out)} card row(s) named a card a deck already "
+                                    "listed under another spelling; their copies were added up"))
+    return DeckData(decks=decks_out, cards=cards_out, card_info=card_info, seasons=seasons,
+                    findings=tuple(findings))
+
+
+def _rank(names: list[str]) -> np.ndarray:
+    """Position of each name in sorted order."""
+    rank = np.empty(len(names), dtype=np.int64)
+    rank[np.argsort(np.asarray(names, dtype=object), kind="stable")] = np.arange(len(names))
+    return rank
+
+
+def _argsort(key: np.ndarray, stable: bool = False) -> np.ndarray:
+    """Order of ``key``; already sorted input (the usual case) costs one pass."""
+    if key.size < 2 or bool(np.all(key[1:] >= key[:-1])):
+        return np.arange(key.size)
+    return np.argsort(key, kind="stable" if stable else None)
+
+
+def _text(uniques: list[str], codes: np.ndarray) -> pd.Series:
+    """A text column built from distinct values and codes without a Python-object detour."""
+    return pd.Series(pd.Index(uniques, dtype="str").take(codes), dtype="str")
+
+
+def _card_info(table: Table, cfg: Config, problems: _Problems) -> tuple[pd.DataFrame, dict[str, str]]:
+    """The card table, card and type first, and its names by variant key."""
+    frame = table.frame
+    names = _cleaned(frame["card"])
+    empty = np.flatnonzero((names == "").to_numpy())
+    problems.flag(table, empty, "card name is empty", column="card", fix="fill in the card's name, or delete the row")
+    keys = names.map(variant_key)
+    dup = np.flatnonzero(keys.duplicated().to_numpy() & (names != "").to_numpy())
+    if dup.size:
+        first = {}
+        for i, k in enumerate(keys.tolist()):
+            first.setdefault(k, i)
+        shown = dup[:ERRORS_PER_PROBLEM]
+        problems.flag(table, dup, "card listed twice (names differ at most by case or spacing)", column="card",
+                      values=[names.iloc[p] for p in shown],
+                      notes=[f" (also row {table.where(np.array([first[keys.iloc[p]]]))[0][1]})" for p in shown],
+                      fix="keep one row per card")
+    known = {}
+    for name, key in zip(names.tolist(), keys.tolist()):
+        if name:
+            known.setdefault(key, name)
+    extra_wanted = list(cfg["columns.card_extra"])
+    extras = [c for c in frame.columns if c not in ("card", "type")]
+    if extra_wanted:
+        shown = {table.names.get(c, c): c for c in extras}
+        absent = [c for c in extra_wanted if c not in shown]
+        if absent:
+            have = ", ".join(f"'{c}'" for c in shown) or "none"
+            for c in absent:
+                problems.errors.append(DataError(table.file, f"missing column '{c}' named in columns.card_extra (further columns: {have})",
+                                                 row=1, column=c, fix="correct columns.card_extra, or add the column"))
+        extras = [shown[c] for c in extra_wanted if c in shown]
+    out = pd.DataFrame({"card": names, "type": _cleaned(frame["type"])})
+    for c in extras:
+        out[table.names.get(c, c)] = _maybe_numbers(frame[c])
+    out = out[out["card"] != ""].drop_duplicates("card").sort_values("card", kind="stable").reset_index(drop=True)
+    return out, known
+
+
+def _maybe_numbers(column: pd.Series) -> pd.Series:
+    """A further card-table column as numbers when every filled cell is one (so costs sort as numbers)."""
+    if not (pd.api.types.is_string_dtype(column.dtype) or column.dtype == object):
+        return column.reset_index(drop=True)
+    text = pd.Series(column.to_numpy(dtype=object), dtype="str").fillna("").str.strip()
+    filled = (text != "").to_numpy()
+    if not filled.any():
+        return text.where(filled)
+    try:
+        numbers = pd.to_numeric(text[filled])
+    except (ValueError, TypeError):
+        return pd.Series(column.to_numpy(), dtype="str").where(filled)
+    out = pd.Series(pd.array([pd.NA] * len(text), dtype="Float64"))
+    out[filled] = numbers.to_numpy(dtype=float)
+    whole = np.isfinite(numbers.to_numpy(dtype=float)).all() and (numbers % 1 == 0).all()
+    return out.astype("Int64") if whole and (out.abs() < 2 ** 53).fillna(True).all() else out

@@ -1,0 +1,332 @@
+"""Reading one CSV or Parquet table, with every file-level problem as a DataError.
+
+The format follows the file name: ``.csv`` is CSV (RFC 4180, UTF-8, an
+optional byte-order mark), ``.parquet`` or ``.pq`` is Parquet. CSV is read
+with pyarrow (fast, multi-threaded, only the needed columns); when pyarrow
+refuses a file the csv module finds the row to blame, and the pandas C
+engine is the last resort. Every CSV value is read as text so ids keep their
+leading zeros and a card called ``NA`` stays a card; numbers are checked
+later, where the row can be named.
+"""
+from __future__ import annotations
+
+import codecs
+import csv
+import mmap
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+import pyarrow.csv as pacsv
+import pyarrow.parquet as pq
+
+from ..errors import DataError, DataErrors
+from .origin import Origin, TableOrigin
+
+CSV_SUFFIXES = (".csv",)
+PARQUET_SUFFIXES = (".parquet", ".pq")
+
+#: Bytes looked at to tell text from binary before parsing.
+_SNIFF_BYTES = 1 << 16
+#: Largest single CSV cell the csv module accepts when diagnosing a file.
+_FIELD_LIMIT = 1 << 20
+
+
+@dataclass(frozen=True)
+class Table:
+    """One table as read: ``frame`` has logical column names (deck_id, card...).
+
+    ``names`` maps each logical name to the column's name in the file, for
+    messages; ``origin`` turns row positions into (file, spreadsheet row).
+    """
+
+    file: str
+    frame: pd.DataFrame
+    origin: Origin
+    names: dict[str, str] = field(default_factory=dict)
+    column_origins: dict[str, Origin] = field(default_factory=dict)
+
+    def where(self, positions: np.ndarray, column: str | None = None) -> list[tuple[str, int]]:
+        """(file, row) of each row position; some columns of a decklist sit on their own line."""
+        origin = self.column_origins.get(column, self.origin) if column else self.origin
+        return origin.where(positions)
+
+
+def _suffix(path: Path) -> str:
+    return path.suffix.lower()
+
+
+def _check_file(path: Path, setting: str) -> None:
+    """Fail early on a missing, empty or mis-named file."""
+    if not path.exists():
+        raise DataError(path, "file not found", fix=f"check the path given in setting '{setting}' (relative to the config file)")
+    if path.is_dir():
+        raise DataError(path, "is a folder, not a file", fix=f"give a CSV or Parquet file in setting '{setting}'")
+    if _suffix(path) not in CSV_SUFFIXES + PARQUET_SUFFIXES:
+        raise DataError(path, f"unknown table format '{path.suffix or '(no extension)'}'",
+                        fix="name the file .csv for CSV or .parquet/.pq for Parquet")
+    try:
+        size = path.stat().st_size
+    except OSError as exc:
+        raise DataError(path, f"cannot be read: {exc.strerror}", fix="check the file's permissions") from None
+    if size == 0:
+        raise DataError(path, "empty file (no header, no rows)", fix="give a table with a header row and one row per deck")
+
+
+def read_table(
+    path: Path,
+    *,
+    setting: str,
+    required: dict[str, str],
+    optional: dict[str, str] | None = None,
+    numeric: frozenset[str] = frozenset(),
+    all_columns: bool = False,
+) -> Table:
+    """Read the columns a stage needs from one table file.
+
+    ``required`` and ``optional`` map logical names to the file's column
+    names; a missing required column is an error that lists the columns the
+    file has, a missing optional one is left out. ``numeric`` names logical
+    columns a Parquet file may keep as numbers (everything else becomes
+    text). With ``all_columns`` every further column is kept under its own
+    name (the card table).
+    """
+    _check_file(path, setting)
+    optional = optional or {}
+    if _suffix(path) in CSV_SUFFIXES:
+        header = _csv_header(path)
+        reader = _read_csv
+    else:
+        header = _parquet_header(path)
+        reader = _read_parquet
+    present = {name.strip(): name for name in header}
+    missing = [(logical, col) for logical, col in required.items() if col not in present]
+    if missing:
+        shown = ", ".join(f"'{h}'" for h in present) or "none"
+        errors = [
+            DataError(path, f"missing column '{col}' (the file has {shown})", row=1, column=col,
+                      fix=f"add the column or set columns.{_setting_of(logical)} to the name the file uses")
+            for logical, col in missing
+        ]
+        raise errors[0] if len(errors) == 1 else DataErrors(errors)
+    wanted = {logical: present[col] for logical, col in required.items()}
+    wanted.update({logical: present[col] for logical, col in optional.items() if col in present})
+    if all_columns:
+        taken = set(wanted.values())
+        for raw in header:
+            if raw not in taken and raw.strip():
+                name = raw.strip()
+                while name in wanted:
+                    name = f"{name}_extra"
+                wanted[name] = raw
+    frame = reader(path, wanted, numeric)
+    if len(frame) == 0:
+        raise DataError(path, "header only, no rows", row=2,
+                        fix="add one row per deck (or card) under the header")
+    names = {logical: raw.strip() for logical, raw in wanted.items()}
+    return Table(str(path), frame, TableOrigin(path, is_csv=_suffix(path) in CSV_SUFFIXES), names)
+
+
+def _setting_of(logical: str) -> str:
+    return {"card": "card", "name": "card_name", "type": "card_type"}.get(logical, logical)
+
+
+# -- CSV -----------------------------------------------------------------------
+
+def _sniff(path: Path) -> bytes:
+    with open(path, "rb") as f:
+        head = f.read(_SNIFF_BYTES)
+    if b"\x00" in head:
+        at = head.index(b"\x00")
+        raise DataError(path, f"binary data, not CSV text (a NUL byte at byte offset {at})",
+                        row=head[:at].count(b"\n") + 1,
+                        fix="export the table as CSV (UTF-8 text), or give a Parquet file a .parquet name")
+    if head.startswith((b"PAR1", b"PK\x03\x04", b"\x1f\x8b")):
+        raise DataError(path, "binary data (Parquet, zip or gzip), not CSV text",
+                        fix="give the file its real extension, or export it as CSV (UTF-8 text)")
+    return head
+
+
+def _find_bad_utf8(path: Path) -> DataError | None:
+    """Scan the whole file for invalid UTF-8 (only after a reader complained)."""
+    decoder = codecs.getincrementaldecoder("utf-8")()
+    offset = 0
+    lines = 0
+    with open(path, "rb") as f:
+        while True:
+            chunk = f.read(1 << 22)
+            if not chunk:
+                try:
+                    decoder.decode(b"", final=True)
+                except UnicodeDecodeError:
+                    return DataError(path, f"not valid UTF-8 text (the file ends inside a character, byte offset {offset})",
+                                     fix="save the file as UTF-8 (in a spreadsheet: CSV UTF-8)")
+                return None
+            try:
+                decoder.decode(chunk)
+            except UnicodeDecodeError as exc:
+                # The decoder may hold up to 3 bytes from the previous chunk.
+                at = max(offset + exc.start - len(exc.object) + len(chunk), offset)
+                local = at - offset
+                line = lines + chunk[:local].count(b"\n") + 1
+                bad = chunk[local] if local < len(chunk) else 0
+                return DataError(path, f"not valid UTF-8 text (bad byte 0x{bad:02x} at byte offset {at}, line {line})",
+                                 fix="save the file as UTF-8 (in a spreadsheet: CSV UTF-8)")
+            lines += chunk.count(b"\n")
+            offset += len(chunk)
+
+
+def _csv_header(path: Path) -> list[str]:
+    head = _sniff(path)
+    # The sniffed prefix may end inside a character: not an error yet.
+    try:
+        codecs.getincrementaldecoder("utf-8")().decode(head, final=len(head) < _SNIFF_BYTES)
+    except UnicodeDecodeError:
+        raise (_find_bad_utf8(path) or DataError(path, "not valid UTF-8 text", fix="save the file as UTF-8")) from None
+    csv.field_size_limit(_FIELD_LIMIT)
+    try:
+        with open(path, encoding="utf-8-sig", newline="") as f:
+            reader = csv.reader(f)
+            for record in reader:
+                if record:
+                    break
+            else:
+                record = []
+    except UnicodeDecodeError:
+        raise (_find_bad_utf8(path) or DataError(path, "not valid UTF-8 text", fix="save the file as UTF-8")) from None
+    except csv.Error as exc:
+        raise DataError(path, f"the header row is not valid CSV: {exc}", row=1,
+                        fix="give the table a header row of column names, comma-separated") from None
+    if not record or all(not h.strip() for h in record):
+        raise DataError(path, "no header row (the file holds only blank lines)", row=1,
+                        fix="give the table a header row of column names")
+    seen: dict[str, int] = {}
+    for i, name in enumerate(record, start=1):
+        key = name.strip()
+        if key in seen and key:  # unnamed trailing columns (a spreadsheet's extra commas) may repeat
+            raise DataError(path, f"column name '{key}' appears twice in the header (columns {seen[key]} and {i})",
+                            row=1, column=key, fix="give every column its own name")
+        seen[key] = i
+    return record
+
+
+def _read_csv(path: Path, wanted: dict[str, str], numeric: frozenset[str]) -> pd.DataFrame:
+    raw_names = list(dict.fromkeys(wanted.values()))
+    try:
+        table = pacsv.read_csv(
+            path,
+            # Without any quote character no value can hold a newline, and pyarrow may then
+            # split the file into blocks at any newline (several times faster on big files).
+            parse_options=pacsv.ParseOptions(newlines_in_values=_has_quote(path)),
+            convert_options=pacsv.ConvertOptions(
+                include_columns=raw_names,
+                column_types={name: pa.string() for name in raw_names},
+                strings_can_be_null=False,
+                quoted_strings_can_be_null=False,
+            ),
+        )
+        frame = table.to_pandas()
+    except (pa.ArrowInvalid, pa.ArrowException, ValueError, OSError) as exc:
+        frame = _read_csv_slow(path, raw_names, str(exc))
+    out = pd.DataFrame({logical: frame[raw] for logical, raw in wanted.items()})
+    return out
+
+
+def _has_quote(path: Path) -> bool:
+    try:
+        with open(path, "rb") as f, mmap.mmap(f.fileno(), 0, access=mmap.ACCESS_READ) as m:
+            return m.find(b'"') >= 0
+    except (OSError, ValueError):
+        return True
+
+
+def _read_csv_slow(path: Path, raw_names: list[str], first_complaint: str) -> pd.DataFrame:
+    """After pyarrow refused the file: blame a row, else try the pandas C engine."""
+    bad = _find_bad_utf8(path)
+    if bad is not None:
+        raise bad
+    problem = _diagnose_csv(path)
+    if problem is not None:
+        raise problem
+    try:
+        frame = pd.read_csv(path, engine="c", usecols=raw_names, dtype=str, keep_default_na=False,
+                            na_filter=False, encoding="utf-8-sig")
+    except Exception as exc:  # any parser failure becomes a located message, never a traceback
+        raise DataError(path, f"cannot be read as CSV: {first_complaint.splitlines()[0] if first_complaint else exc}",
+                        fix="check the file is comma-separated UTF-8 text with one header row") from None
+    return frame
+
+
+def _diagnose_csv(path: Path) -> DataError | None:
+    """Find the first record whose field count differs from the header's."""
+    csv.field_size_limit(_FIELD_LIMIT)
+    reader = None
+    try:
+        with open(path, encoding="utf-8-sig", newline="") as f:
+            reader = csv.reader(f, strict=False)
+            width = None
+            for number, record in enumerate(reader, start=1):
+                if not record:
+                    continue
+                if width is None:
+                    width = len(record)
+                    continue
+                if len(record) != width:
+                    return DataError(path, f"row has {len(record)} fields but the header has {width}",
+                                     row=number, fix="quote values that hold commas (\"a, b\"), and give every row one value per column")
+    except csv.Error as exc:
+        return DataError(path, f"not valid CSV: {exc}", row=reader.line_num if reader is not None else None,
+                         fix="check quotes are balanced and cells are not huge")
+    except UnicodeDecodeError:
+        return _find_bad_utf8(path)
+    return None
+
+
+# -- Parquet -------------------------------------------------------------------
+
+def _not_parquet(path: Path, exc: Exception) -> DataError:
+    first = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+    return DataError(path, f"not a readable Parquet file ({first})",
+                     fix="write the file with a Parquet writer (pandas to_parquet), or name a CSV file .csv")
+
+
+def _parquet_header(path: Path) -> list[str]:
+    try:
+        return list(pq.ParquetFile(path).schema_arrow.names)
+    except Exception as exc:  # pyarrow raises several types for a corrupt file
+        raise _not_parquet(path, exc) from None
+
+
+def _read_parquet(path: Path, wanted: dict[str, str], numeric: frozenset[str]) -> pd.DataFrame:
+    raw_names = list(dict.fromkeys(wanted.values()))
+    try:
+        table = pq.read_table(path, columns=raw_names)
+    except Exception as exc:  # pyarrow raises several types for a corrupt file
+        raise _not_parquet(path, exc) from None
+    out: dict[str, pd.Series] = {}
+    for logical, raw in wanted.items():
+        column = table.column(raw)
+        kind = column.type
+        if logical in numeric and (pa.types.is_integer(kind) or pa.types.is_floating(kind)):
+            out[logical] = column.to_pandas()
+            continue
+        out[logical] = _as_text(column)
+    return pd.DataFrame(out)
+
+
+def _as_text(column: pa.ChunkedArray) -> pd.Series:
+    """A Parquet column as text: nulls become empty strings."""
+    kind = column.type
+    if pa.types.is_dictionary(kind):
+        column = column.cast(kind.value_type)
+        kind = column.type
+    if not (pa.types.is_string(kind) or pa.types.is_large_string(kind)):
+        try:
+            column = pc.cast(column, pa.string())
+        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+            return pd.Series([("" if v is None else str(v)) for v in column.to_pylist()], dtype="str")
+    column = pc.fill_null(column, "")
+    return pd.Series(column.to_pandas(), dtype="str")

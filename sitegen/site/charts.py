@@ -1,0 +1,511 @@
+"""Vega-Lite chart specs for the site, built as plain dicts and checked at build time.
+
+Each builder takes plain data (a :class:`~sitegen.model.PartitionResult` or
+a list of row dicts) and returns a :class:`Chart`: the spec, a caption, and
+the table the chart summarises (its text alternative on the page). Every
+builder passes its spec through :func:`validate_spec`, so a spec that breaks
+the Vega-Lite schema or does not compile fails the build, not the browser.
+Specs hold their data inline and reach pages only through ``|tojson``.
+"""
+from __future__ import annotations
+
+import functools
+import hashlib
+import json
+import math
+import re
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Iterable, Mapping, Sequence
+
+from ..errors import RenderError
+from ..model import ALL_LEADERS, OTHER_KEY, PartitionResult
+
+# Okabe, M. & Ito, K. (2008), "Color Universal Design (CUD): how to make
+# figures and presentations that are friendly to colorblind people" -- the
+# eight colours, in an order that puts the strongest contrasts on white first.
+OKABE_ITO: tuple[str, ...] = (
+    "#E69F00",  # orange
+    "#56B4E9",  # sky blue
+    "#009E73",  # bluish green
+    "#0072B2",  # blue
+    "#D55E00",  # vermillion
+    "#CC79A7",  # reddish purple
+    "#000000",  # black
+    "#F0E442",  # yellow
+)
+#: The other-decks group: the grey that closes the Okabe & Ito list in R's
+#: ``palette.colors()``.
+OTHER_GREY = "#999999"
+#: Point shapes for archetypes beyond the eighth: colour repeats, shape changes.
+SHAPES: tuple[str, ...] = ("circle", "square", "triangle-up", "diamond", "cross", "triangle-down")
+
+#: The site's system font stack (no web fonts), so chart text matches the page.
+SYSTEM_FONT = 'system-ui, -apple-system, "Segoe UI", Roboto, "Helvetica Neue", Arial, sans-serif'
+
+# Shared look: the page's font, and text a little larger than Vega's defaults so it reads on phones.
+_CONFIG = {
+    "font": SYSTEM_FONT,
+    "axis": {"labelFontSize": 12, "titleFontSize": 12},
+    "legend": {"labelFontSize": 12, "titleFontSize": 12},
+}
+
+_ID = re.compile(r"[A-Za-z][A-Za-z0-9_-]*\Z")
+_MAP_HEIGHT = 420
+_SMALL_HEIGHT = 240
+_MID_HEIGHT = 300
+
+
+@dataclass(frozen=True)
+class Chart:
+    """One chart: its element id, Vega-Lite spec, caption, and text alternative.
+
+    ``columns`` and ``rows`` are the table the chart summarises, with cells
+    already formatted for display; a page shows them when a reader cannot
+    or would rather not read the chart.
+    """
+
+    id: str
+    spec: dict
+    caption: str
+    columns: tuple[str, ...]
+    rows: tuple[tuple, ...]
+
+
+# -- checking -----------------------------------------------------------------
+
+
+@functools.cache
+def _schema_and_version() -> tuple[dict, str]:
+    """The Vega-Lite JSON schema shipped in altair, and its version (``v6.4.1``)."""
+    import altair  # imported here: loading altair takes a moment and only checks need it
+
+    base = Path(altair.__file__).resolve().parent / "vegalite"
+    major = altair.SCHEMA_VERSION.split(".")[0]  # "v6"
+    path = base / major / "schema" / "vega-lite-schema.json"
+    with path.open(encoding="utf-8") as fh:
+        return json.load(fh), altair.SCHEMA_VERSION
+
+
+@functools.cache
+def _validator() -> Any:
+    import jsonschema
+
+    schema, _ = _schema_and_version()
+    cls = jsonschema.validators.validator_for(schema)
+    return cls(schema)
+
+
+def schema_url() -> str:
+    """The ``$schema`` URL every spec names (an identifier; nothing is fetched)."""
+    return f"https://vega.github.io/schema/vega-lite/{_schema_and_version()[1]}.json"
+
+
+@functools.cache
+def vl_version() -> str:
+    """The Vega-Lite version (``6.4``) vl-convert compiles with and bundles.
+
+    It matches the schema's major.minor when vl-convert carries that version,
+    else the newest it carries with the same major version.
+    """
+    import vl_convert
+
+    wanted = _schema_and_version()[1].lstrip("v").split(".")
+    have = list(vl_convert.get_vegalite_versions())
+    exact = ".".join(wanted[:2])
+    if exact in have:
+        return exact
+    same_major = [v for v in have if v.split(".")[0] == wanted[0]]
+    if not same_major:
+        raise RenderError(
+            f"vl-convert carries Vega-Lite {', '.join(have)} but the schema in altair is "
+            f"v{'.'.join(wanted)}; install matching versions of altair and vl-convert-python"
+        )
+    return max(same_major, key=lambda v: tuple(int(p) for p in v.split(".")))
+
+
+_checked: set[str] = set()
+
+
+def validate_spec(spec: dict, chart_id: str = "chart") -> None:
+    """Check a spec against the Vega-Lite schema, then compile it with vl-convert.
+
+    Raises :class:`RenderError` naming the chart and, for a schema error,
+    the place in the spec and the schema path that refused it. Specs already
+    checked in this process (same JSON text) are not checked again.
+    """
+    try:
+        text = json.dumps(spec, sort_keys=True, allow_nan=False)
+    except (TypeError, ValueError) as exc:
+        raise RenderError(f"chart '{chart_id}': spec is not plain JSON ({exc}); pass numbers and strings only, no NaN") from exc
+    digest = hashlib.sha256(text.encode("utf-8")).hexdigest()
+    if digest in _checked:
+        return
+    import jsonschema
+
+    error = jsonschema.exceptions.best_match(_validator().iter_errors(spec))
+    if error is not None:
+        where = "/".join(str(p) for p in error.absolute_path) or "(top level)"
+        schema_path = "/".join(str(p) for p in error.absolute_schema_path)
+        raise RenderError(
+            f"chart '{chart_id}': spec breaks the Vega-Lite schema at {where} "
+            f"(schema path {schema_path}): {error.message[:200]}"
+        )
+    import vl_convert
+
+    try:
+        vl_convert.vegalite_to_vega(spec, vl_version=vl_version())
+    except Exception as exc:  # vl-convert raises ValueError; anything else is a bad spec too
+        # keep the message, drop the JavaScript stack trace under it
+        lines = [ln.strip() for ln in str(exc).splitlines() if ln.strip() and not ln.strip().startswith("at ")]
+        raise RenderError(f"chart '{chart_id}': Vega-Lite could not compile the spec: {' '.join(lines)[:300]}") from exc
+    _checked.add(digest)
+
+
+def _finish(chart_id: str, spec: dict, caption: str, columns: Sequence[str], rows: Iterable[Sequence]) -> Chart:
+    """Add the shared top-level parts, check the spec, and wrap it as a Chart."""
+    if not _ID.match(chart_id):
+        raise RenderError(
+            f"chart id {chart_id!r} is not a safe HTML id; use a letter then letters, digits, '-' or '_'"
+        )
+    full = {"$schema": schema_url(), "description": caption, **spec,
+            "config": {**_CONFIG, **spec.get("config", {})}}
+    validate_spec(full, chart_id)
+    return Chart(chart_id, full, caption, tuple(columns), tuple(tuple(r) for r in rows))
+
+
+# -- shared pieces ------------------------------------------------------------
+
+
+def _num(value: Any, digits: int = 4) -> float | None:
+    """A rounded plain float (stable JSON text), or None for missing/NaN."""
+    if value is None:
+        return None
+    v = float(value)
+    if math.isnan(v) or math.isinf(v):
+        return None
+    return round(v, digits)
+
+
+def _pct(value: float | None) -> str:
+    return "" if value is None else f"{value * 100:.1f}%"
+
+
+def _leader_text(leader: str) -> str:
+    return "all leaders" if leader == ALL_LEADERS else leader
+
+
+@dataclass(frozen=True)
+class _Style:
+    """Colour and shape scales for a list of groups, in legend order."""
+
+    domain: list[str]
+    colours: list[str]
+    shapes: list[str]
+
+    def color(self, field: str, title: str = "Archetype") -> dict:
+        return {"field": field, "type": "nominal", "title": title, "sort": self.domain,
+                "scale": {"domain": self.domain, "range": self.colours}}
+
+    def shape(self, field: str, title: str = "Archetype") -> dict:
+        return {"field": field, "type": "nominal", "title": title, "sort": self.domain,
+                "scale": {"domain": self.domain, "range": self.shapes}}
+
+
+def _style(groups: Sequence[tuple[str, bool]]) -> _Style:
+    """Okabe & Ito colours in order, grey for the other group; shapes past the eighth."""
+    domain: list[str] = []
+    colours: list[str] = []
+    shapes: list[str] = []
+    i = j = 0
+    for name, is_other in groups:
+        if name in domain:
+            continue
+        domain.append(name)
+        if is_other:  # several other groups (one per leader) stay grey and differ by shape
+            colours.append(OTHER_GREY)
+            shapes.append(SHAPES[j % len(SHAPES)])
+            j += 1
+            continue
+        colours.append(OKABE_ITO[i % len(OKABE_ITO)])
+        shapes.append(SHAPES[(i // len(OKABE_ITO)) % len(SHAPES)])
+        i += 1
+    return _Style(domain, colours, shapes)
+
+
+def _ordered(values: Iterable[str]) -> list[str]:
+    """Distinct values in first-seen order."""
+    return list(dict.fromkeys(values))
+
+
+def _legend_bottom() -> dict:
+    return {"orient": "bottom", "columns": 2, "labelLimit": 320, "symbolStrokeWidth": 2}
+
+
+# -- builders -----------------------------------------------------------------
+
+
+def map_chart(result: PartitionResult, names: Mapping[str, str], chart_id: str) -> Chart:
+    """The t-SNE map of one partition: one point per drawn deck, coloured by archetype.
+
+    ``names`` maps archetype keys to display names (falling back to each
+    archetype's own name). Legend order follows ``result.groups`` so the
+    colours agree with the partition's other charts; the other-decks group
+    is grey.
+    """
+    groups = {g.key: g for g in result.groups}
+
+    def display(key: str) -> str:
+        if key in names:
+            return str(names[key])
+        if key in groups:
+            return groups[key].name
+        return str(key)
+
+    points = result.map_points
+    keys_seen = [str(k) for k in points["archetype"]] if len(points) else []
+    order = [g.key for g in result.groups] + sorted(set(keys_seen) - set(groups))
+    style = _style([(display(k), k == OTHER_KEY or (k in groups and groups[k].is_other)) for k in order])
+
+    values = []
+    counts: dict[str, int] = {}
+    for deck, key, x, y, cards in zip(points["deck_id"], keys_seen, points["x"], points["y"], points["cards"]):
+        xv, yv = _num(x, 3), _num(y, 3)
+        if xv is None or yv is None:  # a deck left off the map
+            continue
+        name = display(key)
+        counts[name] = counts.get(name, 0) + 1
+        values.append({"deck": str(deck), "archetype": name, "cards": str(cards), "x": xv, "y": yv})
+
+    bare_axis = {"type": "quantitative", "axis": None, "scale": {"zero": False, "nice": False}}
+    spec = {
+        "width": "container",
+        "height": _MAP_HEIGHT,
+        "data": {"values": values},
+        "mark": {"type": "point", "filled": True, "size": 36, "opacity": 0.8},
+        "encoding": {
+            "x": {**bare_axis, "field": "x", "title": "Map x"},
+            "y": {**bare_axis, "field": "y", "title": "Map y"},
+            "color": {**style.color("archetype"), "legend": _legend_bottom()},
+            "shape": {**style.shape("archetype"), "legend": _legend_bottom()},
+            "tooltip": [
+                {"field": "deck", "type": "nominal", "title": "Deck"},
+                {"field": "archetype", "type": "nominal", "title": "Archetype"},
+                {"field": "cards", "type": "nominal", "title": "Cards"},
+            ],
+        },
+        "config": {"view": {"stroke": None}},
+    }
+    drawn = len(values)
+    sampled = f"{drawn} of {result.n_decks} decks" if drawn < result.n_decks else f"{drawn} decks"
+    caption = (
+        f"Map of {sampled} ({_leader_text(result.leader)}, {result.season}), coloured by archetype. "
+        "Decks that play similar cards sit close together; distances on the map are not meaningful "
+        "beyond local neighbourhoods."
+    )
+    rows = [(name, counts.get(name, 0)) for name in style.domain if counts.get(name, 0)]
+    return _finish(chart_id, spec, caption, ("Archetype", "Decks drawn"), rows)
+
+
+def silhouette_chart(result: PartitionResult, chart_id: str) -> Chart:
+    """Mean silhouette for each k tried, with the chosen k marked and labelled."""
+    curve = [{"k": int(k), "silhouette": _num(s)} for k, s in result.silhouette]
+    curve = [c for c in curve if c["silhouette"] is not None]
+    chosen = result.chosen_k
+    x = {"field": "k", "type": "quantitative", "title": "Number of archetypes (k)",
+         "axis": {"tickMinStep": 1, "format": "d"}, "scale": {"zero": False}}
+    y = {"field": "silhouette", "type": "quantitative", "title": "Mean silhouette", "scale": {"zero": False}}
+    tooltip = [
+        {"field": "k", "type": "quantitative", "title": "k"},
+        {"field": "silhouette", "type": "quantitative", "title": "Mean silhouette", "format": ".3f"},
+    ]
+    layers: list[dict] = [
+        {"mark": {"type": "line", "color": OKABE_ITO[3]}, "encoding": {"x": x, "y": y}},
+        {"mark": {"type": "point", "filled": True, "color": OKABE_ITO[3], "size": 40},
+         "encoding": {"x": x, "y": y, "tooltip": tooltip}},
+    ]
+    if chosen is not None:
+        scored = [c for c in curve if c["k"] == chosen]
+        mark_data = {"values": [{"k": int(chosen), "label": "chosen"}]}
+        layers += [
+            {"data": mark_data, "mark": {"type": "rule", "color": OKABE_ITO[4], "strokeDash": [4, 3]},
+             "encoding": {"x": x}},
+            {"data": mark_data, "mark": {"type": "text", "align": "left", "dx": 4, "baseline": "top",
+                                         "color": OKABE_ITO[4], "fontWeight": "bold"},
+             "encoding": {"x": x, "y": {"value": 2}, "text": {"field": "label", "type": "nominal"}}},
+        ]
+        if scored:
+            layers.append({"data": {"values": scored},
+                           "mark": {"type": "point", "filled": True, "color": OKABE_ITO[4], "size": 140},
+                           "encoding": {"x": x, "y": y, "tooltip": tooltip}})
+    spec = {
+        "width": "container",
+        "height": _SMALL_HEIGHT,
+        "data": {"values": curve},
+        "layer": layers,
+    }
+    lead = ("Mean silhouette for each number of archetypes tried; higher means better separated groups."
+            if curve else "No silhouette curve was computed for this partition.")
+    caption = f"{lead} {result.k_reason}".strip()
+    rows = [(c["k"], f"{c['silhouette']:.3f}", "chosen" if c["k"] == chosen else "") for c in curve]
+    return _finish(chart_id, spec, caption, ("k", "Mean silhouette", "Chosen"), rows)
+
+
+def _group_style(rows: Sequence[Mapping[str, Any]]) -> _Style:
+    """Style archetypes in first-seen order; a row with ``is_other`` true is grey."""
+    return _style([(str(r["archetype"]), bool(r.get("is_other", False))) for r in rows])
+
+
+def _season_order(rows: Sequence[Mapping[str, Any]], seasons: Sequence[str] | None) -> list[str]:
+    """The axis order: ``seasons`` when given (publication order), else first seen in ``rows``."""
+    seen = _ordered(str(r["season"]) for r in rows)
+    if seasons is None:
+        return seen
+    order = [str(x) for x in seasons if str(x) in seen]
+    return order + [x for x in seen if x not in order]
+
+
+def share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str,
+                seasons: Sequence[str] | None = None) -> Chart:
+    """Each archetype's share of decks across seasons, one line per archetype.
+
+    ``rows``: dicts with ``season``, ``archetype``, ``share`` (0..1),
+    ``decks`` and optionally ``is_other``. The axis keeps ``seasons`` (the
+    publication order) when given, else the order seasons first appear in
+    ``rows``; the first-seen order of archetypes sets the colours.
+    """
+    seasons = _season_order(rows, seasons)
+    style = _group_style(rows)
+    values = [{"season": str(r["season"]), "archetype": str(r["archetype"]),
+               "share": _num(r["share"]), "decks": int(r["decks"])} for r in rows]
+    spec = {
+        "width": "container",
+        "height": _MID_HEIGHT,
+        "data": {"values": values},
+        "encoding": {
+            "x": {"field": "season", "type": "ordinal", "title": "Season", "sort": seasons,
+                  "axis": {"labelAngle": 0}},
+            "y": {"field": "share", "type": "quantitative", "title": "Share of decks",
+                  "axis": {"format": ".0%"}},
+            "color": {**style.color("archetype"), "legend": _legend_bottom()},
+            "tooltip": [
+                {"field": "season", "type": "ordinal", "title": "Season"},
+                {"field": "archetype", "type": "nominal", "title": "Archetype"},
+                {"field": "share", "type": "quantitative", "title": "Share", "format": ".1%"},
+                {"field": "decks", "type": "quantitative", "title": "Decks"},
+            ],
+        },
+        "layer": [
+            {"mark": {"type": "line", "strokeWidth": 2}},
+            {"mark": {"type": "point", "filled": True, "size": 60},
+             "encoding": {"shape": {**style.shape("archetype"), "legend": _legend_bottom()}}},
+        ],
+    }
+    caption = f"{title}: each archetype's share of the decks in each season."
+    table = [(v["season"], v["archetype"], _pct(v["share"]), v["decks"]) for v in values]
+    return _finish(chart_id, spec, caption, ("Season", "Archetype", "Share", "Decks"), table)
+
+
+def winrate_chart(rows: Sequence[Mapping[str, Any]], chart_id: str,
+                  seasons: Sequence[str] | None = None) -> Chart:
+    """Win rate by season with 95% Wilson intervals; small samples drawn hollow.
+
+    ``rows``: dicts with ``season``, ``archetype``, ``win_rate``, ``low``,
+    ``high`` (the interval), ``games``, ``small`` (bool) and optionally
+    ``is_other``. Season order as in :func:`share_chart`.
+    """
+    seasons = _season_order(rows, seasons)
+    style = _group_style(rows)
+    values = []
+    for r in rows:
+        small = bool(r["small"])
+        values.append({
+            "season": str(r["season"]), "archetype": str(r["archetype"]),
+            "win_rate": _num(r["win_rate"]), "low": _num(r["low"]), "high": _num(r["high"]),
+            "games": int(r["games"]), "small": small,
+            "sample": "small sample: read with care" if small else "enough games",
+        })
+    x = {"field": "season", "type": "nominal", "title": "Season", "sort": seasons,
+         "scale": {"type": "band", "paddingInner": 0.2}, "axis": {"labelAngle": 0}}
+    offset = {"field": "archetype", "type": "nominal", "title": "Archetype", "sort": style.domain}
+    tooltip = [
+        {"field": "season", "type": "nominal", "title": "Season"},
+        {"field": "archetype", "type": "nominal", "title": "Archetype"},
+        {"field": "win_rate", "type": "quantitative", "title": "Win rate", "format": ".1%"},
+        {"field": "low", "type": "quantitative", "title": "Interval from", "format": ".1%"},
+        {"field": "high", "type": "quantitative", "title": "Interval to", "format": ".1%"},
+        {"field": "games", "type": "quantitative", "title": "Games"},
+        {"field": "sample", "type": "nominal", "title": "Sample"},
+    ]
+    color = {**style.color("archetype"), "legend": _legend_bottom()}
+
+    def points(small: bool) -> dict:
+        return {"transform": [{"filter": {"field": "small", "equal": small}}],
+                "mark": {"type": "point", "filled": not small, "size": 70, "strokeWidth": 2},
+                "encoding": {"x": x, "xOffset": offset, "tooltip": tooltip,
+                             "y": {"field": "win_rate", "type": "quantitative", "title": "Win rate"},
+                             "color": color,
+                             "shape": {**style.shape("archetype"), "legend": _legend_bottom()}}}
+
+    spec = {
+        "width": "container",
+        "height": _MID_HEIGHT,
+        "data": {"values": values},
+        "layer": [
+            {"data": {"values": [{"even": 0.5}]}, "mark": {"type": "rule", "color": OTHER_GREY, "strokeDash": [2, 2]},
+             "encoding": {"y": {"field": "even", "type": "quantitative"}}},
+            {"mark": {"type": "rule", "strokeWidth": 2},
+             "encoding": {"x": x, "xOffset": offset, "tooltip": tooltip,
+                          "y": {"field": "low", "type": "quantitative", "title": "Win rate",
+                                "axis": {"format": ".0%"}, "scale": {"zero": False}},
+                          "y2": {"field": "high"}, "color": color}},
+            # an empty filtered layer makes Vega warn of an infinite extent, so only layers with points
+            *[points(small) for small in (False, True) if any(v["small"] == small for v in values)],
+        ],
+    }
+    caption = ("Win rate by season with its 95% Wilson interval. Hollow points are small samples "
+               "whose win rate may be far from the true one.")
+    table = [(v["season"], v["archetype"], _pct(v["win_rate"]), f"{_pct(v['low'])} to {_pct(v['high'])}",
+              v["games"], "yes" if v["small"] else "") for v in values]
+    return _finish(chart_id, spec, caption,
+                   ("Season", "Archetype", "Win rate", "95% interval", "Games", "Small sample"), table)
+
+
+def bar_share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str = "Archetype share") -> Chart:
+    """One partition's archetypes by share of decks, largest first, with deck counts.
+
+    ``rows``: dicts with ``archetype``, ``share``, ``decks`` and optionally
+    ``is_other``. Colours follow the order given (use the same order as the
+    partition's map); bars are sorted by share, the other group last.
+    """
+    style = _group_style(rows)
+    values = [{"archetype": str(r["archetype"]), "share": _num(r["share"]), "decks": int(r["decks"]),
+               "label": f"{_pct(_num(r['share']))} ({int(r['decks'])})", "other": bool(r.get("is_other", False))}
+              for r in rows]
+    ordered = sorted(values, key=lambda v: (v["other"], -(v["share"] or 0.0), v["archetype"]))
+    sort = [v["archetype"] for v in ordered]
+    y = {"field": "archetype", "type": "nominal", "title": None, "sort": sort, "axis": {"labelLimit": 240}}
+    spec = {
+        "width": "container",
+        # a fixed height grown with the bars: a "step" height warns under the container width
+        "height": 26 * max(len(ordered), 1),
+        "data": {"values": [{k: v[k] for k in ("archetype", "share", "decks", "label")} for v in ordered]},
+        "encoding": {
+            "y": y,
+            "x": {"field": "share", "type": "quantitative", "title": "Share of decks",
+                  "axis": {"format": ".0%"}},
+            "tooltip": [
+                {"field": "archetype", "type": "nominal", "title": "Archetype"},
+                {"field": "share", "type": "quantitative", "title": "Share", "format": ".1%"},
+                {"field": "decks", "type": "quantitative", "title": "Decks"},
+            ],
+        },
+        "layer": [
+            {"mark": {"type": "bar"}, "encoding": {"color": {**style.color("archetype"), "legend": None}}},
+            {"mark": {"type": "text", "align": "left", "dx": 4},
+             "encoding": {"text": {"field": "label", "type": "nominal"}}},
+        ],
+    }
+    caption = f"{title}: share of decks per archetype, with deck counts."
+    table = [(v["archetype"], _pct(v["share"]), v["decks"]) for v in ordered]
+    return _finish(chart_id, spec, caption, ("Archetype", "Share", "Decks"), table)

@@ -1,0 +1,264 @@
+"""Template contexts: one frozen dataclass per page kind, every field documented.
+
+A template sees the fields of its page's dataclass as top-level names (the
+environment is strict, so a misspelt name fails the build). Links are stored
+relative to the site root (``seasons/s1/index.html``); templates put the
+page's ``root`` (``../../``) in front, so every link works from any folder
+and from ``file://``. Every field carries ``metadata={"help": ...}``, so a
+site that overrides a template can read here what it may use; a test fails
+if one is missing.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+from markupsafe import Markup
+
+
+def _f(help: str, **kw: Any) -> Any:
+    return field(metadata={"help": help}, **kw)
+
+
+# -- pieces shared by several pages
+
+@dataclass(frozen=True, kw_only=True)
+class Link:
+    """A link: its text and its path from the site root."""
+
+    text: str = _f("Text of the link.")
+    href: str = _f("Path of the target from the site root; write {{ root }}{{ href }}.")
+
+
+@dataclass(frozen=True, kw_only=True)
+class WinRate:
+    """A win rate with its 95% Wilson interval and a small-sample flag."""
+
+    wins: int = _f("Games won.")
+    games: int = _f("Games played (wins plus losses).")
+    rate: float = _f("Wins divided by games.")
+    low: float = _f("Lower end of the 95% Wilson score interval.")
+    high: float = _f("Upper end of the 95% Wilson score interval.")
+    small: bool = _f("True when games are fewer than trends.min_games: shown with a warning and never ranked.")
+
+
+@dataclass(frozen=True, kw_only=True)
+class ArchetypeRow:
+    """One row of an archetype table (an archetype or the other-decks group)."""
+
+    name: str = _f("Name shown (the analyst's title if a note gives one).")
+    href: str = _f("Path of its page from the site root; empty for the other-decks group.")
+    decks: int = _f("Decks in it.")
+    share: float = _f("Its share of its partition's decks (0 to 1).")
+    win: WinRate | None = _f("Its win rate, or None when the data holds no results.")
+    signature: tuple[Link, ...] = _f("Signature cards, linked to their card pages.")
+    summary: str = _f("The analyst's one-line summary, or empty.")
+    is_other: bool = _f("True for the group of decks that fit no archetype.")
+
+
+@dataclass(frozen=True, kw_only=True)
+class LeaderBlock:
+    """One leader's part of a season: its archetypes, charts and data-quality notes."""
+
+    name: str = _f("The leader's name.")
+    href: str = _f("Path of the leader's page from the site root.")
+    anchor: str = _f("Id of the leader's section on the season page.")
+    decks: int = _f("Decks of this leader in the season.")
+    clustered: bool = _f("False when the partition was too small to cluster.")
+    reason: str = _f("Why it was not clustered (empty when it was).")
+    rows: tuple[ArchetypeRow, ...] = _f("Archetypes by share, largest first, then the other-decks group.")
+    chosen_k: int | None = _f("Number of archetypes chosen, or None.")
+    k_reason: str = _f("How that number was chosen, in plain words.")
+    map_chart: Any = _f("Chart object of the deck map, or None.")
+    silhouette_chart: Any = _f("Chart object of silhouette by k, or None.")
+    share_chart: Any = _f("Chart of this leader's archetype shares across seasons (front page), or None.")
+    notes: tuple[str, ...] = _f("Data-quality notes for this leader and season (plain text).")
+
+
+@dataclass(frozen=True, kw_only=True)
+class CardRow:
+    """One row of a card-inclusion table."""
+
+    card: Link = _f("The card, linked to its page.")
+    card_type: str = _f("Card type, empty when no card table was given.")
+    share: float = _f("Share of the archetype's decks that play it.")
+    mean_copies: float = _f("Mean copies among the decks that play it.")
+    at_1: float = _f("Share of decks playing exactly 1 copy.")
+    at_2: float = _f("Share of decks playing exactly 2 copies.")
+    at_3_plus: float = _f("Share of decks playing 3 or more copies.")
+    tier: str = _f("Inclusion tier: mainstay, regular or occasional.")
+
+
+@dataclass(frozen=True, kw_only=True)
+class DeckGroup:
+    """The cards of one type in a decklist."""
+
+    card_type: str = _f("Card type heading ('Cards' when types are unknown).")
+    count: int = _f("Copies of this type in the deck.")
+    lines: tuple[tuple[int, Link], ...] = _f("(copies, card link) pairs, by card name.")
+
+
+@dataclass(frozen=True, kw_only=True)
+class SimilarRow:
+    """An archetype of the same partition and how alike its card profile is."""
+
+    archetype: Link = _f("The other archetype.")
+    similarity: float = _f("Cosine similarity of the two card profiles (0 to 1).")
+
+
+@dataclass(frozen=True, kw_only=True)
+class SeasonRow:
+    """One season of an archetype, leader or card history."""
+
+    season: Link = _f("The season, linked to its page.")
+    archetype: Link | None = _f("The archetype's page in that season, when there is one.")
+    leader: Link | None = _f("The leader, linked to its page, when the row names one.")
+    decks: int = _f("Decks counted in the row.")
+    share: float = _f("Share of the partition's decks (0 to 1).")
+    win: WinRate | None = _f("Win rate, or None without results.")
+    detail: str = _f("A few plain words: link kind, copies played and so on.")
+    current: bool = _f("True for the row of the page being viewed.")
+
+
+@dataclass(frozen=True, kw_only=True)
+class NoteView:
+    """An analyst's note ready to show."""
+
+    html: Markup = _f("The note body as safe HTML (raw HTML in the note is shown as text).")
+    author: str = _f("Who wrote it, or empty.")
+    source: str = _f("File it came from, relative to the content folder.")
+
+
+# -- the pages
+
+@dataclass(frozen=True, kw_only=True)
+class Page:
+    """Fields every page has (used by base.html)."""
+
+    site_title: str = _f("The site's title (site.title).")
+    title: str = _f("This page's title.")
+    description: str = _f("One line describing the page (meta description).")
+    root: str = _f("Path from this page to the site root, '' or ending in '/' (also on <html data-root>).")
+    path: str = _f("This page's path from the site root.")
+    stylesheets: tuple[str, ...] = _f("Stylesheet paths from the site root.")
+    scripts: tuple[str, ...] = _f("Script paths from the site root, in load order (search index first).")
+    nav: tuple[Link, ...] = _f("Links of the top navigation.")
+    leader_word: str = _f("What the site calls a leader (site.leader_word).")
+    leader_word_plural: str = _f("Plural of leader_word.")
+    absolute: bool = _f("True when root is absolute (the 404 page: site.base_url, or '/' without it).")
+    inline_style: str = _f("CSS written into the page itself, or empty; only the 404 page without site.base_url, "
+                           "which cannot know the way to the stylesheet from the depth it is served at.")
+    style_hash: str = _f("Base64 SHA-256 of inline_style, allowed by the page's Content-Security-Policy; empty without it.")
+
+
+@dataclass(frozen=True, kw_only=True)
+class FrontPage(Page):
+    """index.html: the latest season at a glance."""
+
+    season: Link | None = _f("The latest season, or None when there is no data.")
+    season_decks: int = _f("Decks in the latest season.")
+    leaders: tuple[LeaderBlock, ...] = _f("Each leader of the latest season with its archetypes.")
+    seasons: tuple[SeasonRow, ...] = _f("Every season, newest first, with its deck count.")
+    note: NoteView | None = _f("The front page note (content/index.md), or None.")
+    has_results: bool = _f("True when any deck has wins or losses.")
+    min_games: int = _f("Games below which a win rate is flagged (trends.min_games).")
+    site_description: str = _f("The line under the title (site.description).")
+
+
+@dataclass(frozen=True, kw_only=True)
+class SeasonPage(Page):
+    """seasons/<season>/index.html: every leader's archetypes in one season."""
+
+    season: str = _f("The season's name.")
+    decks: int = _f("Decks in the season.")
+    leaders: tuple[LeaderBlock, ...] = _f("One block per leader, most decks first.")
+    previous: Link | None = _f("The season before, or None.")
+    next: Link | None = _f("The season after, or None.")
+    notes: tuple[str, ...] = _f("Data-quality notes of the season that name no leader.")
+    has_results: bool = _f("True when any deck of the season has wins or losses.")
+    min_games: int = _f("Games below which a win rate is flagged (trends.min_games).")
+
+
+@dataclass(frozen=True, kw_only=True)
+class ArchetypePage(Page):
+    """archetypes/<slug>/<season>.html: one archetype in one season."""
+
+    name: str = _f("The archetype's name.")
+    computed_name: str = _f("The name made from its signature cards (differs from name when a note renames it).")
+    summary: str = _f("The analyst's one-line summary, or empty.")
+    season: Link = _f("The season, linked to its page.")
+    leader: Link = _f("The leader, linked to its page.")
+    history: Link = _f("The archetype's history page.")
+    decks: int = _f("Decks in the archetype.")
+    partition_decks: int = _f("Decks of this leader in this season.")
+    share: float = _f("Share of the partition's decks.")
+    win: WinRate | None = _f("Win rate, or None without results.")
+    signature: tuple[Link, ...] = _f("Signature cards shown (the note's list if it gives one).")
+    note: NoteView | None = _f("The analyst's note, or None.")
+    cards: tuple[CardRow, ...] = _f("The card-inclusion table, most played first.")
+    decklist: tuple[DeckGroup, ...] = _f("The representative (medoid) deck, grouped by card type.")
+    deck_id: str = _f("Id of the representative deck.")
+    deck_total: int = _f("Cards in the representative deck.")
+    deck_facts: tuple[tuple[str, str], ...] = _f("(label, value) facts about that deck: event, title, player if published.")
+    similar: tuple[SimilarRow, ...] = _f("Closest other archetypes of the same partition, most alike first.")
+    seasons: tuple[SeasonRow, ...] = _f("This archetype in every season it appears in.")
+    first_seen: str = _f("First season it appears in.")
+    last_seen: str = _f("Last season it appears in.")
+    link_text: str = _f("How it relates to the season before, in plain words, or empty.")
+    downloads: tuple[Link, ...] = _f("CSV downloads of its tables.")
+    min_games: int = _f("Games below which a win rate is flagged (trends.min_games).")
+
+
+@dataclass(frozen=True, kw_only=True)
+class ArchetypeHistoryPage(Page):
+    """archetypes/<slug>/index.html: one archetype across seasons."""
+
+    name: str = _f("The archetype's latest name.")
+    leader: Link = _f("Its leader.")
+    seasons: tuple[SeasonRow, ...] = _f("One row per season it appears in, in season order.")
+    first_seen: str = _f("First season it appears in.")
+    last_seen: str = _f("Last season it appears in.")
+    note: NoteView | None = _f("The analyst's note, or None.")
+    min_games: int = _f("Games below which a win rate is flagged (trends.min_games).")
+
+
+@dataclass(frozen=True, kw_only=True)
+class CardPage(Page):
+    """cards/<card>.html: which archetypes play a card, how many copies, when."""
+
+    card: str = _f("The card's name.")
+    card_type: str = _f("Its type, or empty.")
+    rows: tuple[SeasonRow, ...] = _f("Each archetype playing it, by season then share of decks playing it.")
+    seasons: tuple[str, ...] = _f("Seasons in which some archetype plays it.")
+
+
+@dataclass(frozen=True, kw_only=True)
+class LeaderPage(Page):
+    """leaders/<leader>.html: one leader's archetypes season by season."""
+
+    name: str = _f("The leader's name.")
+    seasons: tuple[SeasonRow, ...] = _f("Each season and archetype of this leader, in season order, largest first.")
+    share_chart: Any = _f("Chart of this leader's archetype shares across seasons, or None.")
+    trend_chart: Any = _f("Chart of win rates across seasons, or None.")
+    min_games: int = _f("Games below which a win rate is flagged (trends.min_games).")
+
+
+@dataclass(frozen=True, kw_only=True)
+class MethodPage(Page):
+    """method.html: how the analysis works, in plain words."""
+
+    note: NoteView | None = _f("The method note (content/method.md), or None.")
+    settings: tuple[tuple[str, str], ...] = _f("(setting, value) pairs that shape the analysis.")
+    min_games: int = _f("Games below which a win rate is flagged (trends.min_games).")
+
+
+@dataclass(frozen=True, kw_only=True)
+class NotFoundPage(Page):
+    """404.html: shown by hosts for a missing page, at any depth."""
+
+    home: str = _f("Link to the front page: under site.base_url when set, else /index.html (a site at its host's root).")
+
+
+#: Every page context, for documentation and the field-help test.
+PAGE_KINDS: tuple[type, ...] = (FrontPage, SeasonPage, ArchetypePage, ArchetypeHistoryPage, CardPage, LeaderPage,
+                                MethodPage, NotFoundPage)

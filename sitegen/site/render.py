@@ -1,0 +1,646 @@
+"""Render the whole site: every page, download, export and index as bytes.
+
+:func:`render_site` takes a :class:`SiteInput` (settings, decks, every
+partition's analysis, season links, notes, findings) and returns the output
+files (path from the site root -> bytes) plus warnings. It writes nothing:
+writing the folder is the caller's job. Page contexts are the dataclasses of
+:mod:`sitegen.site.pages`; templates come from the site's own folder first,
+then the packaged one, so a site can override any template file by file.
+"""
+from __future__ import annotations
+
+import base64
+import dataclasses
+import hashlib
+import math
+from collections import defaultdict
+from dataclasses import dataclass, fields
+from pathlib import Path
+from typing import Any, Sequence
+
+import jinja2
+
+from ..analysis.embed import stratified_sample
+from ..analysis.stats import wilson
+from ..config import Config
+from ..errors import RenderError
+from ..model import ALL_LEADERS, Archetype, DeckData, Finding, History, PartitionResult
+from ..slugs import SlugSet
+from . import assets, exports
+from . import charts as ch
+from . import pages as P
+from .notes import Note, Notes, orphan_findings
+from .search import SearchEntry, search_files
+from .sitemap import sitemap_files
+
+#: Closest archetypes listed on an archetype page.
+SIMILAR_SHOWN = 3
+#: Most map points drawn on one season page, shared among its leaders by their
+#: number of points: each point is ~200 bytes of inline chart data, and this
+#: keeps a season page well under 1 MB however many leaders it has.
+SEASON_MAP_POINTS = 4000
+#: Fewest points a leader's map keeps when the season's budget is shared out.
+MIN_MAP_POINTS = 300
+
+
+@dataclass(frozen=True)
+class SiteInput:
+    """Everything the pages are made from.
+
+    ``results`` may come in any order (pages follow ``data.seasons``);
+    ``history`` is None until seasons are linked, and then each slug stands
+    alone; ``templates_dirs`` lists the site's own templates folder first (if
+    it exists), then the packaged default.
+    """
+
+    cfg: Config
+    data: DeckData
+    results: tuple[PartitionResult, ...]
+    history: History | None
+    notes: Notes
+    findings: tuple[Finding, ...]
+    templates_dirs: tuple[Path, ...]
+    trends: dict | None = None
+
+
+# -- template environment ---------------------------------------------------
+
+def _pct(value: float | None, digits: int = 1) -> str:
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return ""
+    return f"{value * 100:.{digits}f}%"
+
+
+def make_environment(templates_dirs: Sequence[Path]) -> jinja2.Environment:
+    """A strict, autoescaping environment over the template folders, first wins."""
+    loader = jinja2.ChoiceLoader([jinja2.FileSystemLoader(str(d)) for d in templates_dirs])
+    env = jinja2.Environment(loader=loader, autoescape=True, undefined=jinja2.StrictUndefined,
+                             trim_blocks=True, lstrip_blocks=True, keep_trailing_newline=True)
+    env.filters["pct"] = _pct
+    env.filters["fixed"] = exports.fixed
+    return env
+
+
+def _template_place(exc: jinja2.TemplateError, template: str) -> tuple[str, int | None]:
+    """File and line of a template error: from a syntax error, else from the traceback.
+
+    Jinja rewrites tracebacks so template frames carry the template's file
+    name and line; the innermost such frame is where the mistake is.
+    """
+    if isinstance(exc, jinja2.TemplateSyntaxError):
+        return exc.filename or exc.name or template, exc.lineno
+    where, line = template, None
+    tb = exc.__traceback__
+    while tb is not None:
+        name = tb.tb_frame.f_code.co_filename
+        if name.endswith((".html", ".xml", ".txt")):
+            where, line = name, tb.tb_lineno
+        tb = tb.tb_next
+    return where, line
+
+
+def _context(page: Any) -> dict[str, Any]:
+    # Shallow on purpose: nested dataclasses stay objects for the template.
+    return {f.name: getattr(page, f.name) for f in fields(page)}
+
+
+# -- small pieces -----------------------------------------------------------
+
+def win_rate(wins: int, losses: int, min_games: int) -> P.WinRate | None:
+    """A :class:`~sitegen.site.pages.WinRate`, or None when no games were recorded."""
+    games = int(wins) + int(losses)
+    if games <= 0:
+        return None
+    low, high = wilson(int(wins), games)
+    return P.WinRate(wins=int(wins), games=games, rate=wins / games, low=low, high=high, small=games < min_games)
+
+
+def cosine(a: dict[str, float], b: dict[str, float]) -> float:
+    """Cosine similarity of two card profiles (card -> share of decks playing it)."""
+    dot = sum(v * b.get(k, 0.0) for k, v in a.items())
+    na = math.sqrt(sum(v * v for v in a.values()))
+    nb = math.sqrt(sum(v * v for v in b.values()))
+    return 0.0 if na == 0 or nb == 0 else dot / (na * nb)
+
+
+def _rel_root(path: str) -> str:
+    return "../" * path.count("/")
+
+
+def _any_value(df: Any, col: str) -> bool:
+    return col in df.columns and bool(df[col].notna().any())
+
+
+class _Site:
+    """Lookup tables shared by every page: slugs, names, archetypes by season."""
+
+    def __init__(self, site: SiteInput) -> None:
+        self.site = site
+        cfg = site.cfg
+        self.cfg = cfg
+        self.min_games = int(cfg["trends.min_games"])
+        self.word = cfg["site.leader_word"]
+        self.words = cfg["site.leader_word_plural"]
+        data = site.data
+        present = {r.season for r in site.results}
+        self.seasons: list[str] = [s for s in data.seasons if s in present] + sorted(present - set(data.seasons))
+        rank = {s: i for i, s in enumerate(self.seasons)}
+        self.results = sorted(site.results, key=lambda r: (rank[r.season], r.leader))
+        season_slugs = SlugSet()
+        self.season_slug = {s: season_slugs.add(s, fallback="season") for s in self.seasons}
+        leader_slugs = SlugSet()
+        leaders = sorted({r.leader for r in self.results})
+        self.leader_slug = {name: leader_slugs.add(self.leader_name(name), fallback="leader") for name in leaders}
+
+        # Page slug of each archetype: its own slug, unless another archetype
+        # of the same season already took it (then the leader is appended).
+        self.page_slug: dict[tuple[str, str, str], str] = {}
+        taken: dict[str, set[str]] = defaultdict(set)
+        self.by_slug: dict[str, list[Archetype]] = defaultdict(list)
+        for r in self.results:
+            for a in r.archetypes:
+                slug = a.slug
+                if slug in taken[a.season]:
+                    slug = f"{a.slug}-{self.leader_slug[a.leader]}"
+                    n = 2
+                    while slug in taken[a.season]:
+                        slug, n = f"{a.slug}-{self.leader_slug[a.leader]}-{n}", n + 1
+                taken[a.season].add(slug)
+                self.page_slug[(a.season, a.leader, a.key)] = slug
+                self.by_slug[slug].append(a)
+
+        cards: set[str] = set()
+        self.card_type: dict[str, str] = {}
+        for r in self.results:
+            for a in r.groups:
+                for c in a.inclusion:
+                    cards.add(c.card)
+                    self.card_type.setdefault(c.card, c.card_type)
+                for line in a.medoid:
+                    cards.add(line.card)
+                    self.card_type.setdefault(line.card, line.card_type)
+                cards.update(s.card for s in a.signature)
+        card_slugs = SlugSet()
+        self.card_slug = {c: card_slugs.add(c, fallback="card") for c in sorted(cards)}
+        self.has_results = _any_value(data.decks, "wins") or _any_value(data.decks, "losses")
+        self.decks_in_season: dict[str, int] = defaultdict(int)
+        for r in self.results:
+            self.decks_in_season[r.season] += int(r.n_decks)
+
+    # names and links
+    def leader_name(self, leader: str) -> str:
+        return f"all {self.words}" if leader == ALL_LEADERS else leader
+
+    def season_href(self, season: str) -> str:
+        return f"seasons/{self.season_slug[season]}/index.html"
+
+    def season_link(self, season: str) -> P.Link:
+        return P.Link(text=season, href=self.season_href(season))
+
+    def leader_link(self, leader: str) -> P.Link:
+        return P.Link(text=self.leader_name(leader), href=f"leaders/{self.leader_slug[leader]}.html")
+
+    def card_link(self, card: str) -> P.Link:
+        slug = self.card_slug.get(card)
+        return P.Link(text=card, href=f"cards/{slug}.html" if slug else "")
+
+    def slug_of(self, a: Archetype) -> str:
+        return self.page_slug[(a.season, a.leader, a.key)]
+
+    def arch_href(self, a: Archetype) -> str:
+        return f"archetypes/{self.slug_of(a)}/{self.season_slug[a.season]}.html"
+
+    def note_of(self, a: Archetype) -> Note | None:
+        return self.site.notes.for_slug(self.slug_of(a))
+
+    def name_of(self, a: Archetype) -> str:
+        if a.is_other:
+            return "Other decks"
+        note = self.note_of(a)
+        return (note.title if note is not None and note.title else a.name) or self.slug_of(a)
+
+    def arch_link(self, a: Archetype) -> P.Link:
+        return P.Link(text=self.name_of(a), href=self.arch_href(a))
+
+    def signature_links(self, a: Archetype) -> tuple[P.Link, ...]:
+        note = self.note_of(a)
+        if note is not None and note.signature:
+            return tuple(self.card_link(c) for c in note.signature)
+        return tuple(self.card_link(s.card) for s in a.signature)
+
+    def row(self, a: Archetype) -> P.ArchetypeRow:
+        note = None if a.is_other else self.note_of(a)
+        return P.ArchetypeRow(
+            name=self.name_of(a), href="" if a.is_other else self.arch_href(a), decks=int(a.n_decks),
+            share=float(a.share), win=win_rate(a.wins, a.losses, self.min_games),
+            signature=() if a.is_other else self.signature_links(a),
+            summary=note.summary if note is not None else "", is_other=a.is_other)
+
+    def note_view(self, note: Note | None) -> P.NoteView | None:
+        if note is None or note.hidden:
+            return None
+        content = self.cfg.path("site.content")
+        try:
+            source = str(note.path.relative_to(content)) if content is not None else note.path.name
+        except ValueError:
+            source = note.path.name
+        return P.NoteView(html=note.html, author=note.author, source=source.replace("\\", "/"))
+
+
+class Renderer:
+    """Builds every page of one site; see :func:`render_site`."""
+
+    def __init__(self, site: SiteInput) -> None:
+        self.site = site
+        self.s = _Site(site)
+        self.env = make_environment(site.templates_dirs)
+        self.out: dict[str, bytes] = {}
+        self.warnings: list[Finding] = []
+        self.assets, self.urls = self._assets()
+
+    def _assets(self) -> tuple[dict[str, bytes], dict[str, str]]:
+        """The shared static files (content-hashed) and their paths by logical name."""
+        files = assets.static_assets(list(self.site.templates_dirs))
+        return files, assets.asset_urls(files)
+
+    def _base(self, path: str, title: str, description: str, *, charts: bool = False,
+              root: str | None = None) -> dict[str, Any]:
+        s = self.s
+        urls = self.urls
+        styles = [urls[k] for k in ("charts_css", "site_css") if k in urls and (charts or k == "site_css")]
+        scripts = ["search-index.js", urls["site_js"]]
+        if charts and "vega" in urls and "charts_js" in urls:
+            scripts += [urls["vega"], urls["charts_js"]]
+        nav = [P.Link(text="Overview", href="index.html")]
+        if s.seasons:
+            nav.append(P.Link(text="Latest season", href=s.season_href(s.seasons[-1])))
+        nav.append(P.Link(text="How it works", href="method.html"))
+        return dict(site_title=self.site.cfg["site.title"], title=title, description=description,
+                    root=_rel_root(path) if root is None else root, path=path, stylesheets=tuple(styles),
+                    scripts=tuple(scripts), nav=tuple(nav), leader_word=s.word, leader_word_plural=s.words,
+                    absolute=False, inline_style="", style_hash="")
+
+    def _emit(self, template: str, page: Any) -> None:
+        try:
+            html = self.env.get_template(template).render(**_context(page))
+        except jinja2.TemplateError as exc:
+            where, line = _template_place(exc, template)
+            raise RenderError(f"template {where}{f', line {line}' if line else ''}: {exc} (page {page.path})") from exc
+        self.out[page.path] = html.encode("utf-8")
+
+    # -- data-quality notes
+    def _notes_for(self, season: str, leader: str | None) -> tuple[str, ...]:
+        seen: list[str] = []
+        for f in (*self.site.data.findings, *self.site.findings):
+            if f.season != season or (leader is not None and f.leader != leader) or (leader is None and f.leader):
+                continue
+            text = f"deck {f.deck_id}: {f.message}" if f.deck_id and f.deck_id not in f.message else f.message
+            if text not in seen:
+                seen.append(text)
+        return tuple(seen)
+
+    def _excluded(self, season: str, leader: str) -> str:
+        data = self.site.data
+        if not data.excluded:
+            return ""
+        d = data.decks
+        mask = d["deck_id"].isin(data.excluded) & (d["season"] == season)
+        if leader != ALL_LEADERS:
+            mask &= d["leader"] == leader
+        ids = sorted(str(x) for x in d.loc[mask, "deck_id"])
+        if not ids:
+            return ""
+        shown = ", ".join(ids[:20]) + (f" and {len(ids) - 20} more" if len(ids) > 20 else "")
+        return (f"{len(ids)} deck{'s' if len(ids) != 1 else ''} left out of the analysis because "
+                f"{'they break' if len(ids) != 1 else 'it breaks'} a deck-building rule: {shown}.")
+
+    def _share_rows(self, leader: str) -> list[dict[str, Any]]:
+        """share_chart rows of one leader; each slug is one line under its latest name."""
+        s = self.s
+        rows = []
+        for r in s.results:
+            if r.leader != leader:
+                continue
+            for a in r.groups:
+                if a.n_decks == 0:
+                    continue
+                label = s.name_of(a) if a.is_other else self._latest_name(s.slug_of(a))
+                rows.append({"season": a.season, "archetype": label, "share": a.share, "decks": a.n_decks,
+                             "is_other": a.is_other})
+        return rows
+
+    def _share_chart(self, leader: str, chart_id: str) -> Any:
+        rows = self._share_rows(leader)
+        if len({x["season"] for x in rows}) < 2:
+            return None  # one season: the table says it all
+        return ch.share_chart(rows, chart_id, f"{self.s.leader_name(leader)}: archetype shares by season")
+
+    def _map_budgets(self, season: str) -> dict[str, int]:
+        """Map points each leader of a season may draw (see :data:`SEASON_MAP_POINTS`)."""
+        sizes = {r.leader: len(r.map_points) if r.map_points is not None else 0
+                 for r in self.s.results if r.season == season}
+        total = sum(sizes.values())
+        if total <= SEASON_MAP_POINTS:
+            return sizes
+        return {k: min(n, max(MIN_MAP_POINTS, SEASON_MAP_POINTS * n // total)) for k, n in sizes.items()}
+
+    def _thin_map(self, r: PartitionResult, budget: int) -> PartitionResult:
+        """The result with at most ``budget`` map points, sampled per archetype with the analysis seed."""
+        points = r.map_points
+        if points is None or len(points) <= budget:
+            return r
+        keep = stratified_sample([str(k) for k in points["archetype"]], budget, int(self.site.cfg["analysis.seed"]))
+        return dataclasses.replace(r, map_points=points.iloc[keep].reset_index(drop=True))
+
+    def _block(self, r: PartitionResult, *, with_charts: bool, with_shares: bool = False,
+               map_budget: int | None = None) -> P.LeaderBlock:
+        s = self.s
+        rows = tuple(s.row(a) for a in sorted(r.archetypes, key=lambda a: (-a.n_decks, a.key)))
+        if r.other is not None and r.other.n_decks > 0:
+            rows += (s.row(r.other),)
+        notes = list(self._notes_for(r.season, r.leader))
+        excluded = self._excluded(r.season, r.leader)
+        if excluded:
+            notes.append(excluded)
+        clustered = r.status == "clustered"
+        lslug = s.leader_slug[r.leader]
+        map_c = sil_c = None
+        if with_charts and clustered:
+            names = {a.key: s.name_of(a) for a in r.groups}
+            if r.map_points is not None and len(r.map_points):
+                drawn = self._thin_map(r, map_budget) if map_budget is not None else r
+                map_c = ch.map_chart(drawn, names, f"map-{lslug}")
+            if r.silhouette:
+                sil_c = ch.silhouette_chart(r, f"silhouette-{lslug}")
+        return P.LeaderBlock(name=s.leader_name(r.leader), href=s.leader_link(r.leader).href, anchor=f"leader-{lslug}",
+                             decks=int(r.n_decks), clustered=clustered, reason=r.reason, rows=rows,
+                             chosen_k=r.chosen_k, k_reason=r.k_reason, map_chart=map_c, silhouette_chart=sil_c,
+                             share_chart=self._share_chart(r.leader, f"shares-{lslug}") if with_shares else None,
+                             notes=tuple(notes))
+
+    # -- pages
+    def front(self) -> None:
+        s = self.s
+        latest = s.seasons[-1] if s.seasons else None
+        blocks = tuple(self._block(r, with_charts=False, with_shares=True) for r in s.results if r.season == latest)
+        blocks = tuple(sorted(blocks, key=lambda b: (-b.decks, b.name)))
+        seasons = tuple(P.SeasonRow(season=s.season_link(x), archetype=None, leader=None, decks=s.decks_in_season[x],
+                                    share=1.0, win=None, detail="", current=x == latest) for x in reversed(s.seasons))
+        base = self._base("index.html", self.site.cfg["site.title"],
+                          self.site.cfg["site.description"] or "Archetypes of each season at a glance.",
+                          charts=any(b.share_chart for b in blocks))
+        self._emit("index.html", P.FrontPage(
+            **base, season=s.season_link(latest) if latest else None,
+            season_decks=s.decks_in_season.get(latest, 0) if latest else 0, leaders=blocks,
+            seasons=seasons, note=s.note_view(self.site.notes.front), has_results=s.has_results,
+            min_games=s.min_games, site_description=self.site.cfg["site.description"]))
+
+    def season(self, season: str, i: int) -> None:
+        s = self.s
+        budgets = self._map_budgets(season)
+        blocks = tuple(sorted((self._block(r, with_charts=True, map_budget=budgets[r.leader])
+                               for r in s.results if r.season == season),
+                              key=lambda b: (-b.decks, b.name)))
+        path = s.season_href(season)
+        base = self._base(path, f"Season {season}", f"Archetypes of every {s.word} in season {season}.",
+                          charts=any(b.map_chart or b.silhouette_chart for b in blocks))
+        self._emit("season.html", P.SeasonPage(
+            **base, season=season, decks=s.decks_in_season[season], leaders=blocks,
+            previous=s.season_link(s.seasons[i - 1]) if i > 0 else None,
+            next=s.season_link(s.seasons[i + 1]) if i + 1 < len(s.seasons) else None,
+            notes=self._notes_for(season, None), has_results=s.has_results, min_games=s.min_games))
+
+    def _link_text(self, a: Archetype) -> str:
+        h = self.site.history
+        if h is None:
+            return ""
+        slug = self.s.slug_of(a)
+        for link in h.links:
+            if link.season == a.season and link.leader == a.leader and link.slug in (a.slug, slug):
+                src = ", ".join(self._name_for_slug(x) for x in link.sources)
+                return {"continues": "Continues from the season before.",
+                        "new": "New this season.",
+                        "split": f"Split from {src} of the season before." if src else "Split from an earlier archetype.",
+                        "merge": f"Took in {src} of the season before." if src else "Took in earlier archetypes.",
+                        }.get(link.kind, link.kind)
+        return ""
+
+    def _latest_name(self, slug: str) -> str:
+        return self.s.name_of(self._seasons_of(slug)[-1])
+
+    def _name_for_slug(self, slug: str) -> str:
+        found = self.s.by_slug.get(slug)
+        return self.s.name_of(found[0]) if found else slug
+
+    def _seasons_of(self, slug: str) -> list[Archetype]:
+        rank = {x: i for i, x in enumerate(self.s.seasons)}
+        return sorted(self.s.by_slug[slug], key=lambda a: (rank[a.season], a.leader))
+
+    def _season_rows(self, slug: str, current: str | None) -> tuple[P.SeasonRow, ...]:
+        s = self.s
+        return tuple(P.SeasonRow(season=s.season_link(a.season), archetype=s.arch_link(a), leader=s.leader_link(a.leader),
+                                 decks=int(a.n_decks), share=float(a.share),
+                                 win=win_rate(a.wins, a.losses, s.min_games), detail=self._link_text(a),
+                                 current=a.season == current) for a in self._seasons_of(slug))
+
+    def _first_last(self, slug: str) -> tuple[str, str]:
+        h = self.site.history
+        seasons = list(h.seasons_of.get(slug, ())) if h is not None else []
+        if not seasons:
+            seasons = [a.season for a in self._seasons_of(slug)]
+        return seasons[0], seasons[-1]
+
+    def _deck_facts(self, deck_id: str) -> tuple[tuple[str, str], ...]:
+        d = self.site.data.decks
+        hit = d[d["deck_id"] == deck_id]
+        if hit.empty:
+            return ()
+        row = hit.iloc[0]
+        cols = ["event", "title"] + (["player"] if self.site.cfg["site.publish_players"] else [])
+        out = []
+        for col in cols:
+            if col in d.columns:
+                value = row[col]
+                if value is not None and not (isinstance(value, float) and math.isnan(value)) and str(value) not in ("", "<NA>", "nan"):
+                    out.append((col.capitalize(), str(value)))
+        return tuple(out)
+
+    def archetype(self, r: PartitionResult, a: Archetype) -> None:
+        s = self.s
+        slug = s.slug_of(a)
+        path = s.arch_href(a)
+        note = s.note_of(a)
+        similar = sorted(((cosine(a.profile, b.profile), b) for b in r.archetypes if b.key != a.key),
+                         key=lambda t: (-t[0], t[1].key))[:SIMILAR_SHOWN]
+        groups: dict[str, list[tuple[int, P.Link]]] = {}
+        counts: dict[str, int] = defaultdict(int)
+        for line in a.medoid:
+            kind = line.card_type or "Cards"
+            groups.setdefault(kind, []).append((int(line.quantity), s.card_link(line.card)))
+            counts[kind] += int(line.quantity)
+        decklist = tuple(P.DeckGroup(card_type=k, count=counts[k], lines=tuple(sorted(v, key=lambda t: t[1].text)))
+                         for k, v in groups.items())
+        first, last = self._first_last(slug)
+        sslug = s.season_slug[a.season]
+        name = s.name_of(a)
+        base = self._base(path, f"{name}, {a.season}",
+                          f"The {name} archetype of {s.leader_name(a.leader)} in season {a.season}: cards and a sample deck.")
+        self._emit("archetype.html", P.ArchetypePage(
+            **base, name=name, computed_name=a.name, summary=note.summary if note else "",
+            season=s.season_link(a.season), leader=s.leader_link(a.leader),
+            history=P.Link(text=f"{name} across seasons", href=f"archetypes/{slug}/index.html"),
+            decks=int(a.n_decks), partition_decks=int(r.n_decks), share=float(a.share),
+            win=win_rate(a.wins, a.losses, s.min_games), signature=s.signature_links(a), note=s.note_view(note),
+            cards=tuple(P.CardRow(card=s.card_link(c.card), card_type=c.card_type, share=c.share,
+                                  mean_copies=c.mean_copies, at_1=c.at_1, at_2=c.at_2, at_3_plus=c.at_3_plus,
+                                  tier=c.tier) for c in a.inclusion),
+            decklist=decklist, deck_id=a.medoid_deck_id, deck_total=int(a.medoid_total),
+            deck_facts=self._deck_facts(a.medoid_deck_id),
+            similar=tuple(P.SimilarRow(archetype=s.arch_link(b), similarity=sim) for sim, b in similar),
+            seasons=self._season_rows(slug, a.season), first_seen=first, last_seen=last,
+            link_text=self._link_text(a),
+            downloads=(P.Link(text="Card table (CSV)", href=f"archetypes/{slug}/{sslug}-cards.csv"),
+                       P.Link(text="Representative deck (CSV)", href=f"archetypes/{slug}/{sslug}-decklist.csv")),
+            min_games=s.min_games))
+        self.out[f"archetypes/{slug}/{sslug}-cards.csv"] = exports.card_table_csv(a)
+        self.out[f"archetypes/{slug}/{sslug}-decklist.csv"] = exports.decklist_csv(a)
+
+    def history_page(self, slug: str) -> None:
+        s = self.s
+        arches = self._seasons_of(slug)
+        latest = arches[-1]
+        first, last = self._first_last(slug)
+        name = s.name_of(latest)
+        path = f"archetypes/{slug}/index.html"
+        base = self._base(path, f"{name} across seasons", f"The {name} archetype season by season.")
+        self._emit("archetype_history.html", P.ArchetypeHistoryPage(
+            **base, name=name, leader=s.leader_link(latest.leader), seasons=self._season_rows(slug, None),
+            first_seen=first, last_seen=last, note=s.note_view(s.site.notes.for_slug(slug)), min_games=s.min_games))
+
+    def card(self, card: str, rows: list[P.SeasonRow], seasons: list[str]) -> None:
+        s = self.s
+        path = s.card_link(card).href
+        base = self._base(path, card, f"Which archetypes play {card}, and how many copies.")
+        self._emit("card.html", P.CardPage(**base, card=card, card_type=s.card_type.get(card, ""), rows=tuple(rows),
+                                           seasons=tuple(seasons)))
+
+    def cards(self) -> None:
+        s = self.s
+        rows: dict[str, list[P.SeasonRow]] = defaultdict(list)
+        seasons: dict[str, list[str]] = defaultdict(list)
+        for r in s.results:
+            for a in r.archetypes:
+                for c in a.inclusion:
+                    rows[c.card].append(P.SeasonRow(
+                        season=s.season_link(a.season), archetype=s.arch_link(a), leader=s.leader_link(a.leader),
+                        decks=int(round(c.share * a.n_decks)), share=c.share, win=None,
+                        detail=f"{c.mean_copies:.1f}", current=False))
+                    if a.season not in seasons[c.card]:
+                        seasons[c.card].append(a.season)
+        for card in sorted(s.card_slug):
+            self.card(card, rows.get(card, []), seasons.get(card, []))
+
+    def leader(self, leader: str) -> None:
+        s = self.s
+        mine = [r for r in s.results if r.leader == leader]
+        rows, win_rows = [], []
+        for r in mine:
+            for a in sorted(r.groups, key=lambda a: (a.is_other, -a.n_decks, a.key)):
+                if a.n_decks == 0:
+                    continue
+                w = win_rate(a.wins, a.losses, s.min_games)
+                rows.append(P.SeasonRow(season=s.season_link(a.season), archetype=None if a.is_other else s.arch_link(a),
+                                        leader=None, decks=int(a.n_decks), share=float(a.share), win=w,
+                                        detail="" if not a.is_other else "decks that fit no archetype", current=False))
+                if w is not None and not a.is_other:
+                    win_rows.append({"season": a.season, "archetype": self._latest_name(s.slug_of(a)), "win_rate": w.rate, "low": w.low,
+                                     "high": w.high, "games": w.games, "small": w.small})
+        lslug = s.leader_slug[leader]
+        share_c = self._share_chart(leader, f"shares-{lslug}")
+        # The seasons step's rows (after overrides) when given, else the same rows made here.
+        # Lines are named by each slug's latest name, as on the share chart.
+        given = (self.site.trends or {}).get(leader) or {}
+        trend_rows = win_rows
+        if isinstance(given, dict) and given.get("winrates"):
+            trend_rows = [{**row, "archetype": self._latest_name(row["slug"]) if row.get("slug") in s.by_slug
+                           else row["archetype"]} for row in given["winrates"]]
+        trend_c = ch.winrate_chart(trend_rows, f"winrate-{lslug}") if trend_rows else None
+        path = s.leader_link(leader).href
+        name = s.leader_name(leader)
+        base = self._base(path, name, f"Archetypes of {name}, season by season.",
+                          charts=share_c is not None or trend_c is not None)
+        self._emit("leader.html", P.LeaderPage(**base, name=name, seasons=tuple(rows), share_chart=share_c,
+                                               trend_chart=trend_c, min_games=s.min_games))
+
+    def method(self) -> None:
+        cfg = self.site.cfg
+        keys = ("analysis.by_leader", "analysis.k_min", "analysis.k_max", "analysis.min_decks", "analysis.min_share",
+                "analysis.inclusion_min_share", "analysis.map_points", "analysis.link_threshold", "trends.min_games",
+                "analysis.seed")
+        settings = tuple((k, str(cfg[k]).lower() if isinstance(cfg[k], bool) else str(cfg[k])) for k in keys)
+        base = self._base("method.html", "How it works", "How the archetypes, maps and tables are made, in plain words.")
+        self._emit("method.html", P.MethodPage(**base, note=self.s.note_view(self.site.notes.method),
+                                               settings=settings, min_games=self.s.min_games))
+
+    def not_found(self) -> None:
+        """404.html. Hosts serve it at the missing page's own depth, so links
+        relative to the page would point nowhere: with site.base_url every
+        link and asset is absolute; without it links start at the host's root
+        ('/') and the stylesheet is written into the page (allowed by its hash
+        in the CSP), so it looks right at any depth and from file:// too."""
+        base_url = self.site.cfg["site.base_url"].strip()
+        root = base_url.rstrip("/") + "/" if base_url else "/"
+        base = self._base("404.html", "Page not found", "There is no page at this address.", root=root)
+        base["absolute"] = True
+        if not base_url:
+            css = self.assets[self.urls["site_css"]].decode("utf-8")
+            if "</" in css:  # it would end the <style> element early
+                raise RenderError(f"{self.urls['site_css']}: contains '</', which cannot be written inside a <style> element")
+            base.update(inline_style=css, style_hash=base64.b64encode(hashlib.sha256(css.encode("utf-8")).digest()).decode("ascii"),
+                        stylesheets=(), scripts=())
+        self._emit("404.html", P.NotFoundPage(**base, home=root + "index.html"))
+
+    def search(self) -> None:
+        s = self.s
+        entries = []
+        for slug in sorted(s.by_slug):
+            latest = self._seasons_of(slug)[-1]
+            entries.append(SearchEntry(s.name_of(latest), "archetype", f"archetypes/{slug}/index.html",
+                                       s.leader_name(latest.leader)))
+        for leader, slug in s.leader_slug.items():
+            entries.append(SearchEntry(s.leader_name(leader), s.word, f"leaders/{slug}.html"))
+        for card, slug in s.card_slug.items():
+            entries.append(SearchEntry(card, "card", f"cards/{slug}.html", s.card_type.get(card, "")))
+        self.out.update(search_files(entries))
+
+    def run(self) -> tuple[dict[str, bytes], list[Finding]]:
+        s = self.s
+        self.warnings.extend(self.site.notes.findings)
+        self.warnings.extend(orphan_findings(self.site.notes, set(s.by_slug)))
+        self.front()
+        for i, season in enumerate(s.seasons):
+            self.season(season, i)
+        for r in s.results:
+            for a in r.archetypes:
+                self.archetype(r, a)
+        for slug in sorted(s.by_slug):
+            self.history_page(slug)
+        self.cards()
+        for leader in s.leader_slug:
+            self.leader(leader)
+        self.method()
+        self.not_found()
+        self.search()
+        self.out.update(exports.export_files(self.site.data, s.results, s.page_slug))
+        pages = sorted(p for p in self.out if p.endswith(".html") and p != "404.html")
+        files, warns = sitemap_files(self.site.cfg["site.base_url"], pages)
+        self.out.update(files)
+        self.warnings.extend(warns)
+        for path, body in self.assets.items():
+            self.out.setdefault(path, body)
+        return dict(sorted(self.out.items())), self.warnings
+
+
+def render_site(site: SiteInput) -> tuple[dict[str, bytes], list[Finding]]:
+    """Every output file of the site (path from the root -> bytes) and the warnings found."""
+    return Renderer(site).run()

