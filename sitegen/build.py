@@ -7,28 +7,26 @@ Each stage is a module of its own; this is the one place they are wired.
 """
 from __future__ import annotations
 
+import hashlib
+import json
+import os
 import time
-from dataclasses import dataclass, field
+from dataclasses import asdict, dataclass, field, replace
 from pathlib import Path
 from typing import TextIO
 
+from . import __version__
 from . import config as config_mod
-from .analysis.overrides import apply_overrides
-from .analysis.params import AnalysisParams
-from .analysis.seasons import link_seasons
-from .analysis.trends import trend_rows
-from .cache import Cache
-from .check import check_rules
 from .config import Config
-from .load import load_data
-from .model import Finding
-from .partitions import split
+from .model import Finding, RunReport
 from .progress import Progress
 from .resources import default_templates_dir
-from .runner import RunReport, analyse_all
-from .site.notes import load_notes
-from .site.render import SiteInput, render_site
 from .writing import WriteReport, build_lock, write_site
+
+# The stages (and the numeric libraries under them) are imported inside
+# build(), after the up-to-date check, so a rebuild with nothing changed
+# answers in well under a second instead of paying for the imports.
+_STAMP_FILE = "last-build.json"
 
 
 @dataclass(frozen=True)
@@ -106,7 +104,26 @@ def build(
         cfg = cfg.replace(analysis__scheduler=scheduler)
     out = output_dir(cfg, output)
     progress = Progress(stream=stream, quiet=quiet)
+    cache_dir = cfg.path("cache.folder")
     with build_lock(out):
+        stamp = input_stamp(cfg, out)
+        previous = _read_stamp(cache_dir, stamp, out)
+        if previous is not None:
+            progress.say(f"• nothing changed since the last build: {out} is up to date")
+            return replace(previous, seconds=time.perf_counter() - start)
+
+        from .analysis.overrides import apply_overrides
+        from .analysis.params import AnalysisParams
+        from .analysis.seasons import link_seasons
+        from .analysis.trends import trend_rows
+        from .cache import Cache
+        from .check import check_rules
+        from .load import load_data
+        from .partitions import split
+        from .runner import analyse_all
+        from .site.notes import load_notes
+        from .site.render import SiteInput, render_site
+
         with progress.stage("reading decks"):
             data = load_data(cfg)
             progress.say(f"  {len(data.decks):,} decks, {len(data.cards):,} card rows, {len(data.seasons)} season(s)")
@@ -116,7 +133,6 @@ def build(
                 progress.say(f"  {len(data.excluded):,} deck(s) break a rule and are left out")
         parts = split(data, cfg)
         params = AnalysisParams.from_config(cfg)
-        cache_dir = cfg.path("cache.folder")
         cache = Cache(cache_dir) if cache_dir is not None else None
         with progress.stage(f"analysing {len(parts)} partition(s)"):
             results, run = analyse_all(parts, params, cache, workers=cfg["analysis.workers"],
@@ -136,8 +152,8 @@ def build(
             ))
         with progress.stage("writing the site"):
             written = write_site(out, files)
-    warnings = tuple(data.findings) + tuple(override_findings) + tuple(render_findings)
-    return BuildReport(
+        warnings = tuple(data.findings) + tuple(override_findings) + tuple(render_findings)
+        report = BuildReport(
         output=out,
         decks=len(data.decks),
         seasons=len(data.seasons),
@@ -147,6 +163,79 @@ def build(
         run=run,
         written=written,
         warnings=warnings,
-        seconds=time.perf_counter() - start,
-        timings=dict(progress.timings),
-    )
+            seconds=time.perf_counter() - start,
+            timings=dict(progress.timings),
+        )
+        _write_stamp(cache_dir, stamp, report)
+    return report
+
+
+def _files_of(path: Path) -> list[Path]:
+    if path.is_dir():
+        return sorted(p for p in path.rglob("*") if p.is_file())
+    return [path] if path.is_file() else []
+
+
+def input_stamp(cfg: Config, out: Path) -> str:
+    """A digest of everything a build reads: settings, the names, sizes and times of the
+    data, notes and template files, and sitegen's own code. Equal stamps mean the same site."""
+    h = hashlib.sha256()
+    h.update(__version__.encode())
+    h.update(json.dumps(cfg.values, sort_keys=True, default=str).encode())
+    h.update(str(out).encode())
+    h.update(os.environ.get("SOURCE_DATE_EPOCH", "").encode())
+    roots = [cfg.path(k) for k in ("data.deck_cards", "data.decks", "data.cards", "data.decklists",
+                                   "data.parquet_folder", "site.content")]
+    roots += list(templates_dirs(cfg)) + [Path(__file__).resolve().parent]
+    for root in roots:
+        if root is None:
+            continue
+        h.update(f"\0{root}".encode())
+        for f in _files_of(root):
+            if f.suffix == ".pyc":
+                continue
+            st = f.stat()
+            h.update(f"{f}|{st.st_size}|{st.st_mtime_ns}\n".encode())
+    return h.hexdigest()
+
+
+def _output_listing(out: Path) -> list[list]:
+    return [[p.relative_to(out).as_posix(), p.stat().st_size, p.stat().st_mtime_ns] for p in _files_of(out)]
+
+
+def _write_stamp(cache_dir: Path | None, stamp: str, report: BuildReport) -> None:
+    if cache_dir is None:
+        return
+    record = {"stamp": stamp, "output": _output_listing(report.output), "report": {
+        "decks": report.decks, "seasons": report.seasons, "leaders": report.leaders,
+        "archetypes": report.archetypes, "partitions": report.partitions,
+        "partition_keys": [list(k) for k in report.run.analysed + report.run.cached],
+        "files": report.written.files,
+        "warnings": [asdict(w) for w in report.warnings]}}
+    try:
+        cache_dir.mkdir(parents=True, exist_ok=True)
+        tmp = cache_dir / f".{_STAMP_FILE}.{os.getpid()}"
+        tmp.write_text(json.dumps(record), encoding="utf-8")
+        os.replace(tmp, cache_dir / _STAMP_FILE)
+    except OSError:
+        pass  # only a missed shortcut next time
+
+
+def _read_stamp(cache_dir: Path | None, stamp: str, out: Path) -> BuildReport | None:
+    """The last build's report when its inputs and its output are exactly as they were."""
+    if cache_dir is None:
+        return None
+    try:
+        record = json.loads((cache_dir / _STAMP_FILE).read_text(encoding="utf-8"))
+        if record.get("stamp") != stamp or record.get("output") != _output_listing(out):
+            return None
+        r = record["report"]
+        return BuildReport(
+            output=out, decks=r["decks"], seasons=r["seasons"], leaders=r["leaders"],
+            archetypes=r["archetypes"], partitions=r["partitions"],
+            run=RunReport(analysed=(), cached=tuple(tuple(k) for k in r["partition_keys"])),
+            written=WriteReport(files=r["files"], changed=0, removed=0),
+            warnings=tuple(Finding(**w) for w in r["warnings"]),
+        )
+    except (OSError, ValueError, KeyError, TypeError):
+        return None

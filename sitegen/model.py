@@ -219,3 +219,11 @@ class History:
     links: tuple[Link, ...]
     last_seen: dict[str, str]
     seasons_of: dict[str, tuple[str, ...]]
+
+
+@dataclass(frozen=True)
+class RunReport:
+    """Which partitions (season, leader) were analysed afresh and which came from the cache."""
+
+    analysed: tuple[tuple[str, str], ...]
+    cached: tuple[tuple[str, str], ...]

@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import os
 from concurrent.futures import ProcessPoolExecutor, as_completed
-from dataclasses import dataclass
 from typing import Callable, Sequence
 
 from . import __version__
@@ -19,16 +18,8 @@ from .analysis.params import AnalysisParams
 from .analysis.partition import analyse_partition
 from .cache import Cache, fingerprint
 from .errors import SitegenError
-from .model import PartitionInput, PartitionResult
+from .model import PartitionInput, PartitionResult, RunReport
 from .progress import Progress
-
-
-@dataclass(frozen=True)
-class RunReport:
-    """Which partitions were analysed afresh and which came from the cache."""
-
-    analysed: tuple[tuple[str, str], ...]
-    cached: tuple[tuple[str, str], ...]
 
 
 def _one_thread() -> None:

@@ -78,6 +78,25 @@ def test_damaged_cache_entry_is_recomputed(project, tmp_path, damage):
         victim.write_bytes(data[:i] + bytes([data[i] ^ 0xFF]) + data[i + 1:])
     else:
         victim.write_bytes(os.urandom(200))
+    os.utime(project.parent / "data" / "decks.csv")  # same bytes, new time: the build must look again
     report = build(project, quiet=True)
     assert len(report.run.analysed) == 1
     assert tree(project.parent / "site") == good
+
+
+def test_up_to_date_check_notices_a_damaged_output(project):
+    # The shortcut for "nothing changed" also compares the output: a deleted or edited page is rebuilt.
+    build(project, quiet=True)
+    good = tree(project.parent / "site")
+    (project.parent / "site" / "index.html").unlink()
+    (project.parent / "site" / "method.html").write_text("defaced")
+    build(project, quiet=True)
+    assert tree(project.parent / "site") == good
+
+
+def test_up_to_date_check_notices_a_new_note(project):
+    build(project, quiet=True)
+    (project.parent / "content" / "index.md").write_text("---\ntitle: Welcome\n---\nA brand new line.\n")
+    report = build(project, quiet=True)
+    assert report.run.analysed == ()  # notes do not touch the analyses...
+    assert "A brand new line." in (project.parent / "site" / "index.html").read_text()  # ...but do the pages
