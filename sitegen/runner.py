@@ -22,6 +22,19 @@ from .model import PartitionInput, PartitionResult, RunReport
 from .progress import Progress
 
 
+def analysis_version() -> str:
+    """The tool's version plus a digest of the analysis code, so a cached result made by
+    other code (even under the same version number) is never reused."""
+    import hashlib
+    from pathlib import Path
+
+    here = Path(__file__).resolve().parent
+    h = hashlib.sha256(__version__.encode())
+    for path in sorted([here / "model.py", here / "cache.py", *(here / "analysis").glob("*.py")]):
+        h.update(path.name.encode() + b"\0" + path.read_bytes())
+    return f"{__version__}+{h.hexdigest()[:12]}"
+
+
 def _one_thread() -> None:
     """Worker start-up: one BLAS/OpenMP thread per process, so workers do not fight over cores."""
     for var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
@@ -60,7 +73,8 @@ def analyse_all(
     results: list[PartitionResult | None] = [None] * len(parts)
     todo: list[int] = []
     cached: list[tuple[str, str]] = []
-    fps = [fingerprint(p, params, __version__) for p in parts]
+    version = analysis_version()
+    fps = [fingerprint(p, params, version) for p in parts]
     for i, (part, fp) in enumerate(zip(parts, fps)):
         hit = cache.get(fp) if cache is not None else None
         if hit is not None:

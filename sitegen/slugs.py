@@ -24,7 +24,9 @@ def slugify(text: str, *, fallback: str = "item") -> str:
     ascii_text = unicodedata.normalize("NFKD", str(text)).encode("ascii", "ignore").decode("ascii")
     slug = _NOT_SAFE.sub("-", ascii_text.lower()).strip("-")
     if len(slug) > MAX_LEN:
-        slug = slug[:MAX_LEN].rstrip("-")
+        cut = slug[:MAX_LEN]
+        # end on a whole word where one ends in the second half
+        slug = (cut.rsplit("-", 1)[0] if "-" in cut[MAX_LEN // 2:] else cut).strip("-")
     if not slug:
         digest = hashlib.sha1(str(text).encode("utf-8", "surrogatepass")).hexdigest()[:8]
         slug = f"{fallback}-{digest}"

@@ -69,3 +69,14 @@ def test_exports_cover_every_deck(demo_site, repo_root):
     assert json.loads((demo_site / "data" / "assignments.json").read_text())  # parses
     summary = json.loads((demo_site / "data" / "archetypes.json").read_text())
     assert summary
+
+
+@pytest.mark.slow
+def test_demo_notes_belong_to_archetypes_that_exist(demo_site, repo_root):
+    notes = sorted((repo_root / "content" / "archetypes").glob("*.md"))
+    assert notes
+    for note in notes:
+        page = demo_site / "archetypes" / note.stem / "index.html"
+        assert page.is_file(), f"{note.name} names no archetype of the demo build"
+        title = note.read_text(encoding="utf-8").split("title:", 1)[1].split("\n", 1)[0].strip()
+        assert title in page.read_text(encoding="utf-8")

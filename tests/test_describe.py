@@ -90,27 +90,3 @@ def test_archetype_name_format():
     assert describe.archetype_name("Orsolya", [], 2, "archetype 1") == "Orsolya · archetype 1"
 
 
-@pytest.mark.parametrize("text, slug", [
-    ("Orsolya Gilded Quarrel", "orsolya-gilded-quarrel"),
-    ("Éowyn's  Déjà-vu!", "eowyn-s-deja-vu"),
-    ("..", "archetype"),
-    ("", "archetype"),
-    ("漢字", "archetype"),
-    ("CON", "con-deck"),     # Windows reserved device names (Microsoft's file naming rules, from memory)
-    ("nul", "nul-deck"),
-    ("Com1", "com1-deck"),
-])
-def test_slugify(text, slug):
-    assert describe.slugify(text) == slug
-
-
-def test_slugify_cuts_long_text_on_a_word():
-    slug = describe.slugify("Orsolya " + "Lantern-lit Bellringer " * 6)
-    assert len(slug) <= describe.SLUG_MAX and not slug.endswith("-")
-    assert slug.startswith("orsolya-lantern-lit-bellringer")
-    assert slug.split("-")[-1] in {"lantern", "lit", "bellringer"}
-
-
-def test_unique_slug_counts_up():
-    taken: set[str] = set()
-    assert [describe.unique_slug("a", taken) for _ in range(3)] == ["a", "a-2", "a-3"]

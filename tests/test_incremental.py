@@ -100,3 +100,34 @@ def test_up_to_date_check_notices_a_new_note(project):
     report = build(project, quiet=True)
     assert report.run.analysed == ()  # notes do not touch the analyses...
     assert "A brand new line." in (project.parent / "site" / "index.html").read_text()  # ...but do the pages
+
+
+def test_overrides_survive_a_rebuild_that_adds_a_season(project, tmp_path):
+    # Planted by our own edits: notes rename one archetype, hide another and merge a third into the first.
+    import json
+
+    from _sites import make_project as fresh
+
+    full = fresh(tmp_path / "full")
+    drop_season(project.parent, "Second Tide")
+    build(project, quiet=True)
+    doc = json.loads((project.parent / "site" / "data" / "archetypes.json").read_text())
+    wren = sorted((a for a in doc["archetypes"] if a["leader"] == "Wren of the Salt Road"), key=lambda a: -a["decks"])
+    keep, hide, merge = (a["slug"] for a in wren[:3])
+    notes = project.parent / "content" / "archetypes"
+    (notes / f"{keep}.md").write_text("---\nrename: The Salt Road Engine\n---\nOur words.\n")
+    (notes / f"{hide}.md").write_text("---\nhide: true\n---\n")
+    (notes / f"{merge}.md").write_text(f"---\nmerge_into: {keep}\n---\n")
+    for name in ("decks.csv", "deck_cards.csv"):  # next season's data arrives
+        (project.parent / "data" / name).write_bytes((full.parent / "data" / name).read_bytes())
+    report = build(project, quiet=True)
+    assert {s for s, _ in report.run.analysed} == {"Second Tide"}
+    doc = json.loads((project.parent / "site" / "data" / "archetypes.json").read_text())
+    by_slug = {}
+    for a in doc["archetypes"]:
+        by_slug.setdefault(a["slug"], []).append(a)
+    assert {a["season"] for a in by_slug[keep]} == {"First Tide", "Second Tide"}
+    assert all(a["name"] == "The Salt Road Engine" for a in by_slug[keep])
+    assert hide not in by_slug and merge not in by_slug
+    first = next(a for a in by_slug[keep] if a["season"] == "First Tide")
+    assert first["decks"] == wren[0]["decks"] + wren[2]["decks"]  # the merged archetype's decks joined it

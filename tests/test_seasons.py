@@ -297,38 +297,26 @@ def _planted_lineage_families(archetypes: dict) -> dict[str, int]:
 
 
 @pytest.fixture(scope="module")
-def linked_demo(tmp_path_factory):
-    # Planted truth of our own: the demo generator (demo_data/generate.py) writes decks whose
-    # archetypes, drift, splits and merges it chose, into truth.csv and truth.json. A small run
-    # (3 seasons, 2 leaders) keeps the analysis quick; with these sizes it plants one split.
-    params_mod = pytest.importorskip("sitegen.analysis.params")
-    partition_mod = pytest.importorskip("sitegen.analysis.partition")
+def linked_demo(demo_site, repo_root):
+    # Planted truth of our own: the committed demo data (demo_data/), whose archetypes, drift,
+    # splits and merges the generator chose and wrote to truth.csv and truth.json. The analyses
+    # come from the demo build's cache (conftest's demo_site), run through the build's own stages.
     from sitegen import config
-    from sitegen.model import PartitionInput
+    from sitegen.analysis.params import AnalysisParams
+    from sitegen.cache import Cache
+    from sitegen.check import check_rules
+    from sitegen.load import load_data
+    from sitegen.partitions import split
+    from sitegen.runner import analyse_all
 
-    if not DEMO_GENERATOR.exists():
-        pytest.skip("demo_data/generate.py is not there")
-    spec = importlib.util.spec_from_file_location("demo_generate", DEMO_GENERATOR)
-    gen = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(gen)
-    folder = tmp_path_factory.mktemp("demo")
-    gen.generate(folder, decks_per_season=1200, seasons=3, leaders=2, cards_per_leader=200,
-                 neutral_cards=80, decklists=0)
-
-    decks = pd.read_csv(folder / "decks.csv", dtype={"deck_id": str, "season": str, "leader": str})
-    cards = pd.read_parquet(folder / "deck_cards.parquet")
-    info = pd.read_csv(folder / "cards.csv")
-    truth = pd.read_csv(folder / "truth.csv", dtype=str).set_index("deck_id")["archetype"]
-    planted = json.loads((folder / "truth.json").read_text(encoding="utf-8"))
+    cfg = config.load(repo_root / "site.toml")
+    data = check_rules(load_data(cfg), cfg)
+    results, _ = analyse_all(split(data, cfg), AnalysisParams.from_config(cfg), Cache(demo_site.parent / "cache"))
+    truth = pd.read_csv(repo_root / "demo_data" / "truth.csv", dtype=str).set_index("deck_id")["archetype"]
+    planted = json.loads((repo_root / "demo_data" / "truth.json").read_text(encoding="utf-8"))
     seasons = [s["name"] for s in planted["seasons"]]
-    params = params_mod.AnalysisParams.from_config(config.defaults())
-    types = dict(zip(info["card"], info["type"]))
-    results = []
-    for (season, leader), part_decks in decks.groupby(["season", "leader"], sort=True):
-        part_cards = cards[cards["deck_id"].isin(part_decks["deck_id"])].reset_index(drop=True)
-        part = PartitionInput(season, leader, part_decks.reset_index(drop=True), part_cards, types)
-        results.append(partition_mod.analyse_partition(part, params))
-    linked, history = link_seasons(results, seasons, config.defaults()["analysis.link_threshold"])
+    assert list(data.seasons) == seasons  # publication order read from the dates
+    linked, history = link_seasons(results, seasons, cfg["analysis.link_threshold"])
 
     # Each found archetype stands for the planted archetype most of its decks come from.
     found = []  # (season, leader, planted, decks, slug)

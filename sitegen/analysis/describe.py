@@ -6,8 +6,6 @@ indices.
 """
 from __future__ import annotations
 
-import re
-import unicodedata
 from collections.abc import Sequence
 
 import numpy as np
@@ -16,10 +14,6 @@ import scipy.sparse as sp
 
 from ..model import TIERS, CardLine, DeckLine, SignatureCard
 
-#: Most characters in a slug (before a uniqueness suffix).
-SLUG_MAX = 60
-#: Names Windows will not accept as a file name, whatever the extension.
-_RESERVED = {"con", "prn", "aux", "nul"} | {f"com{i}" for i in range(10)} | {f"lpt{i}" for i in range(10)}
 
 
 def _rates(present: sp.csr_matrix, members: np.ndarray, against: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
@@ -81,36 +75,6 @@ def archetype_name(leader: str, signature: Sequence[SignatureCard], n_cards: int
         return f"{leader} · {fallback}"
     text = names[0] if len(names) == 1 else ", ".join(names[:-1]) + " & " + names[-1]
     return f"{leader} · {text}"
-
-
-def slugify(text: str, max_len: int = SLUG_MAX) -> str:
-    """File-name safe form of ``text``: lowercase a-z, 0-9 and '-', at most ``max_len`` characters.
-
-    Accents are dropped (NFKD), every other run of characters becomes one
-    '-', the cut falls on a '-' where possible. Never empty (``"archetype"``),
-    never a Windows reserved name (``"con"`` becomes ``"con-deck"``).
-    """
-    ascii_text = unicodedata.normalize("NFKD", text).encode("ascii", "ignore").decode("ascii").lower()
-    slug = re.sub(r"[^a-z0-9]+", "-", ascii_text).strip("-")
-    if len(slug) > max_len:
-        cut = slug[:max_len]
-        slug = cut.rsplit("-", 1)[0] if "-" in cut[max_len // 2:] else cut
-        slug = slug.strip("-")
-    if not slug:
-        slug = "archetype"
-    if slug in _RESERVED:
-        slug += "-deck"
-    return slug
-
-
-def unique_slug(base: str, taken: set[str]) -> str:
-    """``base``, or ``base-2``, ``base-3``... whichever is not in ``taken`` yet (adds it)."""
-    slug, i = base, 2
-    while slug in taken:
-        slug = f"{base}-{i}"
-        i += 1
-    taken.add(slug)
-    return slug
 
 
 def medoid(vectors, members: np.ndarray | None = None) -> int:

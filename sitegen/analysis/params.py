@@ -22,7 +22,7 @@ class AnalysisParams:
     silhouette_sample: int = 3000
     inclusion_min_share: float = 0.05
     name_cards: int = 2
-    map_points: int = 3000
+    map_points: int = 1500
     leader_word: str = "leader"
     svd_dims: int = 32
     kmeans_starts: int = 4

@@ -16,6 +16,7 @@ import pandas as pd
 from threadpoolctl import threadpool_limits
 
 from ..model import OTHER_KEY, Archetype, PartitionInput, PartitionResult
+from ..slugs import SlugSet, slugify
 from . import cluster, describe, embed, features
 from .params import AnalysisParams
 
@@ -151,11 +152,11 @@ class _Context:
         signature = () if is_other else describe.signature_cards(self.present, members, self.cards, SIGNATURE_CARDS)
         if is_other:
             name = f"{part.leader} · other decks"
-            slug = describe.slugify(f"{part.leader} other decks")
+            slug = slugify(f"{part.leader} other decks", fallback="other-decks")
         else:
             name = describe.archetype_name(part.leader, signature, params.name_cards, f"archetype {key[1:]}")
             words = [s.card for s in signature[:params.name_cards]] or [f"archetype {key[1:]}"]
-            slug = describe.slugify(" ".join([part.leader, *words]))
+            slug = slugify(" ".join([part.leader, *words]), fallback="archetype")
         row = describe.medoid(self.weights, members)
         medoid, total = describe.decklist(self.counts, row, self.cards, part.card_types)
         sub = self.decks.iloc[members]
@@ -188,11 +189,8 @@ def _distinct(present, pieces: list[np.ndarray], least: float) -> bool:
 
 def _unique_slugs(archetypes: list[Archetype], other: Archetype | None) -> list[Archetype]:
     """Archetypes (then the other group) with slugs made unique in key order."""
-    taken: set[str] = set()
-    out = []
-    for g in archetypes + ([other] if other is not None else []):
-        out.append(replace(g, slug=describe.unique_slug(g.slug, taken)))
-    return out
+    taken = SlugSet()
+    return [replace(g, slug=taken.add(g.slug)) for g in archetypes + ([other] if other is not None else [])]
 
 
 def _assignments(ids, keys, dist, xy) -> pd.DataFrame:
