@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import time
 
-import numpy as np
 import pandas as pd
 from sklearn.cluster import KMeans
 from sklearn.feature_extraction.text import TfidfTransformer

@@ -62,7 +62,6 @@ def child_build(config: str, out: str, cache: str, workers: int) -> dict:
 
 
 def child_notebook(data: str, max_partitions: int | None, tsne: bool) -> dict:
-    import pandas as pd
 
     from notebook import notebook_method
 

@@ -180,7 +180,7 @@ def _check_value(setting: Setting, value: Any, file: str) -> Any:
 
 def _suggest(key: str, candidates: list[str]) -> str:
     near = difflib.get_close_matches(key, candidates, n=1, cutoff=0.5)
-    return f"did you mean '{near[0]}'?" if near else f"valid keys are listed in the README's settings table"
+    return f"did you mean '{near[0]}'?" if near else "valid keys are listed in the README's settings table"
 
 
 def _check_structured(values: dict[str, Any], file: str) -> None:

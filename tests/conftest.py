@@ -1,7 +1,6 @@
 """Shared fixtures: the demo site, built once per test session."""
 from __future__ import annotations
 
-import shutil
 from pathlib import Path
 
 import pytest

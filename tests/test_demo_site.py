@@ -7,7 +7,6 @@ import json
 import re
 import shutil
 import subprocess
-from pathlib import Path
 from urllib.parse import unquote, urlsplit
 
 import pytest
