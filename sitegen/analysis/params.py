@@ -1,7 +1,14 @@
 """The analysis settings one partition needs, as one small frozen (picklable) record."""
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
+
+from ..config import SETTINGS_BY_KEY
+
+
+def _default(name: str):
+    """The declared default of ``analysis.<name>`` (declared once, in sitegen.config)."""
+    return SETTINGS_BY_KEY[f"analysis.{name}"].default
 
 
 @dataclass(frozen=True)
@@ -9,27 +16,27 @@ class AnalysisParams:
     """Settings ``analysis.*`` (plus ``site.leader_word``) that shape a partition's analysis.
 
     ``pinned_k`` holds (season, leader, k) triples; a leader of None pins
-    every leader of that season. Built by :meth:`from_config`; the defaults
-    here equal the defaults in :data:`sitegen.config.SETTINGS`.
+    every leader of that season. Built by :meth:`from_config`; every other
+    field is the setting ``analysis.<field name>``, with its declared default.
     """
 
-    k_min: int = 2
-    k_max: int = 12
+    k_min: int = _default("k_min")
+    k_max: int = _default("k_max")
     pinned_k: tuple[tuple[str, str | None, int], ...] = ()
-    min_decks: int = 30
-    min_share: float = 0.02
-    seed: int = 0
-    silhouette_sample: int = 3000
-    inclusion_min_share: float = 0.05
-    name_cards: int = 2
-    map_points: int = 1500
-    leader_word: str = "leader"
-    svd_dims: int = 32
-    kmeans_starts: int = 4
-    fit_sample: int = 20000
-    split_silhouette: float = 0.3
-    min_signature: float = 0.6
-    map_iterations: int = 150
+    min_decks: int = _default("min_decks")
+    min_share: float = _default("min_share")
+    seed: int = _default("seed")
+    silhouette_sample: int = _default("silhouette_sample")
+    inclusion_min_share: float = _default("inclusion_min_share")
+    name_cards: int = _default("name_cards")
+    map_points: int = _default("map_points")
+    leader_word: str = SETTINGS_BY_KEY["site.leader_word"].default
+    svd_dims: int = _default("svd_dims")
+    kmeans_starts: int = _default("kmeans_starts")
+    fit_sample: int = _default("fit_sample")
+    split_silhouette: float = _default("split_silhouette")
+    min_signature: float = _default("min_signature")
+    map_iterations: int = _default("map_iterations")
 
     @classmethod
     def from_config(cls, cfg) -> "AnalysisParams":
@@ -38,25 +45,8 @@ class AnalysisParams:
             (str(p["season"]), None if p.get("leader") in (None, "") else str(p["leader"]), int(p["k"]))
             for p in cfg["analysis.pinned_k"]
         )
-        return cls(
-            k_min=cfg["analysis.k_min"],
-            k_max=cfg["analysis.k_max"],
-            pinned_k=pins,
-            min_decks=cfg["analysis.min_decks"],
-            min_share=cfg["analysis.min_share"],
-            seed=cfg["analysis.seed"],
-            silhouette_sample=cfg["analysis.silhouette_sample"],
-            inclusion_min_share=cfg["analysis.inclusion_min_share"],
-            name_cards=cfg["analysis.name_cards"],
-            map_points=cfg["analysis.map_points"],
-            leader_word=cfg["site.leader_word"],
-            svd_dims=cfg["analysis.svd_dims"],
-            kmeans_starts=cfg["analysis.kmeans_starts"],
-            fit_sample=cfg["analysis.fit_sample"],
-            split_silhouette=cfg["analysis.split_silhouette"],
-            min_signature=cfg["analysis.min_signature"],
-            map_iterations=cfg["analysis.map_iterations"],
-        )
+        same_name = {f.name: cfg[f"analysis.{f.name}"] for f in fields(cls) if f.name not in ("pinned_k", "leader_word")}
+        return cls(pinned_k=pins, leader_word=cfg["site.leader_word"], **same_name)
 
     def pinned(self, season: str, leader: str) -> int | None:
         """The pinned k of this season and leader, or None; a pin naming the leader beats one for the whole season."""
