@@ -27,6 +27,11 @@ def _runs(deck_ids: pd.Series) -> np.ndarray | None:
     n = len(deck_ids)
     if n == 0:
         return np.array([], dtype=np.int64)
+    if isinstance(deck_ids.dtype, pd.CategoricalDtype):
+        codes = deck_ids.cat.codes.to_numpy()
+        starts = np.flatnonzero(np.concatenate([[True], codes[1:] != codes[:-1]]))
+        heads = codes[starts]
+        return starts if heads.size < 2 or np.all(heads[1:] > heads[:-1]) or np.unique(heads).size == heads.size else None
     try:
         arrow = pa.chunked_array(deck_ids.array.__arrow_array__())
         differs = pc.not_equal(arrow[1:], arrow[:-1]).to_numpy(zero_copy_only=False)

@@ -47,7 +47,9 @@ class DeckData:
     ``decks``: one row per deck, columns :data:`DECK_COLUMNS` (strings; wins
     and losses nullable Int64; event, player, title may be missing), sorted by
     deck_id. ``cards``: one row per deck and card, columns
-    :data:`CARD_ROW_COLUMNS` (quantity int), sorted by deck_id then card.
+    :data:`CARD_ROW_COLUMNS`, sorted by deck_id then card; deck_id and card
+    are categoricals whose categories are sorted (deck_id's are the deck
+    table's ids, so a code is a row of ``decks``), quantity is int64.
     ``card_info``: the card table, ``card`` and ``type`` first, then any
     further columns, or None when no card table was given. ``seasons``:
     season names in publication order.

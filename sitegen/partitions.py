@@ -30,35 +30,81 @@ def split(data: DeckData, cfg: Config) -> list[PartitionInput]:
     the cost is linear in the number of card rows.
     """
     decks = data.decks
-    if data.excluded:
-        decks = decks[~decks["deck_id"].isin(data.excluded)]
-    if not cfg["analysis.by_leader"]:
-        decks = decks.assign(leader=ALL_LEADERS)
+    n = len(decks)
+    if cfg["analysis.by_leader"]:
+        leader_codes, leaders = pd.factorize(decks["leader"], sort=True)
+    else:
+        leader_codes, leaders = np.zeros(n, dtype=np.int64), pd.Index([ALL_LEADERS])
     season_rank = {s: i for i, s in enumerate(data.seasons)}
-    keys = decks[["season", "leader"]].drop_duplicates()
-    keys = keys.assign(_rank=keys["season"].map(season_rank)).sort_values(["_rank", "leader"], kind="stable")
-    order = list(zip(keys["season"], keys["leader"]))
-    part_no = {key: i for i, key in enumerate(order)}
+    season_codes, seasons = pd.factorize(decks["season"])
+    ranks = np.array([season_rank[s] for s in seasons], dtype=np.int64)
+    # One number per (season, leader) that sorts in publication order.
+    pair = ranks[season_codes] * len(leaders) + leader_codes
+    if data.excluded:
+        pair = np.where(decks["deck_id"].isin(data.excluded).to_numpy(), -1, pair)
+    used = np.unique(pair[pair >= 0])
+    order = [(data.seasons[p // len(leaders)], str(leaders[p % len(leaders)])) for p in used.tolist()]
+    deck_part = np.where(pair >= 0, np.searchsorted(used, pair), -1)
 
-    deck_part = np.fromiter((part_no[k] for k in zip(decks["season"], decks["leader"])), dtype=np.int64, count=len(decks))
-    part_of_deck = pd.Series(deck_part, index=pd.Index(decks["deck_id"]))
-    card_part = part_of_deck.reindex(data.cards["deck_id"]).to_numpy()
-    keep = ~np.isnan(card_part) if card_part.dtype.kind == "f" else np.ones(len(card_part), bool)
-    card_rows = np.flatnonzero(keep)
-    card_part = card_part[keep].astype(np.int64)
-    by_part = card_rows[np.argsort(card_part, kind="stable")]
-    bounds = np.searchsorted(np.sort(card_part, kind="stable"), np.arange(len(order) + 1))
+    card_part, deck_row = _card_rows_of(data, deck_part)
+    card_rows = np.flatnonzero(card_part >= 0)
+    # A stable sort of small integers is a radix sort in numpy: int16 when the partitions fit.
+    small = card_part[card_rows].astype(np.int16) if len(order) < 2 ** 15 else card_part[card_rows]
+    by_part = card_rows[np.argsort(small, kind="stable")]
+    bounds = np.searchsorted(card_part[by_part], np.arange(len(order) + 1))
 
     deck_order = np.argsort(deck_part, kind="stable")
     deck_bounds = np.searchsorted(deck_part[deck_order], np.arange(len(order) + 1))
     types = card_types(data)
+    local = np.full(n, -1, dtype=np.int64)
     parts: list[PartitionInput] = []
     for i, (season, leader) in enumerate(order):
-        part_decks = decks.iloc[deck_order[deck_bounds[i]:deck_bounds[i + 1]]].reset_index(drop=True)
-        part_cards = data.cards.iloc[by_part[bounds[i]:bounds[i + 1]]].reset_index(drop=True)
+        rows = deck_order[deck_bounds[i]:deck_bounds[i + 1]]
+        part_decks = decks.iloc[rows].reset_index(drop=True)
+        if not cfg["analysis.by_leader"]:
+            part_decks["leader"] = ALL_LEADERS
+        picked = by_part[bounds[i]:bounds[i + 1]]
+        if deck_row is None:
+            part_cards = data.cards.iloc[picked].reset_index(drop=True)
+        else:
+            local[rows] = np.arange(len(rows))
+            part_cards = _local_cards(data.cards, picked, local[deck_row[picked]], part_decks["deck_id"])
+            local[rows] = -1
         present = set(part_cards["card"].unique()) if types else set()
         parts.append(PartitionInput(
             season=season, leader=leader, decks=part_decks, cards=part_cards,
             card_types={c: types[c] for c in present if c in types},
         ))
     return parts
+
+
+def _card_rows_of(data: DeckData, deck_part: np.ndarray) -> tuple[np.ndarray, np.ndarray | None]:
+    """The partition of each card row (-1: none), and each row's deck as a row of ``data.decks``.
+
+    The loader's categorical deck ids make this one lookup; other tables
+    (built by hand) are joined on the ids, and give no deck rows.
+    """
+    ids = data.cards["deck_id"]
+    if isinstance(ids.dtype, pd.CategoricalDtype) and len(ids.cat.categories) == len(data.decks) \
+            and ids.cat.categories.equals(pd.Index(data.decks["deck_id"])):
+        deck_row = np.asarray(ids.cat.codes.to_numpy(), dtype=np.int64)
+        return deck_part[deck_row], deck_row
+    part_of_deck = pd.Series(deck_part, index=pd.Index(data.decks["deck_id"]))
+    found = part_of_deck.reindex(ids.astype(str) if isinstance(ids.dtype, pd.CategoricalDtype) else ids).to_numpy()
+    return np.where(np.isnan(found), -1, found).astype(np.int64) if found.dtype.kind == "f" else found, None
+
+
+def _local_cards(cards: pd.DataFrame, picked: np.ndarray, deck_codes: np.ndarray, deck_ids: pd.Series) -> pd.DataFrame:
+    """One partition's card rows, its categoricals holding only its own decks and cards."""
+    card = cards["card"]
+    if isinstance(card.dtype, pd.CategoricalDtype):
+        codes = card.cat.codes.to_numpy()[picked]
+        used = np.bincount(codes, minlength=len(card.cat.categories)) > 0
+        card = pd.Categorical.from_codes((np.cumsum(used) - 1)[codes], categories=card.cat.categories[used])
+    else:
+        card = card.to_numpy()[picked]
+    return pd.DataFrame({
+        "deck_id": pd.Categorical.from_codes(deck_codes, categories=pd.Index(deck_ids.to_numpy(dtype=object), dtype="str")),
+        "card": card,
+        "quantity": cards["quantity"].to_numpy()[picked],
+    })

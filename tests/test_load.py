@@ -465,4 +465,6 @@ def test_demo_decklists_match_the_demo_tables(tmp_path):
     cols = ["deck_id", "season", "leader", "title"]
     pd.testing.assert_frame_equal(from_lists.decks[cols], subset[cols])
     cards = from_tables.cards[from_tables.cards["deck_id"].isin(ids)].reset_index(drop=True)
-    pd.testing.assert_frame_equal(from_lists.cards, cards)
+    # The two loads hold different decks, so their categoricals have different categories: compare values.
+    as_text = {"deck_id": str, "card": str}
+    pd.testing.assert_frame_equal(from_lists.cards.astype(as_text), cards.astype(as_text))

@@ -22,11 +22,11 @@ def build_matrix(cards_df: pd.DataFrame, deck_ids: Sequence[str]) -> tuple[sp.cs
     ``deck_ids`` are ignored and repeated (deck, card) rows add up. Row i is
     ``deck_ids[i]``; columns are the cards sorted by name.
     """
-    # Factorise first (fast on Arrow strings), then look up only the distinct values.
-    deck_codes, deck_uniques = pd.factorize(cards_df["deck_id"], sort=False)
+    # Codes first (a categorical's own, else factorised), then look up only the distinct values.
+    deck_codes, deck_uniques = _codes(cards_df["deck_id"])
     rows = pd.Index(list(deck_ids)).get_indexer(pd.Index(deck_uniques))[deck_codes]
     keep = (deck_codes >= 0) & (rows >= 0)
-    card_codes, card_uniques = pd.factorize(cards_df["card"], sort=False)
+    card_codes, card_uniques = _codes(cards_df["card"])
     card_codes = card_codes[keep]
     used = np.unique(card_codes)
     names = [str(card_uniques[i]) for i in used]
@@ -40,6 +40,13 @@ def build_matrix(cards_df: pd.DataFrame, deck_ids: Sequence[str]) -> tuple[sp.cs
     counts.eliminate_zeros()
     counts.sort_indices()
     return counts, cards
+
+
+def _codes(column: pd.Series) -> tuple[np.ndarray, pd.Index]:
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        return np.asarray(column.cat.codes.to_numpy(), dtype=np.intp), column.cat.categories
+    codes, uniques = pd.factorize(column, sort=False)
+    return codes, pd.Index(uniques)
 
 
 def presence(counts: sp.csr_matrix) -> sp.csr_matrix:

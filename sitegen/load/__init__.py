@@ -12,6 +12,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+from pandas.api.types import union_categoricals
 
 from ..config import Config
 from ..errors import ConfigError, DataError, DataErrors
@@ -24,6 +25,8 @@ from .tables import PARQUET_SUFFIXES, Table, read_table
 __all__ = ["load_data", "read_decklists", "read_table"]
 
 _DECK_OPTIONAL = ("wins", "losses", "event", "player", "title")
+#: Long-form columns read as categoricals: a few thousand cards and one id per deck over tens of millions of rows.
+_CARD_ROW_CATEGORIES = frozenset({"deck_id", "card"})
 
 
 def _deck_columns(cfg: Config) -> tuple[dict[str, str], dict[str, str]]:
@@ -107,7 +110,7 @@ def load_data(cfg: Config) -> DeckData:
         lambda: read_table(decks_path, setting="data.decks", required=required, optional=optional,
                            numeric=frozenset({"wins", "losses"})),
         lambda: read_table(cards_path, setting="data.deck_cards", required=_card_rows_columns(cfg),
-                           numeric=frozenset({"quantity"})),
+                           numeric=frozenset({"quantity"}), categorical=_CARD_ROW_CATEGORIES),
         lambda: _read_card_table(cfg),
     ])
     return build(decks, cards, card_table, cfg)
@@ -137,7 +140,7 @@ def _read_parquet_folder(folder: Path, cfg: Config) -> tuple[Table, Table]:
                 lambda: read_table(decks_file, setting="data.parquet_folder", required=required, optional=optional,
                                    numeric=frozenset({"wins", "losses"})),
                 lambda: read_table(cards_file, setting="data.parquet_folder", required=_card_rows_columns(cfg),
-                                   numeric=frozenset({"quantity"})),
+                                   numeric=frozenset({"quantity"}), categorical=_CARD_ROW_CATEGORIES),
             ])
         except DataErrors as exc:
             errors.extend(exc.errors)
@@ -170,9 +173,15 @@ def _stack(tables: list[Table]) -> Table:
     """Several tables as one, each row keeping its own file and row."""
     frames = [t.frame for t in tables]
     columns = list(dict.fromkeys(c for f in frames for c in f.columns))
-    frame = pd.concat([f.reindex(columns=columns) for f in frames], ignore_index=True)
+    # Categorical columns of different categories would concatenate to one string per row.
+    categorical = [c for c in columns if all(isinstance(f[c].dtype, pd.CategoricalDtype) for f in frames if c in f)
+                   and all(c in f for f in frames)]
+    frame = pd.concat([f.reindex(columns=columns).drop(columns=categorical) for f in frames], ignore_index=True)
+    for c in categorical:
+        frame[c] = pd.Series(union_categoricals([f[c] for f in frames]))
+    frame = frame[columns]
     for c in columns:
-        if pd.api.types.is_string_dtype(frame[c].dtype) or frame[c].dtype == object:
+        if c not in categorical and (pd.api.types.is_string_dtype(frame[c].dtype) or frame[c].dtype == object):
             frame[c] = frame[c].fillna("").astype("str")
     names = {}
     for t in tables:

@@ -83,6 +83,7 @@ def read_table(
     required: dict[str, str],
     optional: dict[str, str] | None = None,
     numeric: frozenset[str] = frozenset(),
+    categorical: frozenset[str] = frozenset(),
     all_columns: bool = False,
 ) -> Table:
     """Read the columns a stage needs from one table file.
@@ -91,8 +92,12 @@ def read_table(
     names; a missing required column is an error that lists the columns the
     file has, a missing optional one is left out. ``numeric`` names logical
     columns a Parquet file may keep as numbers (everything else becomes
-    text). With ``all_columns`` every further column is kept under its own
-    name (the card table).
+    text). ``categorical`` names text columns of few distinct values over
+    many rows (the long-form table's deck ids and card names): they are read
+    dictionary-encoded and come back as pandas categoricals, which costs a
+    fraction of the time and memory of one string per row. With
+    ``all_columns`` every further column is kept under its own name (the
+    card table).
     """
     _check_file(path, setting)
     optional = optional or {}
@@ -122,7 +127,7 @@ def read_table(
                 while name in wanted:
                     name = f"{name}_extra"
                 wanted[name] = raw
-    frame = reader(path, wanted, numeric)
+    frame = reader(path, wanted, numeric, frozenset(wanted[c] for c in categorical if c in wanted))
     if len(frame) == 0:
         raise DataError(path, "header only, no rows", row=2,
                         fix="add one row per deck (or card) under the header")
@@ -213,7 +218,12 @@ def _csv_header(path: Path) -> list[str]:
     return record
 
 
-def _read_csv(path: Path, wanted: dict[str, str], numeric: frozenset[str]) -> pd.DataFrame:
+#: Arrow type of a dictionary-encoded text column.
+_DICTIONARY = pa.dictionary(pa.int32(), pa.string())
+
+
+def _read_csv(path: Path, wanted: dict[str, str], numeric: frozenset[str],
+              categorical: frozenset[str] = frozenset()) -> pd.DataFrame:
     raw_names = list(dict.fromkeys(wanted.values()))
     try:
         table = pacsv.read_csv(
@@ -223,7 +233,7 @@ def _read_csv(path: Path, wanted: dict[str, str], numeric: frozenset[str]) -> pd
             parse_options=pacsv.ParseOptions(newlines_in_values=_has_quote(path)),
             convert_options=pacsv.ConvertOptions(
                 include_columns=raw_names,
-                column_types={name: pa.string() for name in raw_names},
+                column_types={name: _DICTIONARY if name in categorical else pa.string() for name in raw_names},
                 strings_can_be_null=False,
                 quoted_strings_can_be_null=False,
             ),
@@ -300,10 +310,15 @@ def _parquet_header(path: Path) -> list[str]:
         raise _not_parquet(path, exc) from None
 
 
-def _read_parquet(path: Path, wanted: dict[str, str], numeric: frozenset[str]) -> pd.DataFrame:
+def _read_parquet(path: Path, wanted: dict[str, str], numeric: frozenset[str],
+                  categorical: frozenset[str] = frozenset()) -> pd.DataFrame:
     raw_names = list(dict.fromkeys(wanted.values()))
     try:
-        table = pq.read_table(path, columns=raw_names)
+        schema = pq.ParquetFile(path).schema_arrow
+        # Only text columns can be read dictionary-encoded; others are turned into text below.
+        as_dictionary = [name for name in raw_names if name in categorical
+                         and (pa.types.is_string(schema.field(name).type) or pa.types.is_large_string(schema.field(name).type))]
+        table = pq.read_table(path, columns=raw_names, read_dictionary=as_dictionary or None)
     except Exception as exc:  # pyarrow raises several types for a corrupt file
         raise _not_parquet(path, exc) from None
     out: dict[str, pd.Series] = {}
@@ -313,8 +328,20 @@ def _read_parquet(path: Path, wanted: dict[str, str], numeric: frozenset[str]) -
         if logical in numeric and (pa.types.is_integer(kind) or pa.types.is_floating(kind)):
             out[logical] = column.to_pandas()
             continue
-        out[logical] = _as_text(column)
+        out[logical] = _as_categories(column) if raw in categorical else _as_text(column)
     return pd.DataFrame(out)
+
+
+def _as_categories(column: pa.ChunkedArray) -> pd.Series:
+    """A text column as a pandas categorical of its distinct values: nulls become ''."""
+    if not (pa.types.is_dictionary(column.type) and pa.types.is_string(column.type.value_type)):
+        return pd.Series(pd.Categorical(_as_text(column)))
+    series = pd.Series(column.unify_dictionaries().to_pandas() if column.num_chunks > 1 else column.to_pandas())
+    if series.isna().any():
+        if "" not in series.cat.categories:
+            series = series.cat.add_categories([""])
+        series = series.fillna("")
+    return series
 
 
 def _as_text(column: pa.ChunkedArray) -> pd.Series:
