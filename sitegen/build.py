@@ -118,25 +118,47 @@ def build(
         from .analysis.trends import trend_rows
         from .cache import Cache
         from .check import check_rules
-        from .load import load_data
+        from .load import load_data, open_season_folder
         from .partitions import split
-        from .runner import analyse_all
+        from .runner import Analyses
         from .site.notes import load_notes
         from .site.render import SiteInput, render_site
 
-        with progress.stage("reading decks"):
-            data = load_data(cfg)
-            progress.say(f"  {len(data.decks):,} decks, {len(data.cards):,} card rows, {len(data.seasons)} season(s)")
-        with progress.stage("checking deck-building rules"):
-            data = check_rules(data, cfg)
-            if data.excluded:
-                progress.say(f"  {len(data.excluded):,} deck(s) break a rule and are left out")
-        parts = split(data, cfg)
         params = AnalysisParams.from_config(cfg)
         cache = Cache(cache_dir) if cache_dir is not None else None
-        with progress.stage(f"analysing {len(parts)} partition(s)"):
-            results, run = analyse_all(parts, params, cache, workers=cfg["analysis.workers"],
-                                       scheduler=cfg["analysis.scheduler"], progress=progress)
+        runs = Analyses(params, cache, workers=cfg["analysis.workers"], scheduler=cfg["analysis.scheduler"],
+                        progress=progress)
+        with runs:
+            with progress.stage("reading decks"):
+                folder = open_season_folder(cfg)
+                data = load_data(cfg) if folder is None else None
+                if data is not None:
+                    progress.say(f"  {len(data.decks):,} decks, {len(data.cards):,} card rows, {len(data.seasons)} season(s)")
+                else:
+                    progress.say(f"  {len(folder.files)} season folder(s), read and analysed one season at a time")
+            if data is not None:
+                with progress.stage("checking deck-building rules"):
+                    data = check_rules(data, cfg)
+                parts = split(data, cfg)
+                with progress.stage(f"analysing {len(parts)} partition(s)"):
+                    runs.add(parts)
+                    results, run = runs.finish()
+            else:
+                with progress.stage("reading, checking and analysing season by season"):
+                    for season in folder.seasons():
+                        progress.say(f"  {season.seasons[0]}: {len(season.decks):,} decks, {len(season.cards):,} card rows")
+                        started = runs.add(split(season, cfg))
+                        del season
+                        # The next season is read while this one is analysed; earlier ones must be done,
+                        # so no more than two seasons' card rows are held at once.
+                        runs.wait_below(started)
+                    results, run = runs.finish()
+                data = folder.whole()
+                # Folder order is name order; pages and season links go in publication order.
+                rank = {s: i for i, s in enumerate(data.seasons)}
+                results.sort(key=lambda r: (rank[r.season], r.leader))
+            if data.excluded:
+                progress.say(f"  {len(data.excluded):,} deck(s) break a rule and are left out")
         if cache is not None:
             cache.prune({r.fingerprint for r in results})
         with progress.stage("linking seasons"):
@@ -159,7 +181,7 @@ def build(
         seasons=len(data.seasons),
         leaders=int(data.decks["leader"].nunique()),
         archetypes=sum(len(r.archetypes) for r in linked),
-        partitions=len(parts),
+        partitions=len(results),
         run=run,
         written=written,
         warnings=warnings,

@@ -19,7 +19,10 @@ import pyarrow.compute as pc
 from .config import Config
 from .model import DeckData, Finding
 
-__all__ = ["check_rules", "deck_totals"]
+__all__ = ["RULE_KINDS", "check_rules", "deck_totals"]
+
+#: The findings of the rule checks, in the order they are listed for one deck.
+RULE_KINDS = ("copies-over-limit", "deck-too-small", "deck-too-large")
 
 
 def _runs(deck_ids: pd.Series) -> np.ndarray | None:

@@ -15,6 +15,8 @@ class SitegenError(Exception):
 
 def _show(value: object, limit: int = 60) -> str:
     """Render a bad value safely for a one-line message."""
+    if hasattr(value, "item") and callable(value.item) and getattr(value, "shape", None) == ():
+        value = value.item()  # a numpy number shows as 0, not np.int64(0)
     text = repr(value)
     if len(text) > limit:
         text = text[: limit - 1] + "…"

@@ -10,8 +10,8 @@ worker), so the output is the same whichever way they ran.
 from __future__ import annotations
 
 import os
-from concurrent.futures import ProcessPoolExecutor, as_completed
-from typing import Callable, Sequence
+from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from typing import Sequence
 
 from . import __version__
 from .analysis.params import AnalysisParams
@@ -69,47 +69,137 @@ def analyse_all(
     progress: Progress | None = None,
 ) -> tuple[list[PartitionResult], RunReport]:
     """Analyse every partition, taking unchanged ones from ``cache``."""
-    progress = progress or Progress(quiet=True)
-    results: list[PartitionResult | None] = [None] * len(parts)
-    todo: list[int] = []
-    cached: list[tuple[str, str]] = []
-    version = analysis_version()
-    fps = [fingerprint(p, params, version) for p in parts]
-    for i, (part, fp) in enumerate(zip(parts, fps)):
-        hit = cache.get(fp) if cache is not None else None
-        if hit is not None:
-            results[i] = hit
-            cached.append((part.season, part.leader))
-        else:
-            todo.append(i)
-    if cached:
-        progress.say(f"  {len(cached)} partition(s) unchanged, taken from the cache")
-    if todo:
-        names = ", ".join(f"{parts[i].season} / {parts[i].leader}" for i in todo[:8])
+    with Analyses(params, cache, workers=workers, scheduler=scheduler, progress=progress) as runs:
+        runs.add(parts)
+        return runs.finish()
+
+
+class Analyses:
+    """Partition analyses handed in a batch at a time (a season, say), run while the next batch is read.
+
+    :meth:`add` takes unchanged partitions from the cache and starts the
+    rest; :meth:`wait_below` holds the caller until few enough are still
+    queued, so a reader that hands in one season at a time keeps at most a
+    season or two of card rows in memory; :meth:`finish` waits for the rest
+    and returns every result in the order the partitions were added.
+    """
+
+    def __init__(self, params: AnalysisParams, cache: Cache | None, *, workers: int = 0, scheduler: str = "",
+                 progress: Progress | None = None) -> None:
+        self.params, self.cache, self.scheduler = params, cache, scheduler
+        self.workers = workers
+        self.progress = progress or Progress(quiet=True)
+        self.version = analysis_version()
+        self._results: list[PartitionResult | None] = []
+        self._keys: list[tuple[str, str]] = []
+        self._fps: list[str] = []
+        self._todo: list[int] = []
+        self._cached: list[int] = []
+        self._pending: dict = {}  # future -> partition index
+        self._done = 0
+        self._pool: ProcessPoolExecutor | None = None
+        self._client = None
+        self._inline = False
+
+    def __enter__(self) -> "Analyses":
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+    def close(self) -> None:
+        for fut in self._pending:
+            fut.cancel()
+        if self._pool is not None:
+            self._pool.shutdown(wait=True, cancel_futures=True)
+            self._pool = None
+        if self._client is not None:
+            self._client.close()
+            self._client = None
+
+    def add(self, parts: Sequence[PartitionInput]) -> int:
+        """Look each partition up in the cache and start the analysis of those not found; how many were started."""
+        todo = []
+        cached = 0
+        for part in parts:
+            i = len(self._results)
+            fp = fingerprint(part, self.params, self.version)
+            self._keys.append((part.season, part.leader))
+            self._fps.append(fp)
+            hit = self.cache.get(fp) if self.cache is not None else None
+            self._results.append(hit)
+            if hit is not None:
+                self._cached.append(i)
+                cached += 1
+            else:
+                todo.append((i, part))
+        if cached:
+            self.progress.say(f"  {cached} partition(s) unchanged, taken from the cache")
+        if not todo:
+            return 0
+        names = ", ".join(f"{p.season} / {p.leader}" for _, p in todo[:8])
         more = f" and {len(todo) - 8} more" if len(todo) > 8 else ""
-        progress.say(f"  analysing {len(todo)} partition(s): {names}{more}")
+        self.progress.say(f"  analysing {len(todo)} partition(s): {names}{more}")
+        self._todo.extend(i for i, _ in todo)
+        if self.scheduler:
+            self._submit_dask(todo)
+            return len(todo)
+        if self._pool is None and not self._inline:
+            self._inline = worker_count(self.workers, 1 << 30) == 1
+            if not self._inline:
+                self._pool = ProcessPoolExecutor(max_workers=worker_count(self.workers, 1 << 30),
+                                                 initializer=_one_thread)
+        for i, part in todo:
+            if self._inline:
+                self._store(i, analyse_partition(part, self.params))
+            else:
+                self._pending[self._pool.submit(analyse_partition, part, self.params)] = i
+        return len(todo)
 
-    def done(i: int, result: PartitionResult, count: int) -> None:
-        result = _with_fingerprint(result, fps[i])
-        results[i] = result
-        if cache is not None:
-            cache.put(fps[i], result)
-        progress.step(count, len(todo), "partitions analysed")
+    def wait_below(self, queued: int) -> None:
+        """Collect finished analyses until at most ``queued`` are still running or waiting."""
+        while len(self._pending) > queued:
+            self._collect_some()
 
-    if scheduler and todo:
-        _run_dask(scheduler, [parts[i] for i in todo], params, todo, done)
-    elif todo:
-        n = worker_count(workers, len(todo))
-        if n == 1:
-            for count, i in enumerate(todo, start=1):
-                done(i, analyse_partition(parts[i], params), count)
+    def finish(self) -> tuple[list[PartitionResult], RunReport]:
+        """Every result in the order added, and which partitions were analysed or cached."""
+        self.wait_below(0)
+        self.close()
+        report = RunReport(analysed=tuple(self._keys[i] for i in self._todo),
+                           cached=tuple(self._keys[i] for i in self._cached))
+        return [r for r in self._results if r is not None], report
+
+    @property
+    def fingerprints(self) -> list[str]:
+        return list(self._fps)
+
+    def _store(self, i: int, result: PartitionResult) -> None:
+        result = _with_fingerprint(result, self._fps[i])
+        self._results[i] = result
+        if self.cache is not None:
+            self.cache.put(self._fps[i], result)
+        self._done += 1
+        self.progress.step(self._done, len(self._todo), "partitions analysed")
+
+    def _collect_some(self) -> None:
+        if self.scheduler:
+            from distributed import wait as dask_wait
+
+            finished = dask_wait(list(self._pending), return_when="FIRST_COMPLETED").done
         else:
-            with ProcessPoolExecutor(max_workers=n, initializer=_one_thread) as pool:
-                futures = {pool.submit(analyse_partition, parts[i], params): i for i in todo}
-                for count, fut in enumerate(as_completed(futures), start=1):
-                    done(futures[fut], fut.result(), count)
-    report = RunReport(analysed=tuple((parts[i].season, parts[i].leader) for i in todo), cached=tuple(cached))
-    return [r for r in results if r is not None], report
+            finished = wait(list(self._pending), return_when=FIRST_COMPLETED).done
+        for fut in sorted(finished, key=lambda f: self._pending[f]):
+            i = self._pending.pop(fut)
+            self._store(i, fut.result())
+
+    def _submit_dask(self, todo: list[tuple[int, PartitionInput]]) -> None:
+        """Send each partition to the Dask scheduler; Dask retries a job whose worker died."""
+        if self._client is None:
+            self._client = _dask_client(self.scheduler)
+        for i, part in todo:
+            fut = self._client.submit(_analyse, part, self.params, key=f"sitegen-{part.season}-{part.leader}-{i}",
+                                      retries=3, pure=False)
+            self._pending[fut] = i
 
 
 def _with_fingerprint(result: PartitionResult, fp: str) -> PartitionResult:
@@ -118,24 +208,14 @@ def _with_fingerprint(result: PartitionResult, fp: str) -> PartitionResult:
     return replace(result, fingerprint=fp)
 
 
-def _run_dask(address: str, parts: list[PartitionInput], params: AnalysisParams, index: list[int],
-              done: Callable[[int, PartitionResult, int], None]) -> None:
-    """Send each partition to a Dask distributed scheduler; Dask retries a job whose worker died."""
+def _dask_client(address: str):
     try:
-        from distributed import Client, as_completed as dask_completed
+        from distributed import Client
     except ImportError:
         raise SitegenError("analysis.scheduler is set but Dask is not installed; "
                            "install it with: pip install 'sitegen[dask]'") from None
     try:
-        client = Client(address, timeout="20s")
+        return Client(address, timeout="20s")
     except Exception as exc:  # noqa: BLE001 - any connection failure is a user-facing error
         raise SitegenError(f"cannot reach the Dask scheduler at {address!r} ({exc}); "
                            "check the address and that the scheduler is running") from None
-    try:
-        futures = [client.submit(_analyse, p, params, key=f"sitegen-{p.season}-{p.leader}-{i}", retries=3, pure=False)
-                   for i, p in zip(index, parts)]
-        position = {f.key: i for f, i in zip(futures, index)}
-        for count, fut in enumerate(dask_completed(futures), start=1):
-            done(position[fut.key], fut.result(), count)
-    finally:
-        client.close()

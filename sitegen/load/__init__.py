@@ -22,7 +22,7 @@ from .normalise import build
 from .origin import StackedOrigin
 from .tables import PARQUET_SUFFIXES, Table, read_table
 
-__all__ = ["load_data", "read_decklists", "read_table"]
+__all__ = ["load_data", "open_season_folder", "read_decklists", "read_table"]
 
 _DECK_OPTIONAL = ("wins", "losses", "event", "player", "title")
 #: Long-form columns read as categoricals: a few thousand cards and one id per deck over tens of millions of rows.
@@ -114,6 +114,25 @@ def load_data(cfg: Config) -> DeckData:
         lambda: _read_card_table(cfg),
     ])
     return build(decks, cards, card_table, cfg)
+
+
+def open_season_folder(cfg: Config):
+    """The config's season folder opened for reading one season at a time
+    (:class:`~sitegen.load.folder.SeasonFolder`), or None when the data is
+    read whole: no ``data.parquet_folder``, or seasons taken from a calendar
+    of dates (a deck's season is then not its folder's)."""
+    folder = cfg.path("data.parquet_folder")
+    if folder is None or cfg["seasons.source"] == "calendar":
+        return None
+    if any(cfg.path(k) is not None for k in ("data.decks", "data.deck_cards", "data.decklists")):
+        load_data(cfg)  # raises the ConfigError for the conflicting settings
+    from .folder import open_folder
+
+    required, optional = _deck_columns(cfg)
+    required.pop("season", None)
+    optional.pop("season", None)
+    (card_table,) = _read_both([lambda: _read_card_table(cfg)])
+    return open_folder(cfg, folder, (required, optional), _card_rows_columns(cfg), card_table)
 
 
 def _read_parquet_folder(folder: Path, cfg: Config) -> tuple[Table, Table]:

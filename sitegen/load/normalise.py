@@ -13,6 +13,7 @@ import datetime as dt
 import difflib
 import re
 from collections import defaultdict
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
@@ -311,7 +312,28 @@ def _name_variants(names: list[str], counts: np.ndarray, known: dict[str, str] |
     return canonical, findings, unknown
 
 
-def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config) -> DeckData:
+@dataclass(frozen=True)
+class Spellings:
+    """Spellings decided over the whole data, for a build that reads one season at a time.
+
+    ``cards`` and ``leaders`` map a name's :func:`variant_key` to the
+    spelling every season uses; their findings are made once, over the
+    whole data, so each season's build makes none of its own.
+    """
+
+    cards: dict[str, str]
+    leaders: dict[str, str]
+
+
+def spellings_of(names: list[str], counts: np.ndarray, known: dict[str, str] | None,
+                 what: str) -> tuple[dict[str, str], list[Finding]]:
+    """The spelling of every variant key among ``names`` (row ``counts`` each), and the findings."""
+    canonical, findings, _ = _name_variants(names, counts, known, what)
+    return {variant_key(n): c for n, c in zip(names, canonical)}, findings
+
+
+def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
+          spellings: Spellings | None = None) -> DeckData:
     """Check every row of the read tables and assemble the DeckData.
 
     Names that differ only by case or spacing are read as one (the card
@@ -471,7 +493,10 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config) -> 
         card_info, known = _card_info(card_table, cfg, problems)
     counts = np.bincount(card_codes, minlength=len(card_names))
     canonical, name_findings, unknown = _name_variants(card_names, counts, known, "card name")
-    findings.extend(name_findings)
+    if spellings is None:
+        findings.extend(name_findings)
+    else:
+        canonical = [spellings.cards.get(variant_key(n), c) for n, c in zip(card_names, canonical)]
     unknown = [i for i in unknown if card_names[i]]
     if unknown:
         first = _first_positions(card_codes, np.array(unknown, dtype=np.int64))
@@ -486,7 +511,10 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config) -> 
     leader_codes, leader_names = _codes(leader)
     leader_canon, leader_findings, _ = _name_variants(
         leader_names, np.bincount(leader_codes, minlength=len(leader_names)), None, cfg["site.leader_word"])
-    findings.extend(leader_findings)
+    if spellings is None:
+        findings.extend(leader_findings)
+    else:
+        leader_canon = [spellings.leaders.get(variant_key(n), c) for n, c in zip(leader_names, leader_canon)]
 
     problems.raise_if_any()
 
@@ -522,8 +550,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config) -> 
         qty = np.bincount(inverse, weights=qty, minlength=unique_key.size).astype(np.int64)
         deck_row, card_code = deck_row[first], card_code[first]
         if qty.size < before:
-            findings.append(Finding("name-variants", f"{before - qty.size} card row(s) named a card a deck already "
-                                    "listed under another spelling; their copies were added up"))
+            findings.append(added_up_finding(before - qty.size))
     cards_out = pd.DataFrame({
         "deck_id": pd.Categorical.from_codes(deck_row.astype(np.int32), validate=False,
                                              categories=pd.Index(decks_out["deck_id"].to_numpy(dtype=object), dtype="str")),
@@ -533,6 +560,12 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config) -> 
     })
     return DeckData(decks=decks_out, cards=cards_out, card_info=card_info, seasons=seasons,
                     findings=tuple(findings))
+
+
+def added_up_finding(rows: int) -> Finding:
+    """The finding for card rows whose copies were added to another spelling's row of the same deck."""
+    return Finding("name-variants", f"{rows} card row(s) named a card a deck already "
+                   "listed under another spelling; their copies were added up")
 
 
 def _rank(names: list[str]) -> np.ndarray:

@@ -1,0 +1,128 @@
+"""A season folder read one season at a time: the same data as a whole read, never the
+whole history's card rows at once, and errors that span seasons.
+
+Every table here is hand-made (invented names); the truth is planted by hand.
+"""
+from __future__ import annotations
+
+import gc
+import weakref
+
+import pandas as pd
+import pytest
+
+import sitegen.load.folder as folder_mod
+from sitegen.build import build
+from sitegen.check import check_rules
+from sitegen.errors import DataError, DataErrors
+from sitegen.load import load_data, open_season_folder
+
+from _load_helpers import config
+
+
+def _season(root, season, decks, cards):
+    d = root / "pq" / f"season={season}"
+    d.mkdir(parents=True)
+    pd.DataFrame(decks, columns=["deck_id", "leader", "date"]).to_parquet(d / "decks.parquet", index=False)
+    pd.DataFrame(cards, columns=["deck_id", "card", "quantity"]).to_parquet(d / "deck_cards.parquet", index=False)
+
+
+def _three_seasons(root):
+    # 'Ember Fox' is written 'ember  fox' in Season 2 only; the whole data's most used spelling must win there too.
+    # 'Orm' is written 'orm' once, in Season 3; a deck of Season 3 plays 'Ember Fox' under both spellings.
+    _season(root, "Season 1", [("a1", "Orm", "2026-01-02"), ("a2", "Vessa", "2026-01-03")],
+            [("a1", "Ember Fox", 3), ("a1", "Tide Call", 2), ("a2", "Ember Fox", 1), ("a2", "Stone Wall", 4)])
+    _season(root, "Season 2", [("b1", "Orm", "2026-02-02")],
+            [("b1", "ember  fox", 2), ("b1", "Tide Call", 1)])
+    _season(root, "Season 3", [("c1", "orm", "2026-03-02"), ("c2", "Vessa", "2026-03-05")],
+            [("c1", "Ember Fox", 1), ("c1", "ember  fox", 1), ("c2", "Stone Wall", 2)])
+    return config(root, data={"parquet_folder": "pq"})
+
+
+def _streamed(cfg):
+    """Every season the reader hands over, and the whole it reports at the end."""
+    opened = open_season_folder(cfg)
+    seasons = list(opened.seasons())
+    return seasons, opened.whole()
+
+
+def test_season_by_season_equals_the_whole_folder_read(tmp_path):
+    cfg = _three_seasons(tmp_path)
+    whole = check_rules(load_data(cfg), cfg)
+    seasons, streamed = _streamed(cfg)
+    assert [s.seasons for s in seasons] == [("Season 1",), ("Season 2",), ("Season 3",)]
+    pd.testing.assert_frame_equal(streamed.decks, whole.decks)
+    assert streamed.seasons == whole.seasons == ("Season 1", "Season 2", "Season 3")
+    assert streamed.findings == whole.findings
+    assert streamed.excluded == whole.excluded
+    # The planted variants: one spelling per card and leader over all seasons, and copies added up.
+    kinds = [f.message for f in streamed.findings]
+    assert any("'Ember Fox'" in m and "'ember  fox'" in m for m in kinds)
+    assert any("added up" in m for m in kinds)
+    assert set(streamed.decks["leader"]) == {"Orm", "Vessa"}
+    as_text = {"deck_id": str, "card": str}
+    rows = pd.concat([s.cards.astype(as_text) for s in seasons], ignore_index=True)
+    pd.testing.assert_frame_equal(rows, whole.cards.astype(as_text))
+    assert ("c1", "Ember Fox", 2) in set(map(tuple, rows.values.tolist()))
+    assert set(rows["card"]) == {"Ember Fox", "Tide Call", "Stone Wall"}
+
+
+def test_a_deck_id_in_two_season_folders_is_an_error_naming_both(tmp_path):
+    _season(tmp_path, "Season 1", [("a1", "Orm", "2026-01-02")], [("a1", "Ember Fox", 3)])
+    _season(tmp_path, "Season 2", [("a1", "Orm", "2026-02-02")], [("a1", "Ember Fox", 2)])
+    with pytest.raises(DataError) as err:
+        open_season_folder(config(tmp_path, data={"parquet_folder": "pq"}))
+    text = str(err.value)
+    assert "season=Season 2" in text and "row 2" in text and "'Season 1'" in text and "a1" in text
+
+
+def test_errors_of_every_season_are_reported_together(tmp_path):
+    _season(tmp_path, "Season 1", [("a1", "Orm", "2026-01-02")], [("a1", "Ember Fox", 0)])
+    _season(tmp_path, "Season 2", [("b1", "Orm", "2026-02-02")], [("b1", "Ember Fox", 2), ("zz", "Tide Call", 1)])
+    opened = open_season_folder(config(tmp_path, data={"parquet_folder": "pq"}))
+    handed = []
+    with pytest.raises(DataErrors) as err:
+        for season in opened.seasons():
+            handed.append(season)
+    assert handed == []  # a season with bad rows is never analysed, nor any after the first error
+    messages = [str(e) for e in err.value.errors]
+    assert any("season=Season 1" in m and "quantity" in m and "(value 0)" in m for m in messages), messages
+    assert any("season=Season 2" in m and "'zz'" in m for m in messages), messages
+
+
+def test_a_build_holds_no_more_than_two_seasons_of_card_rows(tmp_path, monkeypatch):
+    """Weak references to every season's card rows: when a season is read, the card rows of
+    the season two before it (and of every partition cut from them) must be gone."""
+    for n in range(1, 6):
+        decks = [(f"s{n}d{i}", "Orm" if i % 2 else "Vessa", f"2026-0{n}-02") for i in range(40)]
+        cards = [(d, card, 2) for d, _, _ in decks for card in ("Ember Fox", "Tide Call", f"Card {int(d[3:]) % 4}")]
+        _season(tmp_path, f"Season {n}", decks, cards)
+    cfg = config(tmp_path, data={"parquet_folder": "pq"}, site={"output": "site"}, cache={"folder": "cache"},
+                 analysis={"workers": 1, "min_decks": 5})
+    alive: list[weakref.ref] = []
+    held_at_read: list[int] = []
+    real = folder_mod.normalise.build
+
+    def spying_build(*args, **kwargs):
+        gc.collect()
+        held_at_read.append(sum(r() is not None for r in alive))
+        data = real(*args, **kwargs)
+        alive.append(weakref.ref(data.cards))
+        return data
+
+    monkeypatch.setattr(folder_mod.normalise, "build", spying_build)
+    import sitegen.partitions as partitions
+
+    real_local = partitions._local_cards
+
+    def spying_local(*args, **kwargs):
+        frame = real_local(*args, **kwargs)
+        alive.append(weakref.ref(frame))
+        return frame
+
+    monkeypatch.setattr(partitions, "_local_cards", spying_local)
+    report = build(cfg=cfg, quiet=True)
+    assert report.seasons == 5 and report.partitions == 10
+    assert len(held_at_read) == 5
+    # At each read, at most the previous season's frame and its two partitions' frames are alive.
+    assert max(held_at_read) <= 3, held_at_read
