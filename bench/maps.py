@@ -1,6 +1,7 @@
 """Benchmark of the partition map: which t-SNE settings keep the map's meaning at least cost.
 
     python bench/maps.py                       # the demo data, every leader, seasons 1 and 2
+    python bench/maps.py --write-results demo  # ... and put the table in DEVELOPERS.md
     python bench/maps.py --config bench/out/1m/site-parquet.toml --leaders 2
 
 For each leader it takes the map sample of two consecutive seasons (the same
@@ -146,6 +147,8 @@ def main(argv=None) -> int:
     p = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     p.add_argument("--config", default=str(ROOT / "site.toml"))
     p.add_argument("--leaders", type=int, default=5)
+    p.add_argument("--write-results", metavar="NAME", default=None,
+                   help="also put the table between the maps:NAME markers of DEVELOPERS.md")
     args = p.parse_args(argv)
     pairs, params = _maps_input(Path(args.config), args.leaders)
     totals: dict[str, list] = {}
@@ -167,13 +170,19 @@ def main(argv=None) -> int:
         sil, trust = _measures(map_w, b["rows"], b["labels"])
         totals.setdefault("warm start from last season, 0 + 150", []).append(
             (took, sil, trust, _drift(base_a, a["labels"], map_w, b["labels"])))
-    print()
-    print("| variant | CPU s per map | 2-D silhouette | trustworthiness | drift between seasons |")
-    print("| --- | --- | --- | --- | --- |")
+    lines = ["| variant | CPU s per map | 2-D silhouette | trustworthiness | drift between seasons |",
+             "| --- | --- | --- | --- | --- |"]
     for name, rows in totals.items():
         m = np.nanmean(np.array(rows, dtype=float), axis=0)
-        print(f"| {name} | {m[0]:.2f} | {m[1]:.3f} | {m[2]:.3f} | {m[3]:.3f} |")
+        lines.append(f"| {name} | {m[0]:.2f} | {m[1]:.3f} | {m[2]:.3f} | {m[3]:.3f} |")
+    print("\n" + "\n".join(lines))
     print(f"\nmean over {len(pairs)} leader(s); maps of at most {params.map_points} decks")
+    if args.write_results:
+        guide = ROOT / "DEVELOPERS.md"
+        text = guide.read_text(encoding="utf-8")
+        start, end = f"<!-- maps:{args.write_results}:start -->", f"<!-- maps:{args.write_results}:end -->"
+        before, rest = text.split(start, 1)
+        guide.write_text(before + start + "\n" + "\n".join(lines) + "\n" + end + rest.split(end, 1)[1], encoding="utf-8")
     return 0
 
 

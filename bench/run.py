@@ -134,6 +134,16 @@ def _run_child(args: list[str]) -> dict:
     return json.loads(proc.stdout.strip().splitlines()[-1])
 
 
+def _tree_digest(folder: Path) -> str:
+    import hashlib
+
+    h = hashlib.sha256()
+    for p in sorted(folder.rglob("*")):
+        if p.is_file():
+            h.update(p.relative_to(folder).as_posix().encode() + b"\0" + p.read_bytes() + b"\0")
+    return h.hexdigest()
+
+
 # ---------------------------------------------------------------- scoring
 def _ari_sitegen(site: Path, data: Path) -> tuple[float, float]:
     import pandas as pd
@@ -188,6 +198,31 @@ def write_config(data: Path, work: Path, fmt: str = "parquet") -> Path:
     return cfg
 
 
+def write_folder(data: Path, work: Path) -> Path:
+    """The data as a season folder (season=NAME/decks.parquet, deck_cards.parquet) and its config."""
+    import pandas as pd
+    import pyarrow.parquet as pq
+
+    folder = data / "season-folder"
+    if not (folder / ".complete").exists():
+        shutil.rmtree(folder, ignore_errors=True)
+        decks = pd.read_csv(data / "decks.csv", dtype=str, keep_default_na=False)
+        season_of = dict(zip(decks["deck_id"], decks["season"]))
+        cards = pq.read_table(data / "deck_cards.parquet").to_pandas()
+        card_season = cards["deck_id"].map(season_of)
+        for season, part in decks.groupby("season", sort=True):
+            d = folder / f"season={season}"
+            d.mkdir(parents=True)
+            part.drop(columns=["season"]).to_parquet(d / "decks.parquet", index=False)
+            cards[card_season == season].to_parquet(d / "deck_cards.parquet", index=False)
+        (folder / ".complete").write_text("")
+    cfg = work / "site-folder.toml"
+    cfg.write_text("[site]\ntitle = \"Benchmark\"\n"
+                   f"[data]\nparquet_folder = {json.dumps(str(folder))}\ncards = {json.dumps(str(data / 'cards.csv'))}\n",
+                   encoding="utf-8")
+    return cfg
+
+
 def change_one_season(data: Path, work: Path) -> Path:
     """A copy of the data where a few decks of the last season play one card fewer."""
     import pandas as pd
@@ -195,7 +230,8 @@ def change_one_season(data: Path, work: Path) -> Path:
     changed = work / "changed-data"
     if changed.exists():
         shutil.rmtree(changed)
-    shutil.copytree(data, changed, ignore=shutil.ignore_patterns("decklists", "_notebook_labels.parquet", ".made-*"))
+    shutil.copytree(data, changed, ignore=shutil.ignore_patterns("decklists", "_notebook_labels.parquet", ".made-*",
+                                                                 "season-folder", "deck_cards.csv"))
     decks = pd.read_csv(changed / "decks.csv", dtype=str)
     last = decks["season"].iloc[-1]
     victims = set(decks.loc[decks["season"] == last, "deck_id"].head(25))
@@ -222,6 +258,8 @@ def main(argv: list[str] | None = None) -> int:
                    help="run the notebook method on only the first N partitions (it is slow at scale)")
     p.add_argument("--no-notebook", action="store_true", help="skip the notebook method")
     p.add_argument("--csv", action="store_true", help="also time loading from CSV (writes a CSV copy)")
+    p.add_argument("--folder", action="store_true",
+                   help="also build from the same data as a season folder, from an empty cache (writes a copy)")
     p.add_argument("--write-results", action="store_true", help="rewrite the results table in DEVELOPERS.md")
     p.add_argument("--publish-last", action="store_true",
                    help="write the last run's figures of --size into DEVELOPERS.md without running again")
@@ -256,6 +294,9 @@ def main(argv: list[str] | None = None) -> int:
     print(f"benchmark {args.size}: data in {data}", flush=True)
     full = _run_child(["build", str(cfg), str(site), str(cache), str(args.workers)])
     print(f"(a) full build {full['seconds']:.1f} s", flush=True)
+    site_before_change = work / "site-a"
+    shutil.rmtree(site_before_change, ignore_errors=True)
+    shutil.copytree(site, site_before_change)
     noop = _run_child(["build", str(cfg), str(site), str(cache), str(args.workers)])
     print(f"(c) no-op rebuild {noop['seconds']:.1f} s", flush=True)
     changed = change_one_season(data, work)
@@ -272,7 +313,16 @@ def main(argv: list[str] | None = None) -> int:
         if not csv_path.exists():
             pd.read_parquet(data / "deck_cards.parquet").to_csv(csv_path, index=False)
         csv_load = _run_child(["load", str(write_config(data, work, "csv"))])
-    ari_s = _ari_sitegen(site, data)
+    ari_s = _ari_sitegen(site_before_change, data)
+    folder_build = None
+    if args.folder:
+        folder_cfg = write_folder(data, work)
+        shutil.rmtree(work / "site-folder", ignore_errors=True)
+        shutil.rmtree(work / "cache-folder", ignore_errors=True)
+        folder_build = _run_child(["build", str(folder_cfg), str(work / "site-folder"), str(work / "cache-folder"),
+                                   str(args.workers)])
+        same = _tree_digest(work / "site-folder") == _tree_digest(site_before_change)
+        print(f"(e) season-folder full build {folder_build['seconds']:.1f} s", flush=True)
 
     nb = None
     if not args.no_notebook:
@@ -295,6 +345,11 @@ def main(argv: list[str] | None = None) -> int:
     ]
     if csv_load:
         rows.append(("load to weighted matrix (CSV)", f"{csv_load['load_to_matrix']:.1f} s"))
+    if folder_build:
+        rows.append(("(e) same data as a season folder, full build",
+                     f"{folder_build['seconds']:.1f} s, peak {folder_build['peak_mb']:.0f} MB "
+                     f"(largest worker {folder_build['peak_worker_mb']:.0f} MB); "
+                     f"site {'identical to' if same else 'DIFFERENT from'} (a)'s"))
     if nb:
         partial = "" if args.notebook_partitions is None else f" (first {nb['partitions_done']} partitions only)"
         rows += [

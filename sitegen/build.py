@@ -129,6 +129,7 @@ def build(
         runs = Analyses(params, cache, workers=cfg["analysis.workers"], scheduler=cfg["analysis.scheduler"],
                         progress=progress)
         with runs:
+            runs.start_workers()  # before the data is loaded: workers are forked from this process
             with progress.stage("reading decks"):
                 folder = open_season_folder(cfg)
                 data = load_data(cfg) if folder is None else None
@@ -142,7 +143,7 @@ def build(
                 parts = split(data, cfg)
                 with progress.stage(f"analysing {len(parts)} partition(s)"):
                     runs.add(parts)
-                    results, run = runs.finish()
+                    results, run = runs.finish(close=False)
             else:
                 with progress.stage("reading, checking and analysing season by season"):
                     for season in folder.seasons():
@@ -152,15 +153,18 @@ def build(
                         # The next season is read while this one is analysed; earlier ones must be done,
                         # so no more than two seasons' card rows are held at once.
                         runs.wait_below(started)
-                    results, run = runs.finish()
+                    results, run = runs.finish(close=False)
                 data = folder.whole()
                 # Folder order is name order; pages and season links go in publication order.
                 rank = {s: i for i, s in enumerate(data.seasons)}
                 results.sort(key=lambda r: (rank[r.season], r.leader))
             if data.excluded:
                 progress.say(f"  {len(data.excluded):,} deck(s) break a rule and are left out")
+            with progress.stage("drawing maps"):
+                results = runs.draw_maps(results, data.seasons)
+                run = replace(run, mapped=runs.mapped)
         if cache is not None:
-            cache.prune({r.fingerprint for r in results})
+            cache.prune(runs.kept_keys)
         with progress.stage("linking seasons"):
             linked, history = link_seasons(results, data.seasons, cfg["analysis.link_threshold"])
         content = cfg.path("site.content")

@@ -36,7 +36,7 @@ import pandas as pd
 from pandas.util import hash_pandas_object
 
 from . import __version__
-from .model import CARD_ROW_COLUMNS, DECK_COLUMNS, PartitionInput, PartitionResult
+from .model import CARD_ROW_COLUMNS, DECK_COLUMNS, MapLayout, PartitionInput, PartitionResult
 
 MAGIC = b"SITEGEN-CACHE"
 #: Bumped when the entry layout changes; entries of another format are ignored.
@@ -122,15 +122,16 @@ class Cache:
             return None
         return self.folder / (fingerprint + SUFFIX)
 
-    def get(self, fingerprint: str) -> PartitionResult | None:
-        """The stored result for ``fingerprint``, or None (absent or not trustworthy)."""
-        result = self._read(fingerprint)
+    def get(self, fingerprint: str, kind: type = PartitionResult):
+        """The stored ``kind`` (a partition's result, or a map's layout) for ``fingerprint``,
+        or None (absent or not trustworthy)."""
+        result = self._read(fingerprint, kind)
         if result is None:
             return None
         self.last_problem = None
         return result
 
-    def _read(self, fingerprint: str) -> PartitionResult | None:
+    def _read(self, fingerprint: str, kind: type = PartitionResult):
         path = self._path(fingerprint)
         if path is None:
             self.last_problem = "not a fingerprint"
@@ -173,12 +174,12 @@ class Cache:
         except Exception as exc:  # a payload that passed the checksum but will not load
             self.last_problem = f"payload does not load: {type(exc).__name__}"
             return None
-        if not isinstance(result, PartitionResult):
-            self.last_problem = f"payload is a {type(result).__name__}, not a PartitionResult"
+        if not isinstance(result, kind):
+            self.last_problem = f"payload is a {type(result).__name__}, not a {kind.__name__}"
             return None
         return result
 
-    def put(self, fingerprint: str, result: PartitionResult) -> None:
+    def put(self, fingerprint: str, result: PartitionResult | MapLayout) -> None:
         """Store ``result`` under ``fingerprint``, atomically.
 
         The entry is written to a temporary file in the same folder and moved

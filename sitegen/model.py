@@ -10,7 +10,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+import numpy as np
 import pandas as pd
+import scipy.sparse as sp
 
 #: The ``leader`` value of a partition that pools every leader of a season
 #: (``analysis.by_leader = false``).
@@ -156,6 +158,26 @@ class Archetype:
 
 
 @dataclass(frozen=True)
+class MapSample:
+    """What a partition's map is drawn from: the drawn decks (``drawn``, rows of the
+    partition's assignments), their SVD rows, and their card presence over ``cards``
+    (so the next season's decks can find their nearest decks of this map)."""
+
+    drawn: np.ndarray
+    rows: np.ndarray
+    presence: sp.csr_matrix
+    cards: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class MapLayout:
+    """A drawn map: one (x, y) per drawn deck, and whether it started from the previous season's map."""
+
+    coords: np.ndarray
+    warm: bool
+
+
+@dataclass(frozen=True)
 class PartitionResult:
     """Everything the analysis found in one season x leader partition.
 
@@ -167,7 +189,9 @@ class PartitionResult:
     distance (cosine distance to its archetype's centre), x, y (map
     coordinates, NaN where the deck was not drawn). ``map_points``: the
     drawn decks, columns deck_id, archetype, x, y, cards (a short text of
-    its top cards for a tooltip).
+    its top cards for a tooltip). The analysis leaves x and y NaN and
+    ``map_sample`` set; the map stage draws the map (started from the
+    leader's previous map) and fills them in.
     """
 
     season: str
@@ -184,6 +208,7 @@ class PartitionResult:
     map_points: pd.DataFrame
     inclusion: tuple[CardLine, ...]
     fingerprint: str = ""
+    map_sample: MapSample | None = None
 
     @property
     def groups(self) -> tuple[Archetype, ...]:
@@ -225,7 +250,10 @@ class History:
 
 @dataclass(frozen=True)
 class RunReport:
-    """Which partitions (season, leader) were analysed afresh and which came from the cache."""
+    """Which partitions (season, leader) were analysed afresh and which came from the cache,
+    and whose maps were drawn afresh (a map is redrawn when its partition or the map it
+    starts from, the leader's previous one, changed)."""
 
     analysed: tuple[tuple[str, str], ...]
     cached: tuple[tuple[str, str], ...]
+    mapped: tuple[tuple[str, str], ...] = ()

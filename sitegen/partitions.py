@@ -44,14 +44,18 @@ def split(data: DeckData, cfg: Config) -> list[PartitionInput]:
         pair = np.where(decks["deck_id"].isin(data.excluded).to_numpy(), -1, pair)
     used = np.unique(pair[pair >= 0])
     order = [(data.seasons[p // len(leaders)], str(leaders[p % len(leaders)])) for p in used.tolist()]
-    deck_part = np.where(pair >= 0, np.searchsorted(used, pair), -1)
+    # Partition numbers in the narrowest type: a stable sort of 16-bit integers is a radix sort in numpy.
+    narrow = np.int16 if len(order) < 2 ** 15 else np.int32
+    deck_part = np.where(pair >= 0, np.searchsorted(used, pair), -1).astype(narrow)
 
     card_part, deck_row = _card_rows_of(data, deck_part)
-    card_rows = np.flatnonzero(card_part >= 0)
-    # A stable sort of small integers is a radix sort in numpy: int16 when the partitions fit.
-    small = card_part[card_rows].astype(np.int16) if len(order) < 2 ** 15 else card_part[card_rows]
-    by_part = card_rows[np.argsort(small, kind="stable")]
+    if (card_part >= 0).all():
+        by_part = np.argsort(card_part, kind="stable")
+    else:
+        card_rows = np.flatnonzero(card_part >= 0)
+        by_part = card_rows[np.argsort(card_part[card_rows], kind="stable")]
     bounds = np.searchsorted(card_part[by_part], np.arange(len(order) + 1))
+    del card_part
 
     deck_order = np.argsort(deck_part, kind="stable")
     deck_bounds = np.searchsorted(deck_part[deck_order], np.arange(len(order) + 1))
@@ -87,7 +91,7 @@ def _card_rows_of(data: DeckData, deck_part: np.ndarray) -> tuple[np.ndarray, np
     ids = data.cards["deck_id"]
     if isinstance(ids.dtype, pd.CategoricalDtype) and len(ids.cat.categories) == len(data.decks) \
             and ids.cat.categories.equals(pd.Index(data.decks["deck_id"])):
-        deck_row = np.asarray(ids.cat.codes.to_numpy(), dtype=np.int64)
+        deck_row = ids.cat.codes.to_numpy()
         return deck_part[deck_row], deck_row
     part_of_deck = pd.Series(deck_part, index=pd.Index(data.decks["deck_id"]))
     found = part_of_deck.reindex(ids.astype(str) if isinstance(ids.dtype, pd.CategoricalDtype) else ids).to_numpy()

@@ -9,17 +9,22 @@ worker), so the output is the same whichever way they ran.
 """
 from __future__ import annotations
 
+import hashlib
 import os
-from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from dataclasses import replace
+from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
 from typing import Sequence
 
 from . import __version__
 from .analysis.params import AnalysisParams
-from .analysis.partition import analyse_partition
+from .analysis.partition import analyse_partition, draw_map, place_map
 from .cache import Cache, fingerprint
 from .errors import SitegenError
-from .model import PartitionInput, PartitionResult, RunReport
+from .model import MapLayout, PartitionInput, PartitionResult, RunReport
 from .progress import Progress
+
+#: Bumped when the way maps are drawn changes in a way the analysis code digest does not see.
+MAP_FORMAT = 1
 
 
 def analysis_version() -> str:
@@ -71,7 +76,10 @@ def analyse_all(
     """Analyse every partition, taking unchanged ones from ``cache``."""
     with Analyses(params, cache, workers=workers, scheduler=scheduler, progress=progress) as runs:
         runs.add(parts)
-        return runs.finish()
+        results, report = runs.finish(close=False)
+        seasons = list(dict.fromkeys(p.season for p in parts))  # parts come in publication order
+        results = runs.draw_maps(results, seasons)
+        return results, replace(report, mapped=runs.mapped)
 
 
 class Analyses:
@@ -100,9 +108,22 @@ class Analyses:
         self._pool: ProcessPoolExecutor | None = None
         self._client = None
         self._inline = False
+        #: (season, leader) of every map drawn afresh by :meth:`draw_maps`.
+        self.mapped: tuple[tuple[str, str], ...] = ()
 
     def __enter__(self) -> "Analyses":
         return self
+
+    def start_workers(self) -> None:
+        """Start the local worker processes now, while this process is small: they are forked
+        from it, and a fork made after the data is loaded would count every loaded page."""
+        if self.scheduler or self._pool is not None or self._inline:
+            return
+        n = worker_count(self.workers, 1 << 30)
+        self._inline = n == 1
+        if not self._inline:
+            self._pool = ProcessPoolExecutor(max_workers=n, initializer=_one_thread)
+            self._pool.submit(int).result()  # the first job makes the pool start every worker
 
     def __exit__(self, *exc) -> None:
         self.close()
@@ -144,11 +165,7 @@ class Analyses:
         if self.scheduler:
             self._submit_dask(todo)
             return len(todo)
-        if self._pool is None and not self._inline:
-            self._inline = worker_count(self.workers, 1 << 30) == 1
-            if not self._inline:
-                self._pool = ProcessPoolExecutor(max_workers=worker_count(self.workers, 1 << 30),
-                                                 initializer=_one_thread)
+        self.start_workers()
         for i, part in todo:
             if self._inline:
                 self._store(i, analyse_partition(part, self.params))
@@ -161,17 +178,92 @@ class Analyses:
         while len(self._pending) > queued:
             self._collect_some()
 
-    def finish(self) -> tuple[list[PartitionResult], RunReport]:
-        """Every result in the order added, and which partitions were analysed or cached."""
+    def finish(self, close: bool = True) -> tuple[list[PartitionResult], RunReport]:
+        """Every result in the order added (maps not yet drawn: see :meth:`draw_maps`),
+        and which partitions were analysed or cached."""
         self.wait_below(0)
-        self.close()
+        if close:
+            self.close()
         report = RunReport(analysed=tuple(self._keys[i] for i in self._todo),
                            cached=tuple(self._keys[i] for i in self._cached))
         return [r for r in self._results if r is not None], report
 
+    def draw_maps(self, results: Sequence[PartitionResult], seasons: Sequence[str]) -> list[PartitionResult]:
+        """``results`` with their maps drawn: each leader's maps in season order, each started
+        from that leader's previous map, so chains of different leaders run side by side.
+
+        A map is cached under a digest of its partition's fingerprint and of the map it
+        started from, so an unchanged season whose previous map is unchanged is not drawn again.
+        """
+        rank = {s: i for i, s in enumerate(seasons)}
+        chains: dict[str, list[int]] = {}
+        for i in sorted(range(len(results)), key=lambda i: (rank.get(results[i].season, len(rank)), i)):
+            if results[i].map_sample is not None:
+                chains.setdefault(results[i].leader, []).append(i)
+        keys: dict[int, str] = {}
+        before: dict[int, int | None] = {}
+        for chain in chains.values():
+            previous = None
+            for i in chain:
+                h = hashlib.sha256(f"map\0{MAP_FORMAT}\0{results[i].fingerprint}\0".encode("ascii"))
+                h.update(keys[previous].encode("ascii") if previous is not None else b"first")
+                keys[i], before[i], previous = h.hexdigest(), previous, i
+        layouts: dict[int, MapLayout] = {}
+        for i, key in keys.items():
+            hit = self.cache.get(key, MapLayout) if self.cache is not None else None
+            if hit is not None:
+                layouts[i] = hit
+        missing = [i for i in keys if i not in layouts]
+        self._map_keys = set(keys.values())
+        self.mapped = tuple((results[i].season, results[i].leader) for i in sorted(missing))
+        if missing:
+            self.progress.say(f"  drawing {len(missing)} map(s), {len(keys) - len(missing)} unchanged")
+        # Run every map whose previous map is known; each finished map may free the next of its chain.
+        waiting = set(missing)
+        running: dict = {}
+        done = 0
+        while waiting or running:
+            for i in sorted(waiting):
+                j = before[i]
+                if j is None or j in layouts:
+                    waiting.discard(i)
+                    previous = (results[j].map_sample, layouts[j]) if j is not None else None
+                    running[self._start_map(results[i].map_sample, previous)] = i
+            finished = self._wait_any(list(running))
+            for fut in sorted(finished, key=lambda f: running[f]):
+                i = running.pop(fut)
+                layouts[i] = fut.result()
+                if self.cache is not None:
+                    self.cache.put(keys[i], layouts[i])
+                done += 1
+                self.progress.step(done, len(missing), "maps drawn")
+        return [place_map(r, layouts[i]) if i in layouts else r for i, r in enumerate(results)]
+
     @property
-    def fingerprints(self) -> list[str]:
-        return list(self._fps)
+    def kept_keys(self) -> set[str]:
+        """Every cache key this build used (results and maps): the rest may be pruned."""
+        return set(self._fps) | getattr(self, "_map_keys", set())
+
+    def _start_map(self, sample, previous):
+        if self.scheduler:
+            if self._client is None:
+                self._client = _dask_client(self.scheduler)
+            return self._client.submit(draw_map, sample, self.params, previous, retries=3, pure=False)
+        self.start_workers()
+        if self._inline:
+            fut: Future = Future()
+            fut.set_result(draw_map(sample, self.params, previous))
+            return fut
+        return self._pool.submit(draw_map, sample, self.params, previous)
+
+    def _wait_any(self, futures: list) -> set:
+        if not futures:
+            return set()
+        if self.scheduler:
+            from distributed import wait as dask_wait
+
+            return set(dask_wait(futures, return_when="FIRST_COMPLETED").done)
+        return set(wait(futures, return_when=FIRST_COMPLETED).done)
 
     def _store(self, i: int, result: PartitionResult) -> None:
         result = _with_fingerprint(result, self._fps[i])
@@ -182,12 +274,7 @@ class Analyses:
         self.progress.step(self._done, len(self._todo), "partitions analysed")
 
     def _collect_some(self) -> None:
-        if self.scheduler:
-            from distributed import wait as dask_wait
-
-            finished = dask_wait(list(self._pending), return_when="FIRST_COMPLETED").done
-        else:
-            finished = wait(list(self._pending), return_when=FIRST_COMPLETED).done
+        finished = self._wait_any(list(self._pending))
         for fut in sorted(finished, key=lambda f: self._pending[f]):
             i = self._pending.pop(fut)
             self._store(i, fut.result())

@@ -21,7 +21,7 @@ from sklearn.metrics import adjusted_rand_score
 from _planted import planted_partition
 from sitegen import config
 from sitegen.analysis.params import AnalysisParams
-from sitegen.analysis.partition import analyse_partition
+from sitegen.analysis.partition import analyse_partition, draw_map, place_map
 from sitegen.model import OTHER_KEY, PartitionInput
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -30,10 +30,16 @@ FAST = AnalysisParams(map_points=200, map_iterations=100)
 
 # ---------------------------------------------------------------- planted partitions
 
+def _mapped(part, params=FAST):
+    """A partition analysed and its map drawn (a fresh map: no previous season)."""
+    result = analyse_partition(part, params)
+    return place_map(result, draw_map(result.map_sample, params)) if result.map_sample is not None else result
+
+
 @pytest.fixture(scope="module")
 def planted():
     part, truth, cores = planted_partition(n_decks=700, n_archetypes=4, seed=3, variants=1, variant_shared=7)
-    return part, truth, cores, analyse_partition(part, FAST)
+    return part, truth, cores, _mapped(part)
 
 
 def test_planted_archetypes_found_named_and_ordered(planted):
@@ -110,7 +116,7 @@ def test_row_order_of_the_input_does_not_matter(planted):
     part, _, _, result = planted
     shuffled = PartitionInput(part.season, part.leader, part.decks.sample(frac=1.0, random_state=1),
                               part.cards.sample(frac=1.0, random_state=2), part.card_types, part.fingerprint)
-    again = analyse_partition(shuffled, FAST)
+    again = _mapped(shuffled)
     pd.testing.assert_frame_equal(again.assignments, result.assignments)
     pd.testing.assert_frame_equal(again.map_points, result.map_points)
     assert again.archetypes == result.archetypes
@@ -135,7 +141,7 @@ def _tiny(ids, rows):
 def test_identical_decks_make_one_archetype_drawn_on_one_spot():
     # Nothing to tell apart: one cluster, said in words; t-SNE has nothing to spread, no NaN leaks out.
     ids = [f"d{i:02d}" for i in range(40)]
-    result = analyse_partition(_tiny(ids, [(i, c, 2) for i in ids for c in ("Ash", "Bell", "Cairn")]), FAST)
+    result = _mapped(_tiny(ids, [(i, c, 2) for i in ids for c in ("Ash", "Bell", "Cairn")]))
     assert [a.n_decks for a in result.archetypes] == [40] and result.chosen_k == 1
     assert "one cluster" in result.k_reason
     assert result.map_points[["x", "y"]].eq(0.0).all().all()

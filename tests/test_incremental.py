@@ -52,6 +52,8 @@ def test_adding_a_season_analyses_only_that_season(project, tmp_path):
     report = build(project, quiet=True)
     assert {season for season, _ in report.run.analysed} == {"Second Tide"}
     assert {season for season, _ in report.run.cached} == {"First Tide"}
+    # Only the new season's maps are drawn; they start from the first season's, which stay as they were.
+    assert report.run.mapped and {season for season, _ in report.run.mapped} == {"Second Tide"}
     assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")
 
 
@@ -60,6 +62,8 @@ def test_changing_one_deck_reanalyses_only_its_partition(project, tmp_path):
     where = change_one_deck(project.parent)
     report = build(project, quiet=True)
     assert report.run.analysed == (where,)
+    # Its map is redrawn, and so are the later maps of its leader (each starts from the one before).
+    assert where in report.run.mapped and all(leader == where[1] for _, leader in report.run.mapped)
     assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")
 
 
@@ -80,7 +84,8 @@ def test_damaged_cache_entry_is_recomputed(project, tmp_path, damage):
         victim.write_bytes(os.urandom(200))
     os.utime(project.parent / "data" / "decks.csv")  # same bytes, new time: the build must look again
     report = build(project, quiet=True)
-    assert len(report.run.analysed) == 1
+    # The entry is a partition's analysis or a map: that one is made again, nothing else.
+    assert len(report.run.analysed) + len(report.run.mapped) == 1
     assert tree(project.parent / "site") == good
 
 

@@ -10,6 +10,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 import numpy as np
+import scipy.sparse as sp
 
 #: Least decks drawn from each group (or all of it when smaller).
 MIN_PER_GROUP = 5
@@ -50,14 +51,22 @@ def stratified_sample(groups: Sequence[str], n_points: int, seed: int, min_per: 
 EXAGGERATION_STEPS = 125
 #: Barnes-Hut accuracy: 0.8 is about twice as fast as 0.5 with maps as well separated (method notes).
 THETA = 0.8
+#: Up to this many decks the neighbours are found exactly (cheaper than an approximate index there).
+EXACT_NEIGHBOURS = 10_000
+#: Decks of the previous map whose median position starts a deck of a warm-started map.
+WARM_NEIGHBOURS = 10
+#: Spread of a map's start: openTSNE's own PCA start is scaled to this standard deviation.
+START_SPREAD = 1e-4
 
 
-def tsne(rows: np.ndarray, seed: int, iterations: int = 250) -> np.ndarray:
-    """2-D t-SNE coordinates of ``rows`` (openTSNE, Barnes-Hut, PCA start, one thread), float64.
+def tsne(rows: np.ndarray, seed: int, iterations: int = 250, init: np.ndarray | None = None) -> np.ndarray:
+    """2-D t-SNE coordinates of ``rows`` (openTSNE, Barnes-Hut, one thread), float64.
 
-    ``iterations`` counts the steps after the :data:`EXAGGERATION_STEPS` of
-    early exaggeration. Perplexity is 30, or less for tiny samples (it must
-    stay below a third of the rows). Fewer than 4 rows are laid on a line.
+    From ``init`` (one start per row, see :func:`warm_start`) the map is
+    only refined: ``iterations`` steps, no early exaggeration. Without it
+    the start is PCA and :data:`EXAGGERATION_STEPS` of early exaggeration
+    come first. Perplexity is 30, or less for tiny samples (it must stay
+    below a third of the rows). Fewer than 4 rows are laid on a line.
     """
     from openTSNE import TSNE
 
@@ -65,7 +74,54 @@ def tsne(rows: np.ndarray, seed: int, iterations: int = 250) -> np.ndarray:
     if n < 4:
         return np.column_stack([np.arange(n, dtype=float), np.zeros(n)])
     perplexity = float(min(30.0, (n - 1) / 3.0))
-    model = TSNE(n_components=2, perplexity=perplexity, n_iter=iterations, early_exaggeration_iter=EXAGGERATION_STEPS,
-                 initialization="pca", negative_gradient_method="bh", theta=THETA, n_jobs=1,
-                 random_state=seed, verbose=False)
+    model = TSNE(n_components=2, perplexity=perplexity, n_iter=iterations,
+                 early_exaggeration_iter=EXAGGERATION_STEPS if init is None else 0,
+                 initialization="pca" if init is None else np.ascontiguousarray(init, dtype=np.float64),
+                 negative_gradient_method="bh", theta=THETA, n_jobs=1,
+                 neighbors="exact" if n <= EXACT_NEIGHBOURS else "auto", random_state=seed, verbose=False)
     return np.asarray(model.fit(np.ascontiguousarray(rows, dtype=np.float64)), dtype=np.float64)
+
+
+def warm_start(presence: sp.csr_matrix, cards: Sequence[str], prev_presence: sp.csr_matrix,
+               prev_cards: Sequence[str], prev_coords: np.ndarray) -> np.ndarray | None:
+    """A start for a new map from the previous season's map of the same leader.
+
+    Each deck starts at the median position of its :data:`WARM_NEIGHBOURS`
+    nearest decks of the previous map (cosine distance on card presence,
+    over both seasons' cards), so an archetype that carries on starts where
+    it was; the start is centred and scaled to :data:`START_SPREAD`, as
+    openTSNE scales its own. None when the previous map is too small or
+    shares no card.
+    """
+    if prev_coords.shape[0] < 4 or presence.shape[0] < 4 or not np.isfinite(prev_coords).all():
+        return None
+    union = sorted(set(cards) | set(prev_cards))
+    column = {c: i for i, c in enumerate(union)}
+    new = _on_columns(presence, [column[c] for c in cards], len(union))
+    old = _on_columns(prev_presence, [column[c] for c in prev_cards], len(union))
+    if new.multiply(new).sum() == 0 or old.multiply(old).sum() == 0:
+        return None
+    k = min(WARM_NEIGHBOURS, old.shape[0])
+    # Cosine similarity of unit rows; ties broken by position (argsort is stable), so the start is repeatable.
+    similarity = (_unit(new) @ _unit(old).T).toarray()
+    if not similarity.any():
+        return None
+    nearest = np.argsort(-similarity, axis=1, kind="stable")[:, :k]
+    start = np.median(prev_coords[nearest], axis=1)
+    start = start - start.mean(axis=0)
+    spread = start[:, 0].std()
+    if not np.isfinite(spread) or spread == 0:
+        return None
+    return start / spread * START_SPREAD
+
+
+def _on_columns(matrix: sp.csr_matrix, columns: Sequence[int], width: int) -> sp.csr_matrix:
+    m = matrix.tocoo()
+    return sp.csr_matrix((np.ones_like(m.data, dtype=np.float64), (m.row, np.asarray(columns, dtype=np.int64)[m.col])),
+                         shape=(m.shape[0], width))
+
+
+def _unit(matrix: sp.csr_matrix) -> sp.csr_matrix:
+    norms = np.sqrt(np.asarray(matrix.multiply(matrix).sum(axis=1)).ravel())
+    norms[norms == 0] = 1.0
+    return sp.diags(1.0 / norms) @ matrix

@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 from threadpoolctl import threadpool_limits
 
-from ..model import OTHER_KEY, Archetype, PartitionInput, PartitionResult
+from ..model import OTHER_KEY, Archetype, MapLayout, MapSample, PartitionInput, PartitionResult
 from ..slugs import SlugSet, slugify
 from . import cluster, describe, embed, features
 from .params import AnalysisParams
@@ -106,13 +106,11 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
         members = np.flatnonzero(keys == g.key)
         dist[members] = ctx.distances(members)
 
+    # The map itself is drawn later (draw_map), from the leader's previous map where there is one.
     xy = np.full((n, 2), np.nan)
     drawn = embed.stratified_sample(keys, params.map_points, params.seed)
-    if len(drawn):
-        with np.errstate(invalid="ignore", divide="ignore"):
-            coords = embed.tsne(rows[drawn], params.seed, params.map_iterations)
-        # Decks all alike leave t-SNE nothing to spread (NaN): they are drawn on one spot.
-        xy[drawn] = np.round(np.where(np.isfinite(coords), coords, 0.0), 3) + 0.0
+    sample = MapSample(drawn=drawn, rows=np.ascontiguousarray(rows[drawn], dtype=np.float64),
+                       presence=present[drawn], cards=tuple(cards)) if len(drawn) else None
     map_points = pd.DataFrame({
         "deck_id": [ids[i] for i in drawn],
         "archetype": [keys[i] for i in drawn],
@@ -125,8 +123,39 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
         season=part.season, leader=part.leader, n_decks=n, status="clustered", reason="",
         chosen_k=found.k, silhouette=found.curve, k_reason=reason, archetypes=tuple(archetypes),
         other=other, assignments=_assignments(ids, keys.tolist(), dist, xy), map_points=map_points,
-        inclusion=inclusion, fingerprint=part.fingerprint,
+        inclusion=inclusion, fingerprint=part.fingerprint, map_sample=sample,
     )
+
+
+def draw_map(sample: MapSample, params: AnalysisParams, previous: tuple[MapSample, MapLayout] | None = None) -> MapLayout:
+    """The 2-D map of a partition's drawn decks, started from ``previous`` (the same
+    leader's last map, with its layout) when there is one, so archetypes that carry on
+    keep their place from season to season. Coordinates are rounded to 3 decimals."""
+    with threadpool_limits(limits=1):
+        start = None
+        if previous is not None:
+            prev_sample, prev_layout = previous
+            start = embed.warm_start(sample.presence, sample.cards, prev_sample.presence, prev_sample.cards,
+                                     prev_layout.coords)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            coords = embed.tsne(sample.rows, params.seed, params.map_iterations, init=start)
+    # Decks all alike leave t-SNE nothing to spread (NaN): they are drawn on one spot.
+    return MapLayout(coords=np.round(np.where(np.isfinite(coords), coords, 0.0), 3) + 0.0, warm=start is not None)
+
+
+def place_map(result: PartitionResult, layout: MapLayout) -> PartitionResult:
+    """``result`` with its drawn decks' map coordinates filled in."""
+    sample = result.map_sample
+    assert sample is not None and layout.coords.shape == (len(sample.drawn), 2)
+    assignments = result.assignments.copy()
+    for axis, column in enumerate(("x", "y")):
+        values = assignments[column].to_numpy(dtype=float, copy=True)
+        values[sample.drawn] = layout.coords[:, axis]
+        assignments[column] = values
+    points = result.map_points.copy()
+    points["x"] = layout.coords[:, 0]
+    points["y"] = layout.coords[:, 1]
+    return replace(result, assignments=assignments, map_points=points)
 
 
 class _Context:

@@ -19,6 +19,7 @@ from __future__ import annotations
 import re
 from collections.abc import Iterator
 from dataclasses import dataclass, field
+from functools import partial
 from pathlib import Path
 
 import numpy as np
@@ -126,8 +127,8 @@ class SeasonFolder:
                 numeric=frozenset({"quantity"}), categorical=frozenset({"deck_id", "card"})))
             if decks is None or cards is None:
                 continue
-            data = _collect(errors, lambda: normalise.build(decks, cards, self.card_table, self.cfg, self.spellings))
-            del cards
+            data = _collect(errors, partial(normalise.build, decks, cards, self.card_table, self.cfg, self.spellings))
+            decks = cards = None  # this season's rows now live in data only
             if data is None or errors:
                 continue  # after the first error, only look for more errors
             data = check_rules(data, self.cfg)

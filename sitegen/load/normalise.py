@@ -463,18 +463,17 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     card_rank = _rank(card_names)
     key = _rank(cdeck_names)[cdeck_codes] * np.int64(max(len(card_names), 1)) + card_rank[card_codes]
     order = _argsort(key)
-    in_order = order is None
-    if in_order:  # the usual case: the table is grouped by deck and sorted by card already
-        order, sorted_key = np.arange(key.size), key
-    else:
-        sorted_key = key[order]
+    in_order = order is None  # the usual case: the table is grouped by deck and sorted by card already
+    sorted_key = key if in_order else key[order]
     same = np.flatnonzero(sorted_key[1:] == sorted_key[:-1]) + 1
+    del sorted_key
     if same.size:
         # Only now pay for a stable sort: within equal keys, file order; name the previous row of the pair.
         order = _argsort(key, stable=True)
         in_order = order is None
         order = np.arange(key.size) if in_order else order
         sorted_key = key[order]
+        del key
         same = np.flatnonzero(sorted_key[1:] == sorted_key[:-1]) + 1
         earlier = dict(zip(order[same].tolist(), order[same - 1].tolist()))
         later = np.sort(order[same])
@@ -535,7 +534,9 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
 
     # The long-form table as categoricals with sorted categories (so sorting by them is sorting by
     # name): a deck id's code is its row in the deck table, a card's its place in name order.
+    key = None  # no longer needed: up to 8 bytes a row
     qty = quantity.to_numpy(dtype=np.int64)
+    del quantity
     deck_row, card_code = cdeck_codes, card_codes
     if not in_order:
         qty, deck_row, card_code = qty[order], deck_row[order], card_code[order]
@@ -552,9 +553,9 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         if qty.size < before:
             findings.append(added_up_finding(before - qty.size))
     cards_out = pd.DataFrame({
-        "deck_id": pd.Categorical.from_codes(deck_row.astype(np.int32), validate=False,
+        "deck_id": pd.Categorical.from_codes(deck_row.astype(np.int32, copy=False), validate=False,
                                              categories=pd.Index(decks_out["deck_id"].to_numpy(dtype=object), dtype="str")),
-        "card": pd.Categorical.from_codes(card_code.astype(np.int32), categories=pd.Index(card_list, dtype="str"),
+        "card": pd.Categorical.from_codes(card_code.astype(np.int32, copy=False), categories=pd.Index(card_list, dtype="str"),
                                           validate=False),
         "quantity": qty,
     })

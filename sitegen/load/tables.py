@@ -329,7 +329,10 @@ def _read_parquet(path: Path, wanted: dict[str, str], numeric: frozenset[str],
             out[logical] = column.to_pandas()
             continue
         out[logical] = _as_categories(column) if raw in categorical else _as_text(column)
-    return pd.DataFrame(out)
+    frame = pd.DataFrame(out, copy=False)
+    del table, column, out
+    pa.default_memory_pool().release_unused()  # Arrow's allocator keeps freed memory otherwise
+    return frame
 
 
 def _as_categories(column: pa.ChunkedArray) -> pd.Series:
