@@ -116,7 +116,7 @@ def _as_list(values) -> list:
 
 
 def _category_codes(series: pd.Series) -> tuple[np.ndarray, list]:
-    codes = np.asarray(series.cat.codes.to_numpy(), dtype=_CODE)
+    codes = series.cat.codes.to_numpy()  # int8, int16 or int32: as narrow as the categories allow
     categories = _as_list(series.cat.categories)
     if (codes < 0).any():
         if "" not in categories:
@@ -431,9 +431,16 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     if empty_cdeck:
         problems.flag(cards, np.flatnonzero(np.isin(cdeck_codes, empty_cdeck)), "deck id is empty", column="deck_id",
                       fix="give every row the id of its deck")
-    quantity, bad = parse_counts(cframe["quantity"], positive=True)
-    missing_q = np.flatnonzero(quantity.isna().to_numpy())
-    bad = np.union1d(bad, missing_q)
+    raw_quantity = cframe["quantity"]
+    if isinstance(raw_quantity.dtype, np.dtype) and raw_quantity.dtype.kind in "iu":
+        # Whole numbers already (Parquet): no parsing, and no copy of tens of millions of values.
+        quantity = raw_quantity.to_numpy().astype(np.int64, copy=False)
+        bad = np.flatnonzero(quantity < 1)
+    else:
+        parsed, bad = parse_counts(raw_quantity, positive=True)
+        bad = np.union1d(bad, np.flatnonzero(parsed.isna().to_numpy()))
+        quantity = parsed.to_numpy(dtype=np.int64, na_value=0)
+        del parsed
     problems.flag(cards, bad, "quantity is not a whole number of 1 or more", column="quantity",
                   values=cframe["quantity"].to_numpy()[bad[:ERRORS_PER_PROBLEM]],
                   fix="write the number of copies, like 2 (delete rows of cards the deck does not play)")
@@ -461,7 +468,9 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     # Sort by deck id then card (codes ranked by the names' sort order).
     deck_rank = _rank(deck_names)
     card_rank = _rank(card_names)
-    key = _rank(cdeck_names)[cdeck_codes] * np.int64(max(len(card_names), 1)) + card_rank[card_codes]
+    key = _rank(cdeck_names)[cdeck_codes].astype(np.int64)  # in place from here: one 8-byte array, not three
+    key *= max(len(card_names), 1)
+    key += card_rank[card_codes]
     order = _argsort(key)
     in_order = order is None  # the usual case: the table is grouped by deck and sorted by card already
     sorted_key = key if in_order else key[order]
@@ -535,7 +544,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     # The long-form table as categoricals with sorted categories (so sorting by them is sorting by
     # name): a deck id's code is its row in the deck table, a card's its place in name order.
     key = None  # no longer needed: up to 8 bytes a row
-    qty = quantity.to_numpy(dtype=np.int64)
+    qty = quantity
     del quantity
     deck_row, card_code = cdeck_codes, card_codes
     if not in_order:
@@ -552,7 +561,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         deck_row, card_code = deck_row[first], card_code[first]
         if qty.size < before:
             findings.append(added_up_finding(before - qty.size))
-    cards_out = pd.DataFrame({
+    cards_out = pd.DataFrame(copy=False, data={
         "deck_id": pd.Categorical.from_codes(deck_row.astype(np.int32, copy=False), validate=False,
                                              categories=pd.Index(decks_out["deck_id"].to_numpy(dtype=object), dtype="str")),
         "card": pd.Categorical.from_codes(card_code.astype(np.int32, copy=False), categories=pd.Index(card_list, dtype="str"),
