@@ -19,6 +19,7 @@ import ctypes.util
 import errno
 import os
 import shutil
+import stat
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path, PurePosixPath
@@ -95,14 +96,17 @@ def write_site(out: Path, files: Mapping[str, bytes]) -> WriteReport:
     new = _sibling(out, "new")
     new.mkdir()
     changed = 0
+    made: set[Path] = {new}  # folders already made, so each is made once, not once per file
     try:
         for name in sorted(files):
             rel = safe_relpath(name)
             target = new / rel
-            target.parent.mkdir(parents=True, exist_ok=True)
+            if target.parent not in made:
+                target.parent.mkdir(parents=True, exist_ok=True)
+                made.add(target.parent)
             data = files[name]
             previous = out / rel
-            if previous.is_file() and not previous.is_symlink() and _same_bytes(previous, data):
+            if _same_bytes(previous, data):
                 try:
                     os.link(previous, target)
                 except OSError:
@@ -122,8 +126,10 @@ def write_site(out: Path, files: Mapping[str, bytes]) -> WriteReport:
 
 
 def _same_bytes(path: Path, data: bytes) -> bool:
+    """True when ``path`` is a regular file (not a symlink) holding exactly ``data``."""
     try:
-        if path.stat().st_size != len(data):
+        st = path.lstat()  # one call answers "file?", "symlink?" and the size
+        if not stat.S_ISREG(st.st_mode) or st.st_size != len(data):
             return False
         return path.read_bytes() == data
     except OSError:

@@ -19,6 +19,7 @@ from pathlib import Path
 from typing import Any, Sequence
 
 import jinja2
+import numpy as np
 
 from ..analysis.embed import stratified_sample
 from ..analysis.stats import wilson
@@ -74,8 +75,9 @@ def _pct(value: float | None, digits: int = 1) -> str:
 def make_environment(templates_dirs: Sequence[Path]) -> jinja2.Environment:
     """A strict, autoescaping environment over the template folders, first wins."""
     loader = jinja2.ChoiceLoader([jinja2.FileSystemLoader(str(d)) for d in templates_dirs])
+    # auto_reload off: one environment serves one build, so templates need not be checked for changes per page.
     env = jinja2.Environment(loader=loader, autoescape=True, undefined=jinja2.StrictUndefined,
-                             trim_blocks=True, lstrip_blocks=True, keep_trailing_newline=True)
+                             trim_blocks=True, lstrip_blocks=True, keep_trailing_newline=True, auto_reload=False)
     env.filters["pct"] = _pct
     env.filters["fixed"] = exports.fixed
     return env
@@ -257,6 +259,9 @@ class Renderer:
         self.out: dict[str, bytes] = {}
         self.warnings: list[Finding] = []
         self.assets, self.urls = self._assets()
+        self._medoid_rows: dict[str, int] | None = None
+        self._excluded_decks: Any = None
+        self._share_charts: dict[tuple[str, str], Any] = {}
 
     def _assets(self) -> tuple[dict[str, bytes], dict[str, str]]:
         """The shared static files (content-hashed) and their paths by logical name."""
@@ -303,8 +308,11 @@ class Renderer:
         data = self.site.data
         if not data.excluded:
             return ""
-        d = data.decks
-        mask = d["deck_id"].isin(data.excluded) & (d["season"] == season)
+        if self._excluded_decks is None:  # the left-out decks, picked out of all decks once
+            d = data.decks
+            self._excluded_decks = d.loc[d["deck_id"].isin(data.excluded), ["deck_id", "season", "leader"]]
+        d = self._excluded_decks
+        mask = d["season"] == season
         if leader != ALL_LEADERS:
             mask &= d["leader"] == leader
         ids = sorted(str(x) for x in d.loc[mask, "deck_id"])
@@ -330,10 +338,13 @@ class Renderer:
         return rows
 
     def _share_chart(self, leader: str, chart_id: str) -> Any:
-        rows = self._share_rows(leader)
-        if len({x["season"] for x in rows}) < 2:
-            return None  # one season: the table says it all
-        return ch.share_chart(rows, chart_id, f"{self.s.leader_name(leader)}: archetype shares by season")
+        # The front page and the leader's page show the same chart: made once.
+        key = (leader, chart_id)
+        if key not in self._share_charts:
+            rows = self._share_rows(leader)
+            self._share_charts[key] = (None if len({x["season"] for x in rows}) < 2  # one season: the table says it all
+                                       else ch.share_chart(rows, chart_id, f"{self.s.leader_name(leader)}: archetype shares by season"))
+        return self._share_charts[key]
 
     def _map_budgets(self, season: str) -> dict[str, int]:
         """Map points each leader of a season may draw (see :data:`SEASON_MAP_POINTS`)."""
@@ -450,12 +461,24 @@ class Renderer:
             seasons = [a.season for a in self._seasons_of(slug)]
         return seasons[0], seasons[-1]
 
+    def _deck_rows(self) -> dict[str, int]:
+        """Row of the first deck with each representative deck's id, found in one pass over the decks."""
+        if self._medoid_rows is None:
+            ids = {a.medoid_deck_id for r in self.s.results for a in r.archetypes}
+            d = self.site.data.decks
+            hits = np.flatnonzero(d["deck_id"].isin(ids).to_numpy(dtype=bool))
+            rows: dict[str, int] = {}
+            for pos, deck_id in zip(hits.tolist(), d["deck_id"].iloc[hits].tolist()):
+                rows.setdefault(deck_id, pos)
+            self._medoid_rows = rows
+        return self._medoid_rows
+
     def _deck_facts(self, deck_id: str) -> tuple[tuple[str, str], ...]:
         d = self.site.data.decks
-        hit = d[d["deck_id"] == deck_id]
-        if hit.empty:
+        pos = self._deck_rows().get(deck_id)
+        if pos is None:
             return ()
-        row = hit.iloc[0]
+        row = d.iloc[pos]
         cols = ["event", "title"] + (["player"] if self.site.cfg["site.publish_players"] else [])
         out = []
         for col in cols:
