@@ -117,18 +117,16 @@ def build(
         from .analysis.seasons import link_seasons
         from .analysis.trends import trend_rows
         from .cache import Cache
-        from .check import check_rules
         from .load import load_data, open_season_folder
-        from .partitions import split
         from .runner import Analyses
+        from .site.charts import checked_by
         from .site.notes import load_notes
         from .site.render import SiteInput, render_site
 
         params = AnalysisParams.from_config(cfg)
         cache = Cache(cache_dir) if cache_dir is not None else None
-        runs = Analyses(params, cache, workers=cfg["analysis.workers"], scheduler=cfg["analysis.scheduler"],
-                        progress=progress)
-        with runs:
+        with Analyses(params, cache, workers=cfg["analysis.workers"], scheduler=cfg["analysis.scheduler"],
+                      progress=progress) as runs:
             runs.start_workers()  # before the data is loaded: workers are forked from this process
             with progress.stage("reading decks"):
                 folder = open_season_folder(cfg)
@@ -138,62 +136,81 @@ def build(
                 else:
                     progress.say(f"  {len(folder.files)} season folder(s), read and analysed one season at a time")
             if data is not None:
-                with progress.stage("checking deck-building rules"):
-                    data = check_rules(data, cfg)
-                parts = split(data, cfg)
-                with progress.stage(f"analysing {len(parts)} partition(s)"):
-                    runs.add(parts)
-                    results, run = runs.finish(close=False)
+                data, results, run = _analyse_tables(data, cfg, runs, progress)
             else:
-                with progress.stage("reading, checking and analysing season by season"):
-                    for season in folder.seasons():
-                        progress.say(f"  {season.seasons[0]}: {len(season.decks):,} decks, {len(season.cards):,} card rows")
-                        started = runs.add(split(season, cfg))
-                        del season
-                        # The next season is read while this one is analysed; earlier ones must be done,
-                        # so no more than two seasons' card rows are held at once.
-                        runs.wait_below(started)
-                    results, run = runs.finish(close=False)
-                data = folder.whole()
-                # Folder order is name order; pages and season links go in publication order.
-                rank = {s: i for i, s in enumerate(data.seasons)}
-                results.sort(key=lambda r: (rank[r.season], r.leader))
+                data, results, run = _analyse_folder(folder, cfg, runs, progress)
             if data.excluded:
                 progress.say(f"  {len(data.excluded):,} deck(s) break a rule and are left out")
             with progress.stage("drawing maps"):
                 results = runs.draw_maps(results, data.seasons)
                 run = replace(run, mapped=runs.mapped)
-        if cache is not None:
-            cache.prune(runs.kept_keys)
-        with progress.stage("linking seasons"):
-            linked, history = link_seasons(results, data.seasons, cfg["analysis.link_threshold"])
-        content = cfg.path("site.content")
-        notes = load_notes(content) if content is not None else load_notes(cfg.root / "content")
-        linked, override_findings = apply_overrides(linked, notes.front_matter_by_slug())
-        trends = trend_rows(linked, data.seasons, cfg["trends.min_games"])
-        with progress.stage("rendering pages"):
-            files, render_findings = render_site(SiteInput(
-                cfg=cfg, data=data, results=tuple(linked), history=history, notes=notes,
-                findings=data.findings, templates_dirs=templates_dirs(cfg), trends=trends,
-            ))
+            if cache is not None:
+                cache.prune(runs.kept_keys)
+            with progress.stage("linking seasons"):
+                linked, history = link_seasons(results, data.seasons, cfg["analysis.link_threshold"])
+            content = cfg.path("site.content")
+            notes = load_notes(content) if content is not None else load_notes(cfg.root / "content")
+            linked, override_findings = apply_overrides(linked, notes.front_matter_by_slug())
+            trends = trend_rows(linked, data.seasons, cfg["trends.min_games"])
+            # The workers are idle while pages render: they check the charts meanwhile.
+            with progress.stage("rendering pages"), checked_by(runs.idle_pool()):
+                files, render_findings = render_site(SiteInput(
+                    cfg=cfg, data=data, results=tuple(linked), history=history, notes=notes,
+                    findings=data.findings, templates_dirs=templates_dirs(cfg), trends=trends,
+                ))
         with progress.stage("writing the site"):
             written = write_site(out, files)
         warnings = tuple(data.findings) + tuple(override_findings) + tuple(render_findings)
         report = BuildReport(
-        output=out,
-        decks=len(data.decks),
-        seasons=len(data.seasons),
-        leaders=int(data.decks["leader"].nunique()),
-        archetypes=sum(len(r.archetypes) for r in linked),
-        partitions=len(results),
-        run=run,
-        written=written,
-        warnings=warnings,
+            output=out,
+            decks=len(data.decks),
+            seasons=len(data.seasons),
+            leaders=int(data.decks["leader"].nunique()),
+            archetypes=sum(len(r.archetypes) for r in linked),
+            partitions=len(results),
+            run=run,
+            written=written,
+            warnings=warnings,
             seconds=time.perf_counter() - start,
             timings=dict(progress.timings),
         )
         _write_stamp(cache_dir, stamp, report)
     return report
+
+
+def _analyse_tables(data, cfg: Config, runs, progress: Progress):
+    """Check, split and analyse data read whole; the checked data, results (maps not drawn) and run report."""
+    from .check import check_rules
+    from .partitions import split
+
+    with progress.stage("checking deck-building rules"):
+        data = check_rules(data, cfg)
+    parts = split(data, cfg)
+    with progress.stage(f"analysing {len(parts)} partition(s)"):
+        runs.add(parts)
+        del parts
+        results, run = runs.finish(close=False)
+    return data, results, run
+
+
+def _analyse_folder(folder, cfg: Config, runs, progress: Progress):
+    """Read, check, split and analyse a season folder one season at a time (see load/folder.py)."""
+    from .partitions import split
+
+    with progress.stage("reading, checking and analysing season by season"):
+        for season in folder.seasons():
+            progress.say(f"  {season.seasons[0]}: {len(season.decks):,} decks, {len(season.cards):,} card rows")
+            started = runs.add(split(season, cfg))
+            del season
+            # The next season is read while this one is analysed; earlier ones must be done,
+            # so no more than two seasons' card rows are held at once.
+            runs.wait_below(started)
+        results, run = runs.finish(close=False)
+    data = folder.whole()
+    # Folder order is name order; pages and season links go in publication order.
+    rank = {s: i for i, s in enumerate(data.seasons)}
+    results.sort(key=lambda r: (rank[r.season], r.leader))
+    return data, results, run
 
 
 def _files_of(path: Path) -> list[Path]:

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import hashlib
 import os
+import sys
 from dataclasses import replace
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
 from typing import Sequence
@@ -108,6 +109,7 @@ class Analyses:
         self._pool: ProcessPoolExecutor | None = None
         self._client = None
         self._inline = False
+        self._forked_clean = False
         #: (season, leader) of every map drawn afresh by :meth:`draw_maps`.
         self.mapped: tuple[tuple[str, str], ...] = ()
 
@@ -122,6 +124,9 @@ class Analyses:
         n = worker_count(self.workers, 1 << 30)
         self._inline = n == 1
         if not self._inline:
+            # vl-convert's JavaScript engine runs threads that a forked child does not get: a worker
+            # forked after this process used it would hang in it (a second build in one process).
+            self._forked_clean = "vl_convert" not in sys.modules
             self._pool = ProcessPoolExecutor(max_workers=n, initializer=_one_thread)
             self._pool.submit(int).result()  # the first job makes the pool start every worker
 
@@ -172,6 +177,11 @@ class Analyses:
             else:
                 self._pending[self._pool.submit(analyse_partition, part, self.params)] = i
         return len(todo)
+
+    def idle_pool(self) -> ProcessPoolExecutor | None:
+        """The local worker pool, for chart checks once every analysis and map is done; None
+        without one, or when its workers were forked after this process had used vl-convert."""
+        return self._pool if not self._pending and self._forked_clean else None
 
     def wait_below(self, queued: int) -> None:
         """Collect finished analyses until at most ``queued`` are still running or waiting."""

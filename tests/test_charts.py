@@ -100,6 +100,30 @@ def test_spec_that_vega_lite_cannot_compile_is_refused():
         charts.validate_spec(spec, "lookup")
 
 
+def test_checks_sent_to_other_processes_refuse_the_same_specs():
+    # The build checks charts in its idle worker processes while pages render; the schema
+    # (Vega-Lite's, shipped in altair) and the compiler must refuse there as they do here,
+    # with the same message, when the block ends.
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+
+    good = {"mark": "point", "data": {"values": [{"a": 1}]}, "encoding": {"x": {"field": "a", "type": "quantitative"}}}
+    bad = {"mark": "pointy", "data": {"values": [{"a": 2}]}}
+    # Spawned, not forked: this test process has used vl-convert already (the build forks before it does).
+    with ProcessPoolExecutor(max_workers=2, mp_context=multiprocessing.get_context("spawn")) as pool:
+        with charts.checked_by(pool):
+            charts.validate_spec(good, "fine")
+        reached = []
+        with pytest.raises(RenderError, match=r"chart 'elsewhere'.*at mark \(schema path .*mark.*\)"):
+            with charts.checked_by(pool):
+                charts.validate_spec(good, "fine")
+                charts.validate_spec(bad, "elsewhere")
+                reached.append(True)  # no error yet: the check runs in the pool
+        assert reached
+    with pytest.raises(RenderError, match=r"chart 'here'.*at mark"):
+        charts.validate_spec(bad, "here")  # outside the block: checked at once, and still refused
+
+
 def test_nan_in_spec_is_refused():
     # JSON (RFC 8259) has no NaN; JSON.parse in the page would fail on it.
     with pytest.raises(RenderError, match=r"chart 'nan'.*no NaN"):

@@ -14,9 +14,10 @@ import hashlib
 import json
 import math
 import re
+from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Iterable, Mapping, Sequence
+from typing import Any, Iterable, Iterator, Mapping, Sequence
 
 from ..errors import RenderError
 from ..model import ALL_LEADERS, OTHER_KEY, PartitionResult
@@ -159,6 +160,8 @@ def validate_spec(spec: dict, chart_id: str = "chart") -> None:
     checked in this process (same JSON text once inline data is cut to its
     first row, see :func:`_skeleton`) are not checked again; a spec that
     fails is checked whole, so the error is the one the whole spec gives.
+    Inside :func:`checked_by`, the check runs in another process and its
+    error, if any, is raised when the block ends.
     """
     try:
         json.dumps(spec, sort_keys=True, allow_nan=False)
@@ -168,6 +171,17 @@ def validate_spec(spec: dict, chart_id: str = "chart") -> None:
     digest = hashlib.sha256(json.dumps(skeleton, sort_keys=True).encode("utf-8")).hexdigest()
     if digest in _checked:
         return
+    if _elsewhere is not None:
+        executor, pending = _elsewhere
+        if digest not in pending:
+            pending[digest] = executor.submit(check_skeleton, skeleton, spec, chart_id)
+        return
+    check_skeleton(skeleton, spec, chart_id)
+    _checked.add(digest)
+
+
+def check_skeleton(skeleton: dict, spec: dict, chart_id: str) -> None:
+    """:func:`validate_spec`'s schema check and compile of one spec (``skeleton`` first, then whole)."""
     import jsonschema
 
     error = jsonschema.exceptions.best_match(_validator().iter_errors(skeleton))
@@ -190,8 +204,31 @@ def validate_spec(spec: dict, chart_id: str = "chart") -> None:
     except Exception as exc:  # vl-convert raises ValueError; anything else is a bad spec too
         # keep the message, drop the JavaScript stack trace under it
         lines = [ln.strip() for ln in str(exc).splitlines() if ln.strip() and not ln.strip().startswith("at ")]
-        raise RenderError(f"chart '{chart_id}': Vega-Lite could not compile the spec: {' '.join(lines)[:300]}") from exc
-    _checked.add(digest)
+        raise RenderError(f"chart '{chart_id}': Vega-Lite could not compile the spec: {' '.join(lines)[:300]}") from None
+
+
+#: While :func:`checked_by` is active: the executor checking specs, and the checks sent to it by digest.
+_elsewhere: tuple[Any, dict[str, Any]] | None = None
+
+
+@contextmanager
+def checked_by(executor: Any) -> Iterator[None]:
+    """Within the block, chart checks go to ``executor`` (a process pool that is idle while
+    pages render) instead of running here; on leaving, every check is waited for and the
+    first failure, in the order the charts were made, is raised. None checks here."""
+    global _elsewhere
+    if executor is None:
+        yield
+        return
+    pending: dict[str, Any] = {}
+    _elsewhere = (executor, pending)
+    try:
+        yield
+    finally:
+        _elsewhere = None
+    for digest, fut in pending.items():
+        fut.result()  # raises the chart's RenderError
+        _checked.add(digest)
 
 
 def _finish(chart_id: str, spec: dict, caption: str, columns: Sequence[str], rows: Iterable[Sequence]) -> Chart:
