@@ -92,7 +92,7 @@ SETTINGS: tuple[Setting, ...] = (
     _S("analysis.inclusion_min_share", 0.05, float, "Cards played by fewer of an archetype's decks are left out of its card table.", minimum=0, maximum=1),
     _S("analysis.name_cards", 2, int, "Signature cards used in an archetype's default name.", minimum=1, maximum=5),
     _S("analysis.map_points", 1500, int, "Most decks drawn per map (sampled per archetype); the map is the costliest step of the analysis.", minimum=10),
-    _S("analysis.map_iterations", 150, int, "t-SNE steps per map: a leader's first map gets 125 of early exaggeration before them, later maps start from the previous season's; more gives a tidier map, slower.", minimum=50),
+    _S("analysis.map_iterations", 150, int, "t-SNE steps per map: a leader's first map gets 125 of early exaggeration before them; later maps start from the previous season's and get two thirds of them; more gives a tidier map, slower.", minimum=50),
     _S("analysis.svd_dims", 32, int, "Dimensions the deck features are reduced to (truncated SVD) before clustering.", minimum=2),
     _S("analysis.kmeans_starts", 4, int, "k-means starts per k; the best (least inertia) is kept.", minimum=1),
     _S("analysis.fit_sample", 20000, int, "Most decks k-means is fitted on per partition; every deck is then assigned to its nearest centre.", minimum=100),

@@ -59,6 +59,12 @@ WARM_NEIGHBOURS = 10
 START_SPREAD = 1e-4
 
 
+def warm_steps(iterations: int) -> int:
+    """Steps for a map started from the previous season's: two thirds of a fresh map's (it starts
+    near its final layout; measured in the method notes), at least 50."""
+    return max(50, iterations * 2 // 3)
+
+
 def tsne(rows: np.ndarray, seed: int, iterations: int = 250, init: np.ndarray | None = None) -> np.ndarray:
     """2-D t-SNE coordinates of ``rows`` (openTSNE, Barnes-Hut, one thread), float64.
 

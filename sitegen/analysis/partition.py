@@ -137,8 +137,9 @@ def draw_map(sample: MapSample, params: AnalysisParams, previous: tuple[MapSampl
             prev_sample, prev_layout = previous
             start = embed.warm_start(sample.presence, sample.cards, prev_sample.presence, prev_sample.cards,
                                      prev_layout.coords)
+        steps = params.map_iterations if start is None else embed.warm_steps(params.map_iterations)
         with np.errstate(invalid="ignore", divide="ignore"):
-            coords = embed.tsne(sample.rows, params.seed, params.map_iterations, init=start)
+            coords = embed.tsne(sample.rows, params.seed, steps, init=start)
     # Decks all alike leave t-SNE nothing to spread (NaN): they are drawn on one spot.
     return MapLayout(coords=np.round(np.where(np.isfinite(coords), coords, 0.0), 3) + 0.0, warm=start is not None)
 
