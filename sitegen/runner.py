@@ -110,6 +110,7 @@ class Analyses:
         self._client = None
         self._inline = False
         self._forked_clean = False
+        self._map_keys: set[str] = set()
         #: (season, leader) of every map drawn afresh by :meth:`draw_maps`.
         self.mapped: tuple[tuple[str, str], ...] = ()
 
@@ -252,7 +253,7 @@ class Analyses:
     @property
     def kept_keys(self) -> set[str]:
         """Every cache key this build used (results and maps): the rest may be pruned."""
-        return set(self._fps) | getattr(self, "_map_keys", set())
+        return set(self._fps) | self._map_keys
 
     def _start_map(self, sample, previous):
         if self.scheduler:

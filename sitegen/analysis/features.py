@@ -27,19 +27,35 @@ def build_matrix(cards_df: pd.DataFrame, deck_ids: Sequence[str]) -> tuple[sp.cs
     rows = pd.Index(list(deck_ids)).get_indexer(pd.Index(deck_uniques))[deck_codes]
     keep = (deck_codes >= 0) & (rows >= 0)
     card_codes, card_uniques = _codes(cards_df["card"])
+    keep &= card_codes >= 0  # a missing card name is no column
     card_codes = card_codes[keep]
-    used = np.unique(card_codes)
-    names = [str(card_uniques[i]) for i in used]
+    used = np.flatnonzero(np.bincount(card_codes, minlength=len(card_uniques)))  # sorted, like np.unique
+    names = [str(n) for n in np.asarray(card_uniques, dtype=object)[used].tolist()]
     order = sorted(range(len(names)), key=names.__getitem__)
     cards = tuple(names[i] for i in order)
     column_of = np.full(len(card_uniques), -1, dtype=np.intp)
     column_of[used[order]] = np.arange(len(order))
     qty = np.asarray(cards_df["quantity"], dtype=np.float64)[keep]
-    counts = sp.csr_matrix((qty, (rows[keep], column_of[card_codes])), shape=(len(deck_ids), len(cards)))
+    rows, columns = rows[keep], column_of[card_codes]
+    shape = (len(deck_ids), len(cards))
+    if _grouped(rows, columns) and (qty != 0).all():
+        # Rows by deck and, within a deck, cards in column order, once each (the loader's order):
+        # that is CSR already, without the sort a conversion from coordinates makes.
+        indptr = np.concatenate([[0], np.cumsum(np.bincount(rows, minlength=shape[0]))])
+        return sp.csr_matrix((qty, columns.astype(np.int32, copy=False), indptr), shape=shape), cards
+    counts = sp.csr_matrix((qty, (rows, columns)), shape=shape)
     counts.sum_duplicates()
     counts.eliminate_zeros()
     counts.sort_indices()
     return counts, cards
+
+
+def _grouped(rows: np.ndarray, columns: np.ndarray) -> bool:
+    """True when rows never decrease and, within a row, columns strictly increase."""
+    if rows.size < 2:
+        return True
+    step = np.diff(rows)
+    return bool((step >= 0).all() and (np.diff(columns)[step == 0] > 0).all())
 
 
 def _codes(column: pd.Series) -> tuple[np.ndarray, pd.Index]:
