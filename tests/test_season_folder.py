@@ -90,13 +90,18 @@ def test_errors_of_every_season_are_reported_together(tmp_path):
     assert any("season=Season 2" in m and "'zz'" in m for m in messages), messages
 
 
-def test_a_build_holds_no_more_than_two_seasons_of_card_rows(tmp_path, monkeypatch):
-    """Weak references to every season's card rows: when a season is read, the card rows of
-    the season two before it (and of every partition cut from them) must be gone."""
+def _five_seasons(root):
+    """Five seasons of 40 decks, two leaders, four planted kinds of deck (by their third card)."""
     for n in range(1, 6):
         decks = [(f"s{n}d{i}", "Orm" if i % 2 else "Vessa", f"2026-0{n}-02") for i in range(40)]
         cards = [(d, card, 2) for d, _, _ in decks for card in ("Ember Fox", "Tide Call", f"Card {int(d[3:]) % 4}")]
-        _season(tmp_path, f"Season {n}", decks, cards)
+        _season(root, f"Season {n}", decks, cards)
+
+
+def test_a_build_holds_no_more_than_two_seasons_of_card_rows(tmp_path, monkeypatch):
+    """Weak references to every season's card rows: when a season is read, the card rows of
+    the season two before it (and of every partition cut from them) must be gone."""
+    _five_seasons(tmp_path)
     cfg = config(tmp_path, data={"parquet_folder": "pq"}, site={"output": "site"}, cache={"folder": "cache"},
                  analysis={"workers": 1, "min_decks": 5})
     alive: list[weakref.ref] = []
@@ -126,3 +131,31 @@ def test_a_build_holds_no_more_than_two_seasons_of_card_rows(tmp_path, monkeypat
     assert len(held_at_read) == 5
     # At each read, at most the previous season's frame and its two partitions' frames are alive.
     assert max(held_at_read) <= 3, held_at_read
+
+
+def test_a_season_folder_and_the_same_tables_share_one_cache(tmp_path):
+    # Fingerprints digest a partition's rows, not where they were read from: after a build from the
+    # tables, a build of the same decks from a season folder, with the same cache, analyses nothing
+    # and draws no map, and writes the same site byte for byte.
+    from _sites import tree
+
+    _five_seasons(tmp_path / "folder")
+    decks, cards = [], []
+    for season in [f"Season {n}" for n in range(1, 6)]:
+        d = pd.read_parquet(tmp_path / "folder" / "pq" / f"season={season}" / "decks.parquet")
+        decks.append(d.assign(season=season))
+        cards.append(pd.read_parquet(tmp_path / "folder" / "pq" / f"season={season}" / "deck_cards.parquet"))
+    flat = tmp_path / "flat"
+    flat.mkdir()
+    pd.concat(decks).to_csv(flat / "decks.csv", index=False)
+    pd.concat(cards).to_parquet(flat / "deck_cards.parquet", index=False)
+    shared = {"folder": str(tmp_path / "cache")}
+    settings = {"analysis": {"workers": 1, "min_decks": 5}}
+    first = build(cfg=config(flat, data={"decks": "decks.csv", "deck_cards": "deck_cards.parquet"},
+                             site={"output": str(tmp_path / "site-tables")}, cache=shared, **settings), quiet=True)
+    assert first.run.analysed and first.run.mapped, "the first build analysed its partitions and drew maps"
+    again = build(cfg=config(tmp_path / "folder", data={"parquet_folder": "pq"},
+                             site={"output": str(tmp_path / "site-folder")}, cache=shared, **settings), quiet=True)
+    assert again.run.analysed == () and again.run.mapped == ()
+    assert len(again.run.cached) == len(first.run.analysed)
+    assert tree(tmp_path / "site-folder") == tree(tmp_path / "site-tables")
