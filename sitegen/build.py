@@ -189,7 +189,7 @@ def _analyse_tables(data, cfg: Config, runs, progress: Progress):
     with progress.stage(f"analysing {len(parts)} partition(s)"):
         runs.add(parts)
         del parts
-        results, run = runs.finish(close=False)
+        results, run = runs.finish()
     return data, results, run
 
 
@@ -205,7 +205,7 @@ def _analyse_folder(folder, cfg: Config, runs, progress: Progress):
             # The next season is read while this one is analysed; earlier ones must be done,
             # so no more than two seasons' card rows are held at once.
             runs.wait_below(started)
-        results, run = runs.finish(close=False)
+        results, run = runs.finish()
     data = folder.whole()
     # Folder order is name order; pages and season links go in publication order.
     rank = {s: i for i, s in enumerate(data.seasons)}

@@ -77,7 +77,7 @@ def analyse_all(
     """Analyse every partition, taking unchanged ones from ``cache``."""
     with Analyses(params, cache, workers=workers, scheduler=scheduler, progress=progress) as runs:
         runs.add(parts)
-        results, report = runs.finish(close=False)
+        results, report = runs.finish()
         seasons = list(dict.fromkeys(p.season for p in parts))  # parts come in publication order
         results = runs.draw_maps(results, seasons)
         return results, replace(report, mapped=runs.mapped)
@@ -189,12 +189,10 @@ class Analyses:
         while len(self._pending) > queued:
             self._collect_some()
 
-    def finish(self, close: bool = True) -> tuple[list[PartitionResult], RunReport]:
+    def finish(self) -> tuple[list[PartitionResult], RunReport]:
         """Every result in the order added (maps not yet drawn: see :meth:`draw_maps`),
-        and which partitions were analysed or cached."""
+        and which partitions were analysed or cached. The workers stay up for the maps."""
         self.wait_below(0)
-        if close:
-            self.close()
         report = RunReport(analysed=tuple(self._keys[i] for i in self._todo),
                            cached=tuple(self._keys[i] for i in self._cached))
         return [r for r in self._results if r is not None], report
@@ -301,8 +299,6 @@ class Analyses:
 
 
 def _with_fingerprint(result: PartitionResult, fp: str) -> PartitionResult:
-    from dataclasses import replace
-
     return replace(result, fingerprint=fp)
 
 

@@ -20,7 +20,7 @@ from ..model import DeckData
 from .decklists import read_decklists
 from .normalise import build
 from .origin import StackedOrigin
-from .tables import PARQUET_SUFFIXES, Table, read_table
+from .tables import Table, read_table
 
 __all__ = ["load_data", "open_season_folder", "read_decklists", "read_table"]
 
@@ -68,6 +68,21 @@ def _read_both(reads) -> list[Table]:
     return tables
 
 
+def _check_inputs(cfg: Config) -> None:
+    """A ConfigError when the settings name more than one form of input."""
+    source = str(cfg.source or "<config>")
+    decks_path, cards_path = cfg.path("data.decks"), cfg.path("data.deck_cards")
+    folder, parquet_folder = cfg.path("data.decklists"), cfg.path("data.parquet_folder")
+    given = [k for k, v in (("data.decks", decks_path), ("data.deck_cards", cards_path),
+                            ("data.decklists", folder), ("data.parquet_folder", parquet_folder)) if v is not None]
+    if folder is not None and (decks_path or cards_path or parquet_folder):
+        raise ConfigError(source, "data.decklists", f"given together with {', '.join(k for k in given if k != 'data.decklists')}",
+                          "give either a decklist folder or the tables, not both")
+    if parquet_folder is not None and (decks_path or cards_path):
+        raise ConfigError(source, "data.parquet_folder", "given together with data.decks/data.deck_cards",
+                          "give either the Parquet folder or the two tables, not both")
+
+
 def load_data(cfg: Config) -> DeckData:
     """Read, check and normalise the deck data the config names.
 
@@ -82,16 +97,9 @@ def load_data(cfg: Config) -> DeckData:
     replaces any season column in the files.
     """
     source = str(cfg.source or "<config>")
+    _check_inputs(cfg)
     decks_path, cards_path = cfg.path("data.decks"), cfg.path("data.deck_cards")
     folder, parquet_folder = cfg.path("data.decklists"), cfg.path("data.parquet_folder")
-    given = [k for k, v in (("data.decks", decks_path), ("data.deck_cards", cards_path),
-                            ("data.decklists", folder), ("data.parquet_folder", parquet_folder)) if v is not None]
-    if folder is not None and (decks_path or cards_path or parquet_folder):
-        raise ConfigError(source, "data.decklists", f"given together with {', '.join(k for k in given if k != 'data.decklists')}",
-                          "give either a decklist folder or the tables, not both")
-    if parquet_folder is not None and (decks_path or cards_path):
-        raise ConfigError(source, "data.parquet_folder", "given together with data.decks/data.deck_cards",
-                          "give either the Parquet folder or the two tables, not both")
     if folder is not None:
         decks, cards = read_decklists(folder)
         (card_table,) = _read_both([lambda: _read_card_table(cfg)])
@@ -124,8 +132,7 @@ def open_season_folder(cfg: Config):
     folder = cfg.path("data.parquet_folder")
     if folder is None or cfg["seasons.source"] == "calendar":
         return None
-    if any(cfg.path(k) is not None for k in ("data.decks", "data.deck_cards", "data.decklists")):
-        load_data(cfg)  # raises the ConfigError for the conflicting settings
+    _check_inputs(cfg)
     from .folder import open_folder
 
     required, optional = _deck_columns(cfg)
@@ -136,29 +143,22 @@ def open_season_folder(cfg: Config):
 
 
 def _read_parquet_folder(folder: Path, cfg: Config) -> tuple[Table, Table]:
-    """The season=NAME/ sub-folders as one deck table and one long-form table."""
-    if not folder.is_dir():
-        raise DataError(folder, "folder not found" if not folder.exists() else "is a file, not a folder",
-                        fix="check the path given in setting 'data.parquet_folder' (relative to the config file)")
-    parts = sorted(p for p in folder.iterdir() if p.is_dir() and p.name.startswith("season="))
-    if not parts:
-        raise DataError(folder, "no season=NAME sub-folders",
-                        fix="put each season's decks.parquet and deck_cards.parquet in a folder named season=NAME")
+    """The season=NAME/ sub-folders as one deck table and one long-form table (the whole
+    folder at once, for seasons taken from a calendar; see load/folder.py otherwise)."""
+    from .folder import season_files, with_season
+
     required, optional = _deck_columns(cfg)
     required.pop("season", None)
     optional.pop("season", None)
-    deck_tables: list[tuple[str, Table]] = []
+    deck_tables: list[Table] = []
     card_tables: list[Table] = []
     errors: list[DataError] = []
-    for part in parts:
-        season = part.name.split("=", 1)[1]
-        decks_file = _one_file(part, "decks")
-        cards_file = _one_file(part, "deck_cards")
+    for files in season_files(folder):
         try:
             d, c = _read_both([
-                lambda: read_table(decks_file, setting="data.parquet_folder", required=required, optional=optional,
+                lambda: read_table(files.decks, setting="data.parquet_folder", required=required, optional=optional,
                                    numeric=frozenset({"wins", "losses"})),
-                lambda: read_table(cards_file, setting="data.parquet_folder", required=_card_rows_columns(cfg),
+                lambda: read_table(files.cards, setting="data.parquet_folder", required=_card_rows_columns(cfg),
                                    numeric=frozenset({"quantity"}), categorical=_CARD_ROW_CATEGORIES),
             ])
         except DataErrors as exc:
@@ -167,25 +167,11 @@ def _read_parquet_folder(folder: Path, cfg: Config) -> tuple[Table, Table]:
         except DataError as exc:
             errors.append(exc)
             continue
-        deck_tables.append((season, d))
+        deck_tables.append(with_season(d, files.season))
         card_tables.append(c)
     if errors:
         raise errors[0] if len(errors) == 1 else DataErrors(errors)
-    return _stack([_with_season(t, s) for s, t in deck_tables]), _stack(card_tables)
-
-
-def _one_file(part: Path, stem: str) -> Path:
-    for suffix in PARQUET_SUFFIXES:
-        candidate = part / f"{stem}{suffix}"
-        if candidate.exists():
-            return candidate
-    return part / f"{stem}.parquet"
-
-
-def _with_season(table: Table, season: str) -> Table:
-    frame = table.frame.copy()
-    frame["season"] = pd.Series([season] * len(frame), dtype="str")
-    return Table(table.file, frame, table.origin, {**table.names, "season": "season (folder name)"}, table.column_origins)
+    return _stack(deck_tables), _stack(card_tables)
 
 
 def _stack(tables: list[Table]) -> Table:

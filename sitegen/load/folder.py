@@ -7,9 +7,10 @@ table (one row per deck) and the distinct card names of every long-form
 table with their row counts. That settles one spelling per card and leader,
 deck ids unique across seasons, and the season order. Then
 :meth:`SeasonFolder.seasons` reads, checks and hands over one season's card
-rows at a time; the caller analyses them and drops them before it asks for
-the next. No step holds the card rows of more than one season, which are
-nearly all of the data (a deck has dozens).
+rows at a time (each season's deck table is read again then: it is small);
+the caller analyses them while it reads the next, and waits for a season's
+analyses before it reads the season after, so no more than two seasons'
+card rows, which are nearly all of the data (a deck has dozens), are held.
 
 The result is the same as reading the folder whole: the same decks, the
 same spellings, the same findings in the same order.
