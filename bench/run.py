@@ -92,7 +92,7 @@ def child_load(config: str) -> dict:
     parts = split(data, cfg)
     weighted = []
     for p in parts:
-        counts, _ = features.build_matrix(p.cards, list(p.decks["deck_id"]))
+        counts, _ = features.build_matrix(p.cards, p.decks["deck_id"].tolist())
         weighted.append(features.tfidf(counts))
     t2 = time.perf_counter()
     for w in weighted:

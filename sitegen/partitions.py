@@ -11,7 +11,7 @@ import numpy as np
 import pandas as pd
 
 from .config import Config
-from .model import ALL_LEADERS, DeckData, PartitionInput
+from .model import ALL_LEADERS, DeckData, PartitionInput, coded
 
 
 def card_types(data: DeckData) -> dict[str, str]:
@@ -26,8 +26,9 @@ def split(data: DeckData, cfg: Config) -> list[PartitionInput]:
     """The partitions of ``data`` in publication order (season, then leader name).
 
     Decks in ``data.excluded`` (rule breakers, when the config leaves them
-    out) are not in any partition. Rows are taken with one stable sort, so
-    the cost is linear in the number of card rows.
+    out) are not in any partition. Rows are taken by their decks' runs of
+    rows (the loader's order) or else with one stable sort, so the cost is
+    linear in the number of card rows.
     """
     decks = data.decks
     n = len(decks)
@@ -48,33 +49,48 @@ def split(data: DeckData, cfg: Config) -> list[PartitionInput]:
     narrow = np.int16 if len(order) < 2 ** 15 else np.int32
     deck_part = np.where(pair >= 0, np.searchsorted(used, pair), -1).astype(narrow)
 
-    card_part, deck_row = _card_rows_of(data, deck_part)
-    if (card_part >= 0).all():
-        by_part = np.argsort(card_part, kind="stable")
+    deck_row = _deck_rows(data)
+    if deck_row is not None and _ascending(deck_row):
+        # The loader's order: rows grouped by deck, decks in table order. A partition's rows are
+        # then its decks' runs of rows, taken without sorting tens of millions of rows.
+        run_start = np.searchsorted(deck_row, np.arange(n + 1))
+        by_part = bounds = None
     else:
-        card_rows = np.flatnonzero(card_part >= 0)
-        by_part = card_rows[np.argsort(card_part[card_rows], kind="stable")]
-    bounds = np.searchsorted(card_part[by_part], np.arange(len(order) + 1))
-    del card_part
+        card_part = _card_parts(data, deck_part, deck_row)
+        if (card_part >= 0).all():
+            by_part = np.argsort(card_part, kind="stable")
+        else:
+            card_rows = np.flatnonzero(card_part >= 0)
+            by_part = card_rows[np.argsort(card_part[card_rows], kind="stable")]
+        bounds = np.concatenate(([0], np.cumsum(np.bincount(card_part[card_part >= 0], minlength=len(order)))))
+        del card_part
 
     deck_order = np.argsort(deck_part, kind="stable")
     deck_bounds = np.searchsorted(deck_part[deck_order], np.arange(len(order) + 1))
     types = card_types(data)
-    local = np.full(n, -1, dtype=np.int64)
+    local = np.full(n, -1, dtype=np.int32)
+    columns = _card_columns(data.cards)
     parts: list[PartitionInput] = []
     for i, (season, leader) in enumerate(order):
         rows = deck_order[deck_bounds[i]:deck_bounds[i + 1]]
         part_decks = decks.iloc[rows].reset_index(drop=True)
         if not cfg["analysis.by_leader"]:
             part_decks["leader"] = ALL_LEADERS
-        picked = by_part[bounds[i]:bounds[i + 1]]
-        if deck_row is None:
-            part_cards = data.cards.iloc[picked].reset_index(drop=True)
+        if by_part is None:
+            lengths = run_start[rows + 1] - run_start[rows]
+            picked = _runs(run_start[rows], lengths)
+            part_cards = _local_cards(columns, picked, np.repeat(np.arange(len(rows), dtype=np.int32), lengths),
+                                      part_decks["deck_id"])
+        elif deck_row is None:
+            part_cards = data.cards.iloc[by_part[bounds[i]:bounds[i + 1]]].reset_index(drop=True)
         else:
+            picked = by_part[bounds[i]:bounds[i + 1]]
             local[rows] = np.arange(len(rows))
-            part_cards = _local_cards(data.cards, picked, local[deck_row[picked]], part_decks["deck_id"])
+            part_cards = _local_cards(columns, picked, local[deck_row[picked]], part_decks["deck_id"])
             local[rows] = -1
-        present = set(part_cards["card"].unique()) if types else set()
+        card = part_cards["card"]
+        present = (set(card.cat.categories) if isinstance(card.dtype, pd.CategoricalDtype) else set(card.unique())) \
+            if types else set()
         parts.append(PartitionInput(
             season=season, leader=leader, decks=part_decks, cards=part_cards,
             card_types={c: types[c] for c in present if c in types},
@@ -82,33 +98,58 @@ def split(data: DeckData, cfg: Config) -> list[PartitionInput]:
     return parts
 
 
-def _card_rows_of(data: DeckData, deck_part: np.ndarray) -> tuple[np.ndarray, np.ndarray | None]:
-    """The partition of each card row (-1: none), and each row's deck as a row of ``data.decks``.
-
-    The loader's categorical deck ids make this one lookup; other tables
-    (built by hand) are joined on the ids, and give no deck rows.
-    """
+def _deck_rows(data: DeckData) -> np.ndarray | None:
+    """Each card row's deck as a row of ``data.decks``, when the deck ids are the loader's
+    categoricals (other tables, built by hand, are joined on the ids and give None)."""
     ids = data.cards["deck_id"]
     if isinstance(ids.dtype, pd.CategoricalDtype) and len(ids.cat.categories) == len(data.decks) \
             and ids.cat.categories.equals(pd.Index(data.decks["deck_id"])):
-        deck_row = ids.cat.codes.to_numpy()
-        return deck_part[deck_row], deck_row
+        return ids.array.codes
+    return None
+
+
+def _ascending(values: np.ndarray) -> bool:
+    return values.size < 2 or bool((values[1:] >= values[:-1]).all())
+
+
+def _runs(starts: np.ndarray, lengths: np.ndarray) -> np.ndarray:
+    """The positions start, start+1, ... of each run, one run after another."""
+    ends = np.cumsum(lengths)
+    return np.arange(ends[-1] if ends.size else 0) + np.repeat(starts - (ends - lengths), lengths)
+
+
+def _card_parts(data: DeckData, deck_part: np.ndarray, deck_row: np.ndarray | None) -> np.ndarray:
+    """The partition of each card row (-1: none)."""
+    if deck_row is not None:
+        return deck_part[deck_row]
+    ids = data.cards["deck_id"]
     part_of_deck = pd.Series(deck_part, index=pd.Index(data.decks["deck_id"]))
     found = part_of_deck.reindex(ids.astype(str) if isinstance(ids.dtype, pd.CategoricalDtype) else ids).to_numpy()
-    return np.where(np.isnan(found), -1, found).astype(np.int64) if found.dtype.kind == "f" else found, None
+    return np.where(np.isnan(found), -1, found).astype(np.int64) if found.dtype.kind == "f" else found
 
 
-def _local_cards(cards: pd.DataFrame, picked: np.ndarray, deck_codes: np.ndarray, deck_ids: pd.Series) -> pd.DataFrame:
-    """One partition's card rows, its categoricals holding only its own decks and cards."""
+def _card_columns(cards: pd.DataFrame) -> tuple[np.ndarray, pd.Index | None, np.ndarray]:
+    """The card column's codes and categories (None: not a categorical, values instead) and the
+    quantities, taken out once: ``.cat.codes`` copies the whole column each time it is asked."""
     card = cards["card"]
     if isinstance(card.dtype, pd.CategoricalDtype):
-        codes = card.cat.codes.to_numpy()[picked]
-        used = np.bincount(codes, minlength=len(card.cat.categories)) > 0
-        card = pd.Categorical.from_codes((np.cumsum(used) - 1)[codes], categories=card.cat.categories[used])
+        return card.cat.codes.to_numpy(), card.cat.categories, cards["quantity"].to_numpy()
+    return card.to_numpy(), None, cards["quantity"].to_numpy()
+
+
+def _local_cards(columns: tuple[np.ndarray, pd.Index | None, np.ndarray], picked: np.ndarray,
+                 deck_codes: np.ndarray, deck_ids: pd.Series) -> pd.DataFrame:
+    """One partition's card rows, its categoricals holding only its own decks and cards."""
+    card_values, categories, quantity = columns
+    if categories is not None:
+        codes = card_values[picked]
+        used = np.zeros(len(categories), dtype=bool)
+        used[codes] = True
+        card = coded((np.cumsum(used, dtype=np.int32) - 1)[codes], categories[used])
     else:
-        card = card.to_numpy()[picked]
+        card = card_values[picked]
     return pd.DataFrame({
-        "deck_id": pd.Categorical.from_codes(deck_codes, categories=pd.Index(deck_ids.to_numpy(dtype=object), dtype="str")),
+        "deck_id": coded(deck_codes, pd.Index(deck_ids.to_numpy(), dtype="str")),  # ids are unique: a deck is a row
         "card": card,
-        "quantity": cards["quantity"].to_numpy()[picked],
+        "quantity": quantity[picked],
     })

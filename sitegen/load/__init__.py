@@ -114,11 +114,22 @@ def load_data(cfg: Config) -> DeckData:
                           "no deck data: give data.decks and data.deck_cards (tables), or data.decklists (a folder of text decklists)",
                           f"set {missing} to the path of the table, relative to the config file")
     required, optional = _deck_columns(cfg)
+    read: dict[str, Table] = {}
+
+    def read_decks() -> Table:
+        read["decks"] = read_table(decks_path, setting="data.decks", required=required, optional=optional,
+                                   numeric=frozenset({"wins", "losses"}))
+        return read["decks"]
+
+    def read_cards() -> Table:
+        # The deck table's ids, in its order, are the likely categories of the card rows' deck ids.
+        return read_table(cards_path, setting="data.deck_cards", required=_card_rows_columns(cfg),
+                          numeric=frozenset({"quantity"}), categorical=_CARD_ROW_CATEGORIES,
+                          deck_ids=read["decks"].frame["deck_id"] if "decks" in read else None)
+
     decks, cards, card_table = _read_both([
-        lambda: read_table(decks_path, setting="data.decks", required=required, optional=optional,
-                           numeric=frozenset({"wins", "losses"})),
-        lambda: read_table(cards_path, setting="data.deck_cards", required=_card_rows_columns(cfg),
-                           numeric=frozenset({"quantity"}), categorical=_CARD_ROW_CATEGORIES),
+        read_decks,
+        read_cards,
         lambda: _read_card_table(cfg),
     ])
     return build(decks, cards, card_table, cfg)

@@ -125,7 +125,8 @@ class SeasonFolder:
             decks = _collect(errors, lambda: self._read_decks(files))
             cards = _collect(errors, lambda: read_table(
                 files.cards, setting="data.parquet_folder", required=self.card_columns,
-                numeric=frozenset({"quantity"}), categorical=frozenset({"deck_id", "card"})))
+                numeric=frozenset({"quantity"}), categorical=frozenset({"deck_id", "card"}),
+                deck_ids=decks.frame["deck_id"] if decks is not None else None))
             if decks is None or cards is None:
                 continue
             data = _collect(errors, partial(normalise.build, decks, cards, self.card_table, self.cfg, self.spellings))

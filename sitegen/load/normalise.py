@@ -14,6 +14,7 @@ import difflib
 import re
 from collections import defaultdict
 from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -22,8 +23,8 @@ import pyarrow.compute as pc
 
 from ..config import Config
 from ..errors import ConfigError, DataError, DataErrors
-from ..model import DECK_COLUMNS, DeckData, Finding
-from .tables import Table
+from ..model import DECK_COLUMNS, DeckData, Finding, coded
+from .tables import CSV_SUFFIXES, Table, _arrow_text
 
 #: Individual errors listed per problem before the rest are counted in one line.
 ERRORS_PER_PROBLEM = 50
@@ -116,13 +117,14 @@ def _as_list(values) -> list:
 
 
 def _category_codes(series: pd.Series) -> tuple[np.ndarray, list]:
-    codes = series.cat.codes.to_numpy()  # int8, int16 or int32: as narrow as the categories allow
+    codes = series.array.codes  # int8, int16 or int32: as narrow as the categories allow (no copy)
     categories = _as_list(series.cat.categories)
     if (codes < 0).any():
         if "" not in categories:
             categories.append("")
         codes = np.where(codes < 0, categories.index(""), codes)
-    used = np.bincount(codes, minlength=len(categories)) > 0
+    used = np.zeros(len(categories), dtype=bool)
+    used[codes] = True  # several times faster than counting with np.bincount
     if used.all():
         return codes, categories
     new_code = (np.cumsum(used) - 1).astype(_CODE)
@@ -158,8 +160,9 @@ def _codes(series: pd.Series) -> tuple[np.ndarray, list[str]]:
 
 def _cleaned(series: pd.Series) -> pd.Series:
     codes, uniques = _codes(series)
-    return pd.Series(np.asarray(uniques, dtype=object)[codes] if len(uniques) else np.array([], dtype=object),
-                     index=series.index, dtype="str")
+    out = _text(uniques, codes)
+    out.index = series.index
+    return out
 
 
 def parse_counts(series: pd.Series, *, positive: bool) -> tuple[pd.Series, np.ndarray]:
@@ -198,6 +201,89 @@ def parse_counts(series: pd.Series, *, positive: bool) -> tuple[pd.Series, np.nd
             bad_format = np.flatnonzero(~ok & ~empty)
     low = np.flatnonzero((values < least).fillna(False).to_numpy(dtype=bool))
     return values, np.union1d(bad_format, low).astype(np.int64)
+
+
+def _distinct_codes(series: pd.Series) -> tuple[np.ndarray, list[str], np.ndarray] | None:
+    """Codes, values and sort ranks of a text column whose values are distinct and need no
+    cleaning (a deck table's ids, as a rule), or None when they are not.
+
+    One sort of the values, needed for the ranks anyway, shows that no two
+    are equal, so the hash table of :func:`_codes` is never built.
+    """
+    values = _arrow_text(series)
+    if values is None or values.null_count or len(values) < 2:
+        return None
+    if pc.any(pc.match_substring_regex(values, _NEEDS_TRIM)).as_py():
+        return None
+    by_name = pc.sort_indices(values)
+    in_order = values.take(by_name)
+    if pc.any(pc.equal(in_order[1:], in_order[:-1])).as_py():
+        return None
+    rank = np.empty(len(values), dtype=_CODE)
+    rank[by_name.to_numpy()] = np.arange(len(values), dtype=_CODE)
+    return np.arange(len(values), dtype=_CODE), values.to_pylist(), rank
+
+
+def _trimmed(series: pd.Series) -> pd.Series:
+    """A text column cleaned as :func:`clean_text` does, with a fresh index; only the rows
+    that need it are touched (for columns of mostly distinct values: players, titles)."""
+    values = _arrow_text(series)
+    if values is None:
+        return _cleaned(series).reset_index(drop=True)
+    values = pc.fill_null(values, "")
+    flagged = np.flatnonzero(pc.match_substring_regex(values, _NEEDS_TRIM).to_numpy(zero_copy_only=False))
+    out = pd.Series(values.to_pandas(), dtype="str")
+    if flagged.size:
+        out.iloc[flagged] = [clean_text(v) for v in out.iloc[flagged].tolist()]
+    return out
+
+
+def _in_order(deck: np.ndarray, card: np.ndarray) -> bool:
+    """True when rows go by deck and, within a deck, by card, each card once."""
+    if deck.size < 2:
+        return True
+    step = np.diff(deck)
+    return bool((step >= 0).all() and ((step > 0) | (np.diff(card) > 0)).all())
+
+
+def _row_deck_codes(ids: pd.Series, deck_ids: pd.Series, deck_codes: np.ndarray,
+                    deck_names: list[str]) -> tuple[np.ndarray, list[str], bool]:
+    """Codes of the card rows' deck ids and their names, and whether those are the deck
+    table's own (``deck_codes`` and ``deck_names``).
+
+    They are when the categories are the deck table's ids, in its order (the
+    reader's usual result): the million ids are then not listed, cleaned and
+    looked up a second time.
+    """
+    if isinstance(ids.dtype, pd.CategoricalDtype):
+        categories, codes = ids.cat.categories, ids.array.codes
+        if len(categories) == len(deck_ids) and categories.equals(pd.Index(deck_ids)) and not (codes < 0).any():
+            return np.asarray(deck_codes, dtype=_CODE)[codes], deck_names, True
+    codes, names = _codes(ids)
+    return codes, names, names == deck_names
+
+
+def _as_written(table: Table, values: np.ndarray) -> list:
+    """Values to quote in messages: a CSV cell is text, even when it was read as a number."""
+    if Path(table.file).suffix.lower() in CSV_SUFFIXES:
+        return [str(v) for v in values.tolist()]
+    return values.tolist()
+
+
+def _empty_code(names: list[str]) -> int | None:
+    """The code of the empty name among distinct ``names``, if there is one."""
+    try:
+        return names.index("")
+    except ValueError:
+        return None
+
+
+def _named(names: list[str], empty: int | None) -> np.ndarray:
+    """True for each distinct name but the empty one."""
+    out = np.ones(len(names), dtype=bool)
+    if empty is not None:
+        out[empty] = False
+    return out
 
 
 def _first_positions(codes: np.ndarray, wanted: np.ndarray) -> dict[int, int]:
@@ -348,13 +434,14 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     cards_file = cards.file
 
     # -- deck table
-    deck_codes, deck_names = _codes(frame["deck_id"])
+    distinct = _distinct_codes(frame["deck_id"])
+    deck_codes, deck_names, deck_rank = distinct if distinct is not None else (*_codes(frame["deck_id"]), None)
     n_decks = len(frame)
-    empty_id = [i for i, name in enumerate(deck_names) if not name]
-    if empty_id:
-        problems.flag(decks, np.flatnonzero(np.isin(deck_codes, empty_id)), "deck id is empty", column="deck_id",
+    empty_id = _empty_code(deck_names)
+    if empty_id is not None:
+        problems.flag(decks, np.flatnonzero(deck_codes == empty_id), "deck id is empty", column="deck_id",
                       fix="give every deck an id")
-    named = np.array([bool(n) for n in deck_names], dtype=bool)
+    named = _named(deck_names, empty_id)
     seen = pd.Series(deck_codes).duplicated().to_numpy() & named[deck_codes]
     if seen.any():
         dup = np.flatnonzero(seen)
@@ -407,29 +494,30 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         if column in frame:
             values, bad = parse_counts(frame[column], positive=False)
             problems.flag(decks, bad, f"{column} is not a whole number of 0 or more", column=column,
-                          values=frame[column].to_numpy()[bad[:ERRORS_PER_PROBLEM]], fix="write a count like 3, or leave it empty")
+                          values=_as_written(decks, frame[column].to_numpy()[bad[:ERRORS_PER_PROBLEM]]),
+                          fix="write a count like 3, or leave it empty")
             results[column] = values.reset_index(drop=True)
         else:
             results[column] = pd.Series(pd.array([pd.NA] * n_decks, dtype="Int64"))
     extras = {}
     for column in ("event", "player", "title"):
         if column in frame:
-            text = _cleaned(frame[column])
+            text = _trimmed(frame[column])
             extras[column] = text.where(text != "")
         else:
             extras[column] = pd.Series([np.nan] * n_decks, dtype="str")
 
     # -- long-form table
     cframe = cards.frame
-    cdeck_codes, cdeck_names = _codes(cframe["deck_id"])
+    cdeck_codes, cdeck_names, same_decks = _row_deck_codes(cframe["deck_id"], frame["deck_id"], deck_codes, deck_names)
     card_codes, card_names = _codes(cframe["card"])
     empty_card = [i for i, name in enumerate(card_names) if not name]
     if empty_card:
         problems.flag(cards, np.flatnonzero(np.isin(card_codes, empty_card)), "card name is empty", column="card",
                       fix="fill in the card's name, or delete the row")
-    empty_cdeck = [i for i, name in enumerate(cdeck_names) if not name]
-    if empty_cdeck:
-        problems.flag(cards, np.flatnonzero(np.isin(cdeck_codes, empty_cdeck)), "deck id is empty", column="deck_id",
+    empty_cdeck = _empty_code(cdeck_names)
+    if empty_cdeck is not None:
+        problems.flag(cards, np.flatnonzero(cdeck_codes == empty_cdeck), "deck id is empty", column="deck_id",
                       fix="give every row the id of its deck")
     raw_quantity = cframe["quantity"]
     if isinstance(raw_quantity.dtype, np.dtype) and raw_quantity.dtype.kind in "iu":
@@ -442,13 +530,15 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         quantity = parsed.to_numpy(dtype=np.int64, na_value=0)
         del parsed
     problems.flag(cards, bad, "quantity is not a whole number of 1 or more", column="quantity",
-                  values=cframe["quantity"].to_numpy()[bad[:ERRORS_PER_PROBLEM]],
+                  values=_as_written(cards, cframe["quantity"].to_numpy()[bad[:ERRORS_PER_PROBLEM]]),
                   fix="write the number of copies, like 2 (delete rows of cards the deck does not play)")
 
     # Decks known to one table and not the other, both directions.
-    deck_index = pd.Index(deck_names)
-    where_in_decks = deck_index.get_indexer(cdeck_names)
-    orphan_codes = np.flatnonzero((where_in_decks < 0) & np.array([bool(n) for n in cdeck_names], dtype=bool))
+    if same_decks:
+        where_in_decks = np.arange(len(deck_names), dtype=np.intp)
+    else:
+        where_in_decks = pd.Index(deck_names).get_indexer(cdeck_names)
+    orphan_codes = np.flatnonzero((where_in_decks < 0) & _named(cdeck_names, empty_cdeck))
     if orphan_codes.size:
         first = _first_positions(cdeck_codes, orphan_codes)
         pos = np.array(sorted(first.values()), dtype=np.int64)
@@ -456,7 +546,10 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
                       values=[cdeck_names[cdeck_codes[p]] for p in pos[:ERRORS_PER_PROBLEM]],
                       fix="add the deck to the deck table, or correct the id")
     used = np.zeros(len(deck_names), dtype=bool)
-    used[where_in_decks[where_in_decks >= 0]] = True
+    if same_decks:
+        used[cdeck_codes] = True  # the codes may not use every name
+    else:
+        used[where_in_decks[where_in_decks >= 0]] = True
     if not used.all():
         lonely = [i for i in np.flatnonzero(~used) if deck_names[i]]
         first = _first_positions(deck_codes, np.array(lonely, dtype=np.int64))
@@ -466,16 +559,22 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
                       fix="add its cards to the long-form table, or delete the deck's row")
 
     # Sort by deck id then card (codes ranked by the names' sort order).
-    deck_rank = _rank(deck_names)
+    if deck_rank is None:
+        deck_rank = _rank(deck_names)
     card_rank = _rank(card_names)
-    key = _rank(cdeck_names)[cdeck_codes].astype(np.int64)  # in place from here: one 8-byte array, not three
-    key *= max(len(card_names), 1)
-    key += card_rank[card_codes]
-    order = _argsort(key)
-    in_order = order is None  # the usual case: the table is grouped by deck and sorted by card already
-    sorted_key = key if in_order else key[order]
-    same = np.flatnonzero(sorted_key[1:] == sorted_key[:-1]) + 1
-    del sorted_key
+    row_deck = (deck_rank if same_decks else _rank(cdeck_names))[cdeck_codes]
+    if _in_order(row_deck, card_rank[card_codes]):
+        # The usual case: grouped by deck and sorted by card already, so no row repeats another.
+        order, in_order, same = None, True, np.array([], dtype=np.int64)
+    else:
+        key = row_deck.astype(np.int64)  # in place from here: one 8-byte array, not three
+        key *= max(len(card_names), 1)
+        key += card_rank[card_codes]
+        order = _argsort(key)
+        in_order = order is None
+        sorted_key = key if in_order else key[order]
+        same = np.flatnonzero(sorted_key[1:] == sorted_key[:-1]) + 1
+        del sorted_key
     if same.size:
         # Only now pay for a stable sort: within equal keys, file order; name the previous row of the pair.
         order = _argsort(key, stable=True)
@@ -528,7 +627,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
 
     # -- assemble
     leader = pd.Series(np.asarray(leader_canon, dtype=object)[leader_codes], dtype="str")
-    present = set(season.tolist())
+    present = set(season.unique().tolist())
     first_date: dict[str, pd.Timestamp] = {}
     if dates is not None and dates.notna().any():
         first_date = {str(k): v for k, v in dates.groupby(season.to_numpy()).min().dropna().items()}
@@ -549,7 +648,8 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     deck_row, card_code = cdeck_codes, card_codes
     if not in_order:
         qty, deck_row, card_code = qty[order], deck_row[order], card_code[order]
-    deck_row = deck_rank[where_in_decks][deck_row]
+    deck_row = row_deck if same_decks and in_order else deck_rank[where_in_decks][deck_row]
+    del row_deck
     card_list = sorted(set(canonical))
     card_code = pd.Index(card_list).get_indexer(canonical).astype(_CODE)[card_code]
     if any(c != n for c, n in zip(canonical, card_names)):
@@ -562,8 +662,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         if qty.size < before:
             findings.append(added_up_finding(before - qty.size))
     cards_out = pd.DataFrame(copy=False, data={
-        "deck_id": pd.Categorical.from_codes(deck_row.astype(np.int32, copy=False), validate=False,
-                                             categories=pd.Index(decks_out["deck_id"].to_numpy(dtype=object), dtype="str")),
+        "deck_id": coded(deck_row.astype(np.int32, copy=False), pd.Index(decks_out["deck_id"], dtype="str")),
         "card": pd.Categorical.from_codes(card_code.astype(np.int32, copy=False), categories=pd.Index(card_list, dtype="str"),
                                           validate=False),
         "quantity": qty,

@@ -24,6 +24,7 @@ import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 
 from ..errors import DataError, DataErrors
+from ..model import coded
 from .origin import Origin, TableOrigin
 
 CSV_SUFFIXES = (".csv",)
@@ -85,6 +86,7 @@ def read_table(
     numeric: frozenset[str] = frozenset(),
     categorical: frozenset[str] = frozenset(),
     all_columns: bool = False,
+    deck_ids: pd.Series | None = None,
 ) -> Table:
     """Read the columns a stage needs from one table file.
 
@@ -97,7 +99,9 @@ def read_table(
     dictionary-encoded and come back as pandas categoricals, which costs a
     fraction of the time and memory of one string per row. With
     ``all_columns`` every further column is kept under its own name (the
-    card table).
+    card table). ``deck_ids``, the deck table's ids as read, is a guess at a
+    categorical deck_id column's categories: when its rows come grouped by
+    deck in that order, the guess is confirmed without hashing the ids again.
     """
     _check_file(path, setting)
     optional = optional or {}
@@ -127,7 +131,8 @@ def read_table(
                 while name in wanted:
                     name = f"{name}_extra"
                 wanted[name] = raw
-    frame = reader(path, wanted, numeric, frozenset(wanted[c] for c in categorical if c in wanted))
+    guess = {wanted["deck_id"]: deck_ids} if deck_ids is not None and "deck_id" in categorical and "deck_id" in wanted else {}
+    frame = reader(path, wanted, numeric, frozenset(wanted[c] for c in categorical if c in wanted), guess)
     if len(frame) == 0:
         raise DataError(path, "header only, no rows", row=2,
                         fix="add one row per deck (or card) under the header")
@@ -223,26 +228,51 @@ _DICTIONARY = pa.dictionary(pa.int32(), pa.string())
 
 
 def _read_csv(path: Path, wanted: dict[str, str], numeric: frozenset[str],
-              categorical: frozenset[str] = frozenset()) -> pd.DataFrame:
+              categorical: frozenset[str] = frozenset(), guess: dict[str, pd.Series] | None = None) -> pd.DataFrame:
     raw_names = list(dict.fromkeys(wanted.values()))
+    # Numbers are parsed by pyarrow when every cell is a plain whole number or empty; otherwise the
+    # file is read again as text, and the rows to blame are found where they can be named.
+    whole = [wanted[c] for c in numeric if c in wanted]
     try:
-        table = pacsv.read_csv(
-            path,
-            # Without any quote character no value can hold a newline, and pyarrow may then
-            # split the file into blocks at any newline (several times faster on big files).
-            parse_options=pacsv.ParseOptions(newlines_in_values=_has_quote(path)),
-            convert_options=pacsv.ConvertOptions(
-                include_columns=raw_names,
-                column_types={name: _DICTIONARY if name in categorical else pa.string() for name in raw_names},
-                strings_can_be_null=False,
-                quoted_strings_can_be_null=False,
-            ),
-        )
-        frame = table.to_pandas()
+        try:
+            table = _arrow_csv(path, raw_names, categorical, frozenset(whole))
+        except (pa.ArrowInvalid, pa.ArrowException, ValueError, OSError):
+            if not whole:
+                raise
+            table = _arrow_csv(path, raw_names, categorical, frozenset())
+        for name in whole:
+            if name in table.column_names and table.column(name).null_count:
+                # Empty cells: back to text, so they are told apart from bad values where rows are checked.
+                column = pc.fill_null(pc.cast(table.column(name), pa.string()), "")
+                table = table.set_column(table.column_names.index(name), name, column)
+        kept = [name for name in table.column_names if name not in categorical]
+        frame = table.select(kept).to_pandas()
+        for name in table.column_names:
+            if name in categorical:
+                frame[name] = _as_categories(table.column(name), (guess or {}).get(name))
+        del table
     except (pa.ArrowInvalid, pa.ArrowException, ValueError, OSError) as exc:
         frame = _read_csv_slow(path, raw_names, str(exc))
     out = pd.DataFrame({logical: frame[raw] for logical, raw in wanted.items()})
     return out
+
+
+def _arrow_csv(path: Path, raw_names: list[str], categorical: frozenset[str], whole: frozenset[str]) -> pa.Table:
+    def kind(name: str) -> pa.DataType:
+        return _DICTIONARY if name in categorical else pa.int64() if name in whole else pa.string()
+
+    return pacsv.read_csv(
+        path,
+        # Without any quote character no value can hold a newline, and pyarrow may then
+        # split the file into blocks at any newline (several times faster on big files).
+        parse_options=pacsv.ParseOptions(newlines_in_values=_has_quote(path)),
+        convert_options=pacsv.ConvertOptions(
+            include_columns=raw_names,
+            column_types={name: kind(name) for name in raw_names},
+            strings_can_be_null=False,
+            quoted_strings_can_be_null=False,
+        ),
+    )
 
 
 def _has_quote(path: Path) -> bool:
@@ -311,7 +341,7 @@ def _parquet_header(path: Path) -> list[str]:
 
 
 def _read_parquet(path: Path, wanted: dict[str, str], numeric: frozenset[str],
-                  categorical: frozenset[str] = frozenset()) -> pd.DataFrame:
+                  categorical: frozenset[str] = frozenset(), guess: dict[str, pd.Series] | None = None) -> pd.DataFrame:
     raw_names = list(dict.fromkeys(wanted.values()))
     try:
         schema = pq.ParquetFile(path).schema_arrow
@@ -328,23 +358,79 @@ def _read_parquet(path: Path, wanted: dict[str, str], numeric: frozenset[str],
         if logical in numeric and (pa.types.is_integer(kind) or pa.types.is_floating(kind)):
             out[logical] = column.to_pandas()
             continue
-        out[logical] = _as_categories(column) if raw in categorical else _as_text(column)
+        out[logical] = _as_categories(column, (guess or {}).get(raw)) if raw in categorical else _as_text(column)
     frame = pd.DataFrame(out, copy=False)
     del table, column, out
     pa.default_memory_pool().release_unused()  # Arrow's allocator keeps freed memory otherwise
     return frame
 
 
-def _as_categories(column: pa.ChunkedArray) -> pd.Series:
-    """A text column as a pandas categorical of its distinct values: nulls become ''."""
+def _as_categories(column: pa.ChunkedArray, guess: pd.Series | None = None) -> pd.Series:
+    """A text column as a pandas categorical of its distinct values: nulls become ''.
+    ``guess``: the categories it probably has, in order (see :func:`read_table`)."""
     if not (pa.types.is_dictionary(column.type) and pa.types.is_string(column.type.value_type)):
         return pd.Series(pd.Categorical(_as_text(column)))
+    runs = _runs_as_categories(column, guess)
+    if runs is not None:
+        return runs
     series = pd.Series(column.unify_dictionaries().to_pandas() if column.num_chunks > 1 else column.to_pandas())
     if series.isna().any():
         if "" not in series.cat.categories:
             series = series.cat.add_categories([""])
         series = series.fillna("")
     return series
+
+
+def _runs_as_categories(column: pa.ChunkedArray, guess: pd.Series | None = None) -> pd.Series | None:
+    """A dictionary column whose equal values sit in runs (a long table grouped by deck) as a
+    categorical, or None when it has nulls or few runs.
+
+    Each chunk (row group) has a dictionary of its own. Unifying them hashes
+    every chunk's values, and a deck id sits in one or two chunks only, so
+    hashing the first value of each run, once, does the same work several
+    times faster. Categories are in order of first appearance. When the
+    runs' first values are exactly ``guess`` (the deck table's ids, in its
+    order), nothing is hashed: ``guess`` is the categories.
+    """
+    if len(column) < 100_000 or column.null_count:
+        return None
+    heads, lengths = [], []
+    for chunk in column.chunks:
+        if len(chunk) == 0:
+            continue
+        if chunk.dictionary.null_count:
+            return None
+        index = chunk.indices.to_numpy(zero_copy_only=False)
+        starts = np.flatnonzero(np.concatenate(([True], index[1:] != index[:-1])))
+        if starts.size > max(index.size // 4, 1000):
+            return None  # not in runs (card names): the usual unification is the cheaper
+        heads.append(chunk.dictionary.take(pa.array(index[starts])).cast(pa.string()))
+        lengths.append(np.diff(np.append(starts, index.size)))
+    heads = pa.concat_arrays(heads)
+    lengths = np.concatenate(lengths)
+    # A run cut by a chunk boundary starts again in the next chunk: join the two.
+    new_run = np.concatenate(([True], pc.not_equal(heads[1:], heads[:-1]).to_numpy(zero_copy_only=False)))
+    if not new_run.all():
+        starts = np.flatnonzero(new_run)
+        heads, lengths = heads.filter(pa.array(new_run)), np.add.reduceat(lengths, starts)
+    if guess is not None and len(guess) == len(heads):
+        expected = _arrow_text(guess)
+        if expected is not None and heads.equals(expected):
+            return pd.Series(coded(np.repeat(np.arange(len(heads), dtype=np.int32), lengths),
+                                   pd.Index(guess, dtype="str")))
+    encoded = pc.dictionary_encode(heads)
+    codes = np.repeat(encoded.indices.to_numpy(zero_copy_only=False).astype(np.int32, copy=False),
+                      lengths)
+    return pd.Series(coded(codes, pd.Index(encoded.dictionary.to_pandas(), dtype="str")))
+
+
+def _arrow_text(series: pd.Series) -> pa.Array | None:
+    """A text column as one Arrow string array (no copy for Arrow-backed text), or None."""
+    try:
+        array = pa.chunked_array(series.array.__arrow_array__()).combine_chunks()
+    except (AttributeError, TypeError, pa.ArrowException):
+        return None
+    return array.cast(pa.string()) if pa.types.is_large_string(array.type) else array
 
 
 def _as_text(column: pa.ChunkedArray) -> pd.Series:
