@@ -1,0 +1,125 @@
+"""Large long-form tables: the fast paths taken at scale give what pandas and pyarrow give.
+
+Tables of 150 000 card rows are planted here (invented names). Past 100 000
+rows the reader takes a long table's deck ids by their runs, confirms the
+deck table's order instead of hashing the ids again, and the splitter cuts
+partitions by each deck's run of rows. Each check compares with pyarrow
+reading the same file, or with pandas sorting and grouping the same rows.
+"""
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+
+from sitegen.load import load_data
+from sitegen.load.tables import read_table
+from sitegen.partitions import split
+
+from _load_helpers import config
+
+DECKS, CARDS_PER_DECK, POOL = 6000, 25, 400
+
+
+def _planted(seed: int = 0) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """6 000 decks of 25 distinct cards each (150 000 rows), grouped by deck, cards by name."""
+    rng = np.random.default_rng(seed)
+    pool = np.array([f"Card {i:03d}" for i in range(POOL)])
+    ids = np.array([f"d{i:05d}" for i in range(DECKS)])
+    decks = pd.DataFrame({"deck_id": ids, "season": np.where(np.arange(DECKS) % 3 == 0, "Season 1", "Season 2"),
+                          "leader": np.where(np.arange(DECKS) % 2 == 0, "Vessa", "Orm")})
+    picks = np.sort(np.argsort(rng.random((DECKS, POOL)), axis=1)[:, :CARDS_PER_DECK], axis=1)
+    cards = pd.DataFrame({"deck_id": np.repeat(ids, CARDS_PER_DECK), "card": pool[picks.ravel()],
+                          "quantity": rng.integers(1, 4, DECKS * CARDS_PER_DECK)})
+    return decks, cards
+
+
+def _write(tmp_path, decks: pd.DataFrame, cards: pd.DataFrame, fmt: str = "parquet"):
+    decks.to_csv(tmp_path / "decks.csv", index=False)
+    if fmt == "parquet":
+        # Small row groups: many deck runs are cut by a row group's end and go on in the next.
+        pq.write_table(pa.Table.from_pandas(cards, preserve_index=False), tmp_path / "deck_cards.parquet",
+                       row_group_size=7_001)
+        name = "deck_cards.parquet"
+    else:
+        cards.to_csv(tmp_path / "deck_cards.csv", index=False)
+        name = "deck_cards.csv"
+    return config(tmp_path, data={"decks": "decks.csv", "deck_cards": name})
+
+
+def _read_cards(path, deck_ids=None) -> pd.DataFrame:
+    return read_table(path, setting="data.deck_cards", required={"deck_id": "deck_id", "card": "card",
+                                                                "quantity": "quantity"},
+                      numeric=frozenset({"quantity"}), categorical=frozenset({"deck_id", "card"}),
+                      deck_ids=deck_ids).frame
+
+
+@pytest.mark.parametrize("guess", ["deck table order", "other order", "none"])
+def test_deck_ids_read_by_runs_equal_pyarrow(tmp_path, guess):
+    # Reference: pyarrow reading the same file without dictionaries; the categories must be distinct.
+    decks, cards = _planted()
+    _write(tmp_path, decks, cards)
+    ids = {"deck table order": decks["deck_id"], "other order": decks["deck_id"][::-1].reset_index(drop=True),
+           "none": None}[guess]
+    frame = _read_cards(tmp_path / "deck_cards.parquet", None if ids is None else pd.Series(ids, dtype="str"))
+    reference = pq.read_table(tmp_path / "deck_cards.parquet")
+    assert frame["deck_id"].astype(str).tolist() == reference.column("deck_id").to_pylist()
+    assert frame["card"].astype(str).tolist() == reference.column("card").to_pylist()
+    assert frame["deck_id"].cat.categories.is_unique
+    if guess == "deck table order":
+        assert frame["deck_id"].cat.categories.tolist() == decks["deck_id"].tolist()
+
+
+def test_deck_ids_not_in_runs_equal_pyarrow(tmp_path):
+    # Rows shuffled, so no deck's rows sit together: the reader falls back; pyarrow is the reference.
+    decks, cards = _planted(1)
+    cards = cards.sample(frac=1.0, random_state=3).reset_index(drop=True)
+    _write(tmp_path, decks, cards)
+    frame = _read_cards(tmp_path / "deck_cards.parquet", pd.Series(decks["deck_id"], dtype="str"))
+    assert frame["deck_id"].astype(str).tolist() == pq.read_table(tmp_path / "deck_cards.parquet").column("deck_id").to_pylist()
+
+
+def _reference_rows(decks: pd.DataFrame, cards: pd.DataFrame) -> pd.DataFrame:
+    """The card rows as DeckData documents them, by pandas alone: sorted by deck id, then card."""
+    return cards.sort_values(["deck_id", "card"], kind="stable").reset_index(drop=True)
+
+
+@pytest.mark.parametrize("layout", ["parquet", "csv", "parquet shuffled", "decks in another order"])
+def test_large_load_equals_pandas_sorting(tmp_path, layout):
+    # Reference: pandas sort_values of the planted rows (DeckData's documented order, sitegen/model.py).
+    decks, cards = _planted(2)
+    if layout == "parquet shuffled":
+        cards = cards.sample(frac=1.0, random_state=5).reset_index(drop=True)
+    if layout == "decks in another order":
+        decks = decks.sample(frac=1.0, random_state=7).reset_index(drop=True)
+    data = load_data(_write(tmp_path, decks, cards, "csv" if layout == "csv" else "parquet"))
+    expected = _reference_rows(decks, cards)
+    got = data.cards
+    assert got["deck_id"].astype(str).tolist() == expected["deck_id"].tolist()
+    assert got["card"].astype(str).tolist() == expected["card"].tolist()
+    assert got["quantity"].tolist() == expected["quantity"].tolist()
+    # A deck's code is its row of the deck table, which is sorted by id.
+    assert data.decks["deck_id"].tolist() == sorted(decks["deck_id"])
+    assert (data.decks["deck_id"].to_numpy()[got["deck_id"].cat.codes.to_numpy()] == expected["deck_id"].to_numpy()).all()
+
+
+@pytest.mark.parametrize("shuffled", [False, True])
+def test_large_split_equals_pandas_grouping(tmp_path, shuffled):
+    # Reference: pandas merge and groupby of the planted rows by season and leader.
+    decks, cards = _planted(4)
+    if shuffled:
+        cards = cards.sample(frac=1.0, random_state=9).reset_index(drop=True)
+    cfg = _write(tmp_path, decks, cards)
+    data = load_data(cfg)
+    parts = split(data, cfg)
+    merged = _reference_rows(decks, cards).merge(decks, on="deck_id")
+    groups = {key: g for key, g in merged.groupby(["season", "leader"], sort=True)}
+    assert [(p.season, p.leader) for p in parts] == sorted(groups)
+    for p in parts:
+        g = groups[(p.season, p.leader)]
+        assert p.decks["deck_id"].tolist() == sorted(g["deck_id"].unique())
+        got = p.cards.assign(deck_id=p.cards["deck_id"].astype(str), card=p.cards["card"].astype(str))
+        assert got.values.tolist() == g[["deck_id", "card", "quantity"]].values.tolist()
+        assert list(p.cards["deck_id"].cat.categories) == p.decks["deck_id"].tolist()
