@@ -9,7 +9,8 @@ For one data set it measures, each in a fresh child process so peak memory
 is that of the measured work alone: (a) sitegen's full build from an empty
 cache, (b) the notebook method (bench/notebook.py) on the same partitions,
 (c) a rebuild with nothing changed, (d) a rebuild after one season's data
-changed; plus loading to the weighted matrix (Parquet and CSV) and exact
+changed; with ``--folder``, (e) a full build of the same data as a season
+folder and (f) its rebuild after one season's files changed; plus loading to the weighted matrix (Parquet and CSV) and exact
 medoids. It prints per-stage times, peak memory, the adjusted Rand index of
 both methods against the planted truth, and the ratios. It is a benchmark,
 not a test: nothing here asserts a time.
@@ -58,6 +59,7 @@ def child_build(config: str, out: str, cache: str, workers: int) -> dict:
     report = build(cfg=cfg, quiet=True, workers=workers)
     took = time.perf_counter() - t
     return {"seconds": took, "timings": report.timings, "analysed": len(report.run.analysed),
+            "unread": len(report.run.seasons_unread),
             "cached": len(report.run.cached), "archetypes": report.archetypes, **_peak_mb()}
 
 
@@ -199,7 +201,8 @@ def write_config(data: Path, work: Path, fmt: str = "parquet") -> Path:
 
 
 def write_folder(data: Path, work: Path) -> Path:
-    """The data as a season folder (season=NAME/decks.parquet, deck_cards.parquet) and its config."""
+    """The data as a season folder (season=NAME/decks.parquet, deck_cards.parquet), copied to a
+    scratch folder of its own (a later step changes one season there), and its config."""
     import pandas as pd
     import pyarrow.parquet as pq
 
@@ -216,11 +219,26 @@ def write_folder(data: Path, work: Path) -> Path:
             part.drop(columns=["season"]).to_parquet(d / "decks.parquet", index=False)
             cards[card_season == season].to_parquet(d / "deck_cards.parquet", index=False)
         (folder / ".complete").write_text("")
+    run = work / "season-folder"
+    shutil.rmtree(run, ignore_errors=True)
+    shutil.copytree(folder, run, ignore=shutil.ignore_patterns(".complete"))
     cfg = work / "site-folder.toml"
     cfg.write_text("[site]\ntitle = \"Benchmark\"\n"
-                   f"[data]\nparquet_folder = {json.dumps(str(folder))}\ncards = {json.dumps(str(data / 'cards.csv'))}\n",
+                   f"[data]\nparquet_folder = {json.dumps(str(run))}\ncards = {json.dumps(str(data / 'cards.csv'))}\n",
                    encoding="utf-8")
     return cfg
+
+
+def change_one_folder_season(work: Path) -> None:
+    """In the scratch season folder, a few decks of the last season play one card fewer (as (d))."""
+    import pandas as pd
+
+    path = sorted((work / "season-folder").glob("season=*"))[-1] / "deck_cards.parquet"
+    cards = pd.read_parquet(path)
+    victims = set(pd.unique(cards["deck_id"])[:25])
+    first_row = cards[cards["deck_id"].isin(victims)].groupby("deck_id").head(1).index
+    cards.loc[first_row, "quantity"] = cards.loc[first_row, "quantity"].clip(lower=2) - 1
+    cards.to_parquet(path, index=False)
 
 
 def change_one_season(data: Path, work: Path) -> Path:
@@ -323,6 +341,10 @@ def main(argv: list[str] | None = None) -> int:
                                    str(args.workers)])
         same = _tree_digest(work / "site-folder") == _tree_digest(site_before_change)
         print(f"(e) season-folder full build {folder_build['seconds']:.1f} s", flush=True)
+        change_one_folder_season(work)
+        folder_one = _run_child(["build", str(folder_cfg), str(work / "site-folder"), str(work / "cache-folder"),
+                                 str(args.workers)])
+        print(f"(f) season folder, one season changed {folder_one['seconds']:.1f} s", flush=True)
 
     nb = None
     if not args.no_notebook:
@@ -350,6 +372,9 @@ def main(argv: list[str] | None = None) -> int:
                      f"{folder_build['seconds']:.1f} s, peak {folder_build['peak_mb']:.0f} MB "
                      f"(largest worker {folder_build['peak_worker_mb']:.0f} MB); "
                      f"site {'identical to' if same else 'DIFFERENT from'} (a)'s"))
+        rows.append(("(f) same, one season changed", f"{folder_one['seconds']:.1f} s, {folder_one['analysed']} partitions "
+                     f"analysed, {folder_one['unread']} seasons not read again, "
+                     f"{folder_one['seconds'] / folder_build['seconds']:.0%} of (e)"))
     if nb:
         partial = "" if args.notebook_partitions is None else f" (first {nb['partitions_done']} partitions only)"
         rows += [

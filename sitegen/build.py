@@ -138,7 +138,7 @@ def build(
             if data is not None:
                 data, results, run = _analyse_tables(data, cfg, runs, progress)
             else:
-                data, results, run = _analyse_folder(folder, cfg, runs, progress)
+                data, results, run = _analyse_folder(folder, cfg, runs, cache, progress)
             if data.excluded:
                 progress.say(f"  {len(data.excluded):,} deck(s) break a rule and are left out")
             with progress.stage("drawing maps"):
@@ -193,24 +193,53 @@ def _analyse_tables(data, cfg: Config, runs, progress: Progress):
     return data, results, run
 
 
-def _analyse_folder(folder, cfg: Config, runs, progress: Progress):
-    """Read, check, split and analyse a season folder one season at a time (see load/folder.py)."""
+def _analyse_folder(folder, cfg: Config, runs, cache, progress: Progress):
+    """Read, check, split and analyse a season folder one season at a time (see load/folder.py).
+    A season whose files did not change since the last build is not read: the cache holds
+    its record and its partitions' results."""
+    from .load.folder import SeasonMemo
+    from .model import SeasonRecord
     from .partitions import split
 
+    memo = SeasonMemo(cache, _record_salt(cfg, runs.version), runs.add_known) if cache is not None else None
     with progress.stage("reading, checking and analysing season by season"):
-        for season in folder.seasons():
+        for season in folder.seasons(memo):
+            if isinstance(season, SeasonRecord):
+                progress.say(f"  {memo.unread[-1]}: files unchanged, not read again")
+                continue
             progress.say(f"  {season.seasons[0]}: {len(season.decks):,} decks, {len(season.cards):,} card rows")
-            started = runs.add(split(season, cfg))
-            del season
+            parts = split(season, cfg)
+            started = runs.add(parts)
+            if memo is not None:
+                memo.put(season, [(p.season, p.leader, fp) for p, fp in zip(parts, runs.fingerprints(len(parts)))])
+            del season, parts
             # The next season is read while this one is analysed; earlier ones must be done,
             # so no more than two seasons' card rows are held at once.
             runs.wait_below(started)
         results, run = runs.finish()
+    if memo is not None:
+        runs.other_keys |= memo.keys
+        run = replace(run, seasons_unread=tuple(memo.unread))
     data = folder.whole()
     # Folder order is name order; pages and season links go in publication order.
     rank = {s: i for i, s in enumerate(data.seasons)}
     results.sort(key=lambda r: (rank[r.season], r.leader))
     return data, results, run
+
+
+def _record_salt(cfg: Config, analysis_version: str) -> str:
+    """What a season record depends on besides its own files: settings, the card table,
+    and the code that reads, checks and splits (the analysis code is in ``analysis_version``)."""
+    h = hashlib.sha256(analysis_version.encode())
+    h.update(json.dumps(cfg.values, sort_keys=True, default=str).encode())
+    card_table = cfg.path("data.cards")
+    if card_table is not None and card_table.is_file():
+        st = card_table.stat()
+        h.update(f"{card_table}|{st.st_size}|{st.st_mtime_ns}".encode())
+    here = Path(__file__).resolve().parent
+    for path in sorted([here / "check.py", here / "partitions.py", *(here / "load").glob("*.py")]):
+        h.update(path.name.encode() + b"\0" + path.read_bytes())
+    return h.hexdigest()
 
 
 def _files_of(path: Path) -> list[Path]:

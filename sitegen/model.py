@@ -262,6 +262,23 @@ class History:
 
 
 @dataclass(frozen=True)
+class SeasonRecord:
+    """What one season of a season folder gave a build, kept so that the next build, while
+    the season's files are unchanged, need not read its card rows again.
+
+    ``decks``, ``findings`` and ``excluded`` are the season's checked decks,
+    findings and rule breakers; ``partitions`` is (season, leader,
+    fingerprint) of each partition it was split into, whose results are in
+    the cache under those fingerprints.
+    """
+
+    decks: pd.DataFrame
+    findings: tuple[Finding, ...]
+    excluded: frozenset[str]
+    partitions: tuple[tuple[str, str, str], ...]
+
+
+@dataclass(frozen=True)
 class RunReport:
     """Which partitions (season, leader) were analysed afresh and which came from the cache,
     and whose maps were drawn afresh (a map is redrawn when its partition or the map it
@@ -270,3 +287,5 @@ class RunReport:
     analysed: tuple[tuple[str, str], ...]
     cached: tuple[tuple[str, str], ...]
     mapped: tuple[tuple[str, str], ...] = ()
+    #: Seasons of a season folder whose card rows were not read: their files had not changed.
+    seasons_unread: tuple[str, ...] = ()

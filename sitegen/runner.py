@@ -111,6 +111,8 @@ class Analyses:
         self._inline = False
         self._forked_clean = False
         self._map_keys: set[str] = set()
+        #: Further cache keys this build used (season records), kept from pruning.
+        self.other_keys: set[str] = set()
         #: (season, leader) of every map drawn afresh by :meth:`draw_maps`.
         self.mapped: tuple[tuple[str, str], ...] = ()
 
@@ -178,6 +180,27 @@ class Analyses:
             else:
                 self._pending[self._pool.submit(analyse_partition, part, self.params)] = i
         return len(todo)
+
+    def add_known(self, partitions: Sequence[tuple[str, str, str]]) -> bool:
+        """Add partitions known by (season, leader, fingerprint) alone, all from the cache; when
+        any result is missing, add none and return False (the caller reads the rows instead)."""
+        if self.cache is None:
+            return False
+        hits = [self.cache.get(fp) for _, _, fp in partitions]
+        if any(hit is None for hit in hits):
+            return False
+        for (season, leader, fp), hit in zip(partitions, hits):
+            self._cached.append(len(self._results))
+            self._keys.append((season, leader))
+            self._fps.append(fp)
+            self._results.append(hit)
+        if partitions:
+            self.progress.say(f"  {len(partitions)} partition(s) unchanged, taken from the cache")
+        return True
+
+    def fingerprints(self, count: int) -> list[str]:
+        """The fingerprints of the last ``count`` partitions added."""
+        return self._fps[len(self._fps) - count:] if count else []
 
     def idle_pool(self) -> ProcessPoolExecutor | None:
         """The local worker pool, for chart checks once every analysis and map is done; None
@@ -251,7 +274,7 @@ class Analyses:
     @property
     def kept_keys(self) -> set[str]:
         """Every cache key this build used (results and maps): the rest may be pruned."""
-        return set(self._fps) | self._map_keys
+        return set(self._fps) | self._map_keys | self.other_keys
 
     def _start_map(self, sample, previous):
         if self.scheduler:

@@ -123,3 +123,17 @@ def test_large_split_equals_pandas_grouping(tmp_path, shuffled):
         got = p.cards.assign(deck_id=p.cards["deck_id"].astype(str), card=p.cards["card"].astype(str))
         assert got.values.tolist() == g[["deck_id", "card", "quantity"]].values.tolist()
         assert list(p.cards["deck_id"].cat.categories) == p.decks["deck_id"].tolist()
+
+
+def test_count_values_equals_pandas_value_counts(tmp_path):
+    # Reference: pandas value_counts of the same column (a missing value counted as ''), over several row groups.
+    from sitegen.load.tables import count_values
+
+    _, cards = _planted(6)
+    cards.loc[cards.index[::997], "card"] = None
+    path = tmp_path / "deck_cards.parquet"
+    pq.write_table(pa.Table.from_pandas(cards, preserve_index=False), path, row_group_size=9_999)
+    got = count_values(path, setting="data.parquet_folder", logical="card", column="card")
+    expected = cards["card"].fillna("").value_counts().to_dict()
+    assert got == expected
+    assert sum(got.values()) == len(cards)

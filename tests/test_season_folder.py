@@ -159,3 +159,62 @@ def test_a_season_folder_and_the_same_tables_share_one_cache(tmp_path):
     assert again.run.analysed == () and again.run.mapped == ()
     assert len(again.run.cached) == len(first.run.analysed)
     assert tree(tmp_path / "site-folder") == tree(tmp_path / "site-tables")
+
+
+def test_an_unchanged_season_is_not_read_again(tmp_path, monkeypatch):
+    # Planted: five seasons; then Season 4's card rows change (one deck plays another card). The rebuild
+    # reads the card rows of Season 4 only, analyses only its partitions, and writes the same site,
+    # byte for byte, as a build of the changed folder from an empty cache.
+    from _sites import tree
+
+    _five_seasons(tmp_path)
+    settings = {"analysis": {"workers": 1, "min_decks": 5}, "data": {"parquet_folder": "pq"}}
+    cfg = config(tmp_path, site={"output": "site"}, cache={"folder": "cache"}, **settings)
+    first = build(cfg=cfg, quiet=True)
+    assert first.run.seasons_unread == ()
+    changed = tmp_path / "pq" / "season=Season 4" / "deck_cards.parquet"
+    rows = pd.read_parquet(changed)
+    rows.loc[rows.index[2], "card"] = "Card 3"  # deck s4d0 played Card 0
+    rows.to_parquet(changed, index=False)
+
+    read: list[str] = []
+    real = folder_mod.read_table
+
+    def spying_read(path, **kwargs):
+        if "deck_id" in kwargs.get("categorical", ()):
+            read.append(path.parent.name)
+        return real(path, **kwargs)
+
+    monkeypatch.setattr(folder_mod, "read_table", spying_read)
+    again = build(cfg=cfg, quiet=True)
+    assert read == ["season=Season 4"]
+    assert again.run.seasons_unread == ("Season 1", "Season 2", "Season 3", "Season 5")
+    assert {season for season, _ in again.run.analysed} == {"Season 4"}
+    fresh = build(cfg=config(tmp_path, site={"output": "site-fresh"}, cache={"folder": "cache-fresh"}, **settings),
+                  quiet=True)
+    assert fresh.run.seasons_unread == ()
+    assert tree(tmp_path / "site") == tree(tmp_path / "site-fresh")
+    assert again.warnings == fresh.warnings
+
+
+def test_a_season_is_read_again_when_its_results_left_the_cache(tmp_path):
+    # Planted: after a build, every partition result is deleted from the cache (season records stay).
+    # The rebuild must read every season again rather than trust a record whose results are gone.
+    _five_seasons(tmp_path)
+    cfg = config(tmp_path, site={"output": "site"}, cache={"folder": "cache"},
+                 analysis={"workers": 1, "min_decks": 5}, data={"parquet_folder": "pq"})
+    first = build(cfg=cfg, quiet=True)
+    from sitegen.cache import Cache
+    from sitegen.model import PartitionResult
+
+    cache = Cache(tmp_path / "cache")
+    removed = 0
+    for entry in (tmp_path / "cache").glob("*.entry"):
+        if cache.get(entry.stem, PartitionResult) is not None:
+            entry.unlink()
+            removed += 1
+    assert removed == len(first.run.analysed)
+    (tmp_path / "cache" / "last-build.json").unlink()
+    again = build(cfg=cfg, quiet=True)
+    assert again.run.seasons_unread == ()
+    assert len(again.run.analysed) == len(first.run.analysed)

@@ -17,11 +17,14 @@ same spellings, the same findings in the same order.
 """
 from __future__ import annotations
 
+import hashlib
+import json
 import re
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
 from functools import partial
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 import pandas as pd
@@ -29,10 +32,15 @@ import pandas as pd
 from ..check import RULE_KINDS, check_rules
 from ..config import Config
 from ..errors import DataError, DataErrors
-from ..model import CARD_ROW_COLUMNS, DECK_COLUMNS, DeckData, Finding
+from ..model import CARD_ROW_COLUMNS, DECK_COLUMNS, DeckData, Finding, SeasonRecord
 from . import normalise
-from .tables import PARQUET_SUFFIXES, Table, read_table
+from .tables import PARQUET_SUFFIXES, Table, count_values, read_table
 
+if TYPE_CHECKING:
+    from ..cache import Cache
+
+#: Bumped when what a season record holds, or how its key is made, changes.
+RECORD_FORMAT = 1
 #: The finding a build makes when two spellings of one card sat in one deck (its count first).
 _ADDED_UP = re.compile(r"^(\d+) card row\(s\) named a card a deck already listed under another spelling")
 
@@ -114,14 +122,23 @@ class SeasonFolder:
                            numeric=frozenset({"wins", "losses"}))
         return with_season(table, files.season)
 
-    def seasons(self) -> Iterator[DeckData]:
+    def seasons(self, memo: SeasonMemo | None = None) -> Iterator[DeckData | SeasonRecord]:
         """Each season's decks and card rows, checked (rules included), in folder order.
 
-        A season with bad rows is not handed over; its errors, and those of
-        every later season, are raised together after the last season.
+        A season that ``memo`` remembers (its files and everything else its
+        reading depends on are unchanged, and the runner holds its results)
+        is not read: its record is handed over instead. A season with bad rows
+        is not handed over; its errors, and those of every later season, are
+        raised together after the last season.
         """
         errors: list[DataError] = []
         for files in self.files:
+            key = memo.key_of(files, self.spellings) if memo is not None else None
+            record = memo.take(key) if key is not None and not errors else None
+            if record is not None:
+                self._keep(record)
+                yield record
+                continue
             decks = _collect(errors, lambda: self._read_decks(files))
             cards = _collect(errors, lambda: read_table(
                 files.cards, setting="data.parquet_folder", required=self.card_columns,
@@ -138,10 +155,10 @@ class SeasonFolder:
             yield data
         _raise(errors)
 
-    def _keep(self, data: DeckData) -> None:
+    def _keep(self, data: DeckData | SeasonRecord) -> None:
         self._decks.append(data.decks)
         self._excluded.update(data.excluded)
-        if self._card_info is None:
+        if self._card_info is None and isinstance(data, DeckData):
             self._card_info = data.card_info
         for f in data.findings:
             added = _ADDED_UP.match(f.message) if f.kind == "name-variants" else None
@@ -153,6 +170,9 @@ class SeasonFolder:
     def whole(self) -> DeckData:
         """Every season's decks (no card rows: they were handed over season by season),
         findings, rule breakers and the season order, as a whole-folder read gives them."""
+        if self._card_info is None and self.card_table is not None:  # every season was remembered, none read
+            problems = normalise._Problems()
+            self._card_info, _ = normalise._card_info(self.card_table, self.cfg, problems)
         decks = pd.concat(self._decks, ignore_index=True) if self._decks else pd.DataFrame(columns=list(DECK_COLUMNS))
         decks = decks.iloc[np.argsort(normalise._rank(decks["deck_id"].tolist()), kind="stable")].reset_index(drop=True)
         findings = list(self.name_findings)
@@ -168,6 +188,54 @@ class SeasonFolder:
                               "quantity": np.zeros(0, dtype=np.int64)})[list(CARD_ROW_COLUMNS)]
         return DeckData(decks=decks, cards=empty, card_info=self._card_info, seasons=seasons,
                         findings=tuple(findings), excluded=frozenset(self._excluded))
+
+
+@dataclass
+class SeasonMemo:
+    """Season records (:class:`~sitegen.model.SeasonRecord`) kept in the cache between builds.
+
+    A record is filed under a digest of the season's two files (path, size,
+    time of last change), of the spellings decided over the whole folder,
+    and of ``salt``: the caller's digest of the settings, the card table and
+    sitegen's own code. ``take`` hands a record's partitions to the runner,
+    which takes their results from the cache or declines (one is missing):
+    only then is the season read again. ``put`` files the record of the
+    season :meth:`SeasonFolder.seasons` handed over last.
+    """
+
+    cache: Cache
+    salt: str
+    take_results: Callable[[Sequence[tuple[str, str, str]]], bool]
+    #: Seasons handed over as records, in folder order.
+    unread: list[str] = field(default_factory=list)
+    #: Every key asked for, so the build keeps those entries when it prunes the cache.
+    keys: set[str] = field(default_factory=set)
+    _last_key: str = ""
+
+    def key_of(self, files: SeasonFiles, spellings: normalise.Spellings) -> str:
+        h = hashlib.sha256(f"season-record\0{RECORD_FORMAT}\0{self.salt}\0".encode())
+        for path in (files.decks, files.cards):
+            try:
+                st = path.stat()
+                h.update(f"{path}|{st.st_size}|{st.st_mtime_ns}\n".encode())
+            except OSError:
+                h.update(f"{path}|missing\n".encode())
+        h.update(json.dumps([sorted(spellings.cards.items()), sorted(spellings.leaders.items())]).encode())
+        key = h.hexdigest()
+        self.keys.add(key)
+        self._last_key = key
+        return key
+
+    def take(self, key: str) -> SeasonRecord | None:
+        record = self.cache.get(key, SeasonRecord)
+        if record is None or not self.take_results(record.partitions):
+            return None
+        self.unread.append(str(record.decks["season"].iloc[0]) if len(record.decks) else "")
+        return record
+
+    def put(self, data: DeckData, partitions: Sequence[tuple[str, str, str]]) -> None:
+        self.cache.put(self._last_key, SeasonRecord(decks=data.decks, findings=tuple(data.findings),
+                                                    excluded=frozenset(data.excluded), partitions=tuple(partitions)))
 
 
 def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], dict[str, str]],
@@ -186,18 +254,18 @@ def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], d
     leader_counts: dict[str, int] = {}
     card_counts: dict[str, int] = {}
     first_dates: dict[str, pd.Timestamp] = {}
-    seen_ids: dict[str, tuple[int, int]] = {}  # deck id -> (season number, row position) of its first row
+    # Every deck id seen so far -> the season number and row position of its first row.
+    seen = pd.DataFrame({"season": np.zeros(0, dtype=np.int64), "row": np.zeros(0, dtype=np.int64)},
+                        index=pd.Index([], dtype=object))
     deck_tables: list[Table] = []
     for number, f in enumerate(files):
         decks = _collect(errors, lambda: read_table(f.decks, setting="data.parquet_folder", required=required,
                                                     optional=optional, numeric=frozenset({"wins", "losses"})))
-        names = _collect(errors, lambda: read_table(f.cards, setting="data.parquet_folder",
-                                                    required={"card": card_columns["card"]},
-                                                    categorical=frozenset({"card"})))
-        if names is not None:
-            codes, cards = normalise._codes(names.frame["card"])
-            for name, n in zip(cards, np.bincount(codes, minlength=len(cards)).tolist()):
-                card_counts[name] = card_counts.get(name, 0) + n
+        names = _collect(errors, lambda: count_values(f.cards, setting="data.parquet_folder", logical="card",
+                                                      column=card_columns["card"]))
+        for name, n in (names or {}).items():
+            name = normalise.clean_text(name)
+            card_counts[name] = card_counts.get(name, 0) + n
         if decks is None:
             continue
         frame = decks.frame
@@ -210,19 +278,21 @@ def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], d
             if dates.notna().any():
                 first_dates[normalise.clean_text(f.season)] = dates.min()
         codes, ids = normalise._codes(frame["deck_id"])
-        first = normalise._first_positions(codes, np.arange(len(ids)))
-        again = [(name, first[i]) for i, name in enumerate(ids) if name and name in seen_ids]
-        for name, pos in again[:normalise.ERRORS_PER_PROBLEM]:
-            other, other_pos = seen_ids[name]
+        first = np.empty(len(ids), dtype=np.int64)  # first row of each distinct id
+        first[codes[::-1]] = np.arange(len(codes) - 1, -1, -1)
+        names = pd.Index(np.asarray(ids, dtype=object))
+        found = seen.index.get_indexer(names) if len(seen) else np.full(len(names), -1)
+        named = np.asarray(names != "", dtype=bool)
+        for i in np.flatnonzero((found >= 0) & named)[:normalise.ERRORS_PER_PROBLEM].tolist():
+            other, other_pos = seen.iloc[found[i]]
             other_row = deck_tables[other].where(np.array([other_pos]), "deck_id")[0]
-            file, row = decks.where(np.array([pos]), "deck_id")[0]
+            file, row = decks.where(np.array([first[i]]), "deck_id")[0]
             errors.append(DataError(file, f"deck id is also in season {files[other].season!r} "
                                     f"({other_row[0]} row {other_row[1]})", row=row,
-                                    column=decks.names.get("deck_id", "deck_id"), value=name, has_value=True,
+                                    column=decks.names.get("deck_id", "deck_id"), value=ids[i], has_value=True,
                                     fix="give each deck one row and its own id, in the folder of its season"))
-        for i, name in enumerate(ids):
-            if name:
-                seen_ids.setdefault(name, (number, first[i]))
+        new = named & (found < 0)
+        seen = pd.concat([seen, pd.DataFrame({"season": number, "row": first[new]}, index=names[new])])
     _raise(errors)
     known = None
     if card_table is not None:

@@ -140,6 +140,34 @@ def read_table(
     return Table(str(path), frame, TableOrigin(path, is_csv=_suffix(path) in CSV_SUFFIXES), names)
 
 
+def count_values(path: Path, *, setting: str, logical: str, column: str) -> dict[str, int]:
+    """Rows per distinct value (as written; a missing value counts as '') of one text column.
+
+    A Parquet column is read dictionary-encoded and counted row group by row
+    group, never made into one value per row. Anything else (a CSV file, a
+    column that is missing or not text) goes through :func:`read_table`,
+    whose errors it raises.
+    """
+    if _suffix(path) in PARQUET_SUFFIXES:
+        _check_file(path, setting)
+        raw = {name.strip(): name for name in _parquet_header(path)}.get(column)
+        try:
+            kind = pq.ParquetFile(path).schema_arrow.field(raw).type if raw is not None else None
+            if kind is not None and (pa.types.is_string(kind) or pa.types.is_large_string(kind)):
+                counts: dict[str, int] = {}
+                for chunk in pq.read_table(path, columns=[raw], read_dictionary=[raw]).column(raw).chunks:
+                    names = chunk.dictionary.to_pylist() + [""]  # the last one stands for a missing value
+                    index = pc.fill_null(chunk.indices, len(names) - 1).to_numpy(zero_copy_only=False)
+                    for name, n in zip(names, np.bincount(index, minlength=len(names)).tolist()):
+                        if n:
+                            counts[name or ""] = counts.get(name or "", 0) + n
+                return counts
+        except Exception as exc:  # pyarrow raises several types for a corrupt file
+            raise _not_parquet(path, exc) from None
+    frame = read_table(path, setting=setting, required={logical: column}, categorical=frozenset({logical})).frame
+    return {str(k): int(v) for k, v in frame[logical].value_counts(sort=False).items() if v}
+
+
 def _setting_of(logical: str) -> str:
     return {"card": "card", "name": "card_name", "type": "card_type"}.get(logical, logical)
 
