@@ -44,6 +44,8 @@ class BuildReport:
     warnings: tuple[Finding, ...] = ()
     seconds: float = 0.0
     timings: dict[str, float] = field(default_factory=dict)
+    #: Seasons whose rows of the assignments files were copied from the last build's files.
+    copied_blocks: int = 0
 
     def summary(self) -> str:
         w = self.written
@@ -152,11 +154,13 @@ def build(
             notes = load_notes(content) if content is not None else load_notes(cfg.root / "content")
             linked, override_findings = apply_overrides(linked, notes.front_matter_by_slug())
             trends = trend_rows(linked, data.seasons, cfg["trends.min_games"])
+            blocks = _previous_blocks(cache_dir, out) if cache_dir is not None else None
             # The workers are idle while pages render: they check the charts meanwhile.
             with progress.stage("rendering pages"), checked_by(runs.idle_pool()):
                 files, render_findings = render_site(SiteInput(
                     cfg=cfg, data=data, results=tuple(linked), history=history, notes=notes,
                     findings=data.findings, templates_dirs=templates_dirs(cfg), trends=trends,
+                    export_blocks=blocks,
                 ))
         with progress.stage("writing the site"):
             written = write_site(out, files)
@@ -173,8 +177,9 @@ def build(
             warnings=warnings,
             seconds=time.perf_counter() - start,
             timings=dict(progress.timings),
+            copied_blocks=blocks.reused if blocks is not None else 0,
         )
-        _write_stamp(cache_dir, stamp, report)
+        _write_stamp(cache_dir, stamp, report, blocks.new_index if blocks is not None else [])
     return report
 
 
@@ -275,10 +280,33 @@ def _output_listing(out: Path) -> list[list]:
     return [[p.relative_to(out).as_posix(), p.stat().st_size, p.stat().st_mtime_ns] for p in _files_of(out)]
 
 
-def _write_stamp(cache_dir: Path | None, stamp: str, report: BuildReport) -> None:
+#: The assignments files whose season blocks a build may copy from the last build's (site/exports.py).
+_BLOCK_FILES = ("data/assignments.csv", "data/assignments.json")
+
+
+def _previous_blocks(cache_dir: Path, out: Path):
+    """The last build's assignments files and the index of their season blocks, when both
+    files are still as that build left them (same size and time of change); else none."""
+    from .site.exports import ExportBlocks
+
+    try:
+        record = json.loads((cache_dir / _STAMP_FILE).read_text(encoding="utf-8"))
+        listed = {path: (size, mtime) for path, size, mtime in record["output"]}
+        files = []
+        for name in _BLOCK_FILES:
+            st = (out / name).stat()
+            if listed.get(name) != (st.st_size, st.st_mtime_ns):
+                return ExportBlocks()
+            files.append((out / name).read_bytes())
+        return ExportBlocks.from_files(files[0], files[1], record.get("export_blocks", []))
+    except (OSError, ValueError, KeyError, TypeError):
+        return ExportBlocks()
+
+
+def _write_stamp(cache_dir: Path | None, stamp: str, report: BuildReport, blocks: list) -> None:
     if cache_dir is None:
         return
-    record = {"stamp": stamp, "output": _output_listing(report.output), "report": {
+    record = {"stamp": stamp, "output": _output_listing(report.output), "export_blocks": blocks, "report": {
         "decks": report.decks, "seasons": report.seasons, "leaders": report.leaders,
         "archetypes": report.archetypes, "partitions": report.partitions,
         "partition_keys": [list(k) for k in report.run.analysed + report.run.cached],

@@ -79,3 +79,55 @@ def test_assignment_exports_are_what_json_and_csv_write(seed):
     back = list(csv.reader(io.StringIO(written.decode("utf-8"), newline="")))
     assert len(back) == len(rows) + 1
     assert not any(cell.startswith(("=", "+", "-", "@")) for line in back[1:] for cell in line[:4])
+
+
+def _by_season(seed: int):
+    """The hostile tables with each result holding the decks of one season, as a partition does,
+    and each deck id once (the loader allows nothing else)."""
+    data, results, slugs = _hostile(seed)
+    data = DeckData(decks=data.decks.drop_duplicates("deck_id").reset_index(drop=True), cards=data.cards,
+                    card_info=None, seasons=data.seasons)
+    season_of = dict(zip(data.decks["deck_id"], data.decks["season"]))
+    per_season = []
+    for i, r in enumerate(results):
+        for season in sorted(set(data.decks["season"])):
+            frame = r.assignments[[season_of.get(d) == season for d in r.assignments["deck_id"]]]
+            per_season.append(types.SimpleNamespace(assignments=frame.reset_index(drop=True), archetypes=r.archetypes,
+                                                    season=season, leader=f"L{i}", fingerprint=f"fp{i}"))
+    return data, per_season, slugs
+
+
+@pytest.mark.parametrize("seed", range(12))
+def test_assignments_made_season_by_season_are_the_same_bytes(seed):
+    # Reference: the whole-table writers, themselves checked against json.dumps and csv.writer above.
+    data, results, slugs = _by_season(seed)
+    table = exports.assignment_table(data, results, slugs)
+    blocks = exports.ExportBlocks()
+    csv_file, json_file = exports._assignment_files(data, results, slugs, blocks)
+    assert csv_file == exports.assignments_csv(table)
+    assert json_file == exports.assignments_json(table)
+    # Each block's byte ranges cut the files into the seasons' rows, in file order.
+    seasons_in_file = [row["season"] for row in json.loads(json_file)]
+    assert len(blocks.new_index) == len(set(seasons_in_file))
+    header = len(csv_file.split(b"\r\n", 1)[0]) + 2 if csv_file.count(b"\r\n") > 0 else 0
+    assert blocks.new_index[0][1] == header and blocks.new_index[-1][2] == len(csv_file)
+
+
+@pytest.mark.parametrize("seed", [1, 4, 7])
+def test_unchanged_seasons_are_copied_and_the_bytes_stay_the_same(seed):
+    # Planted: a second export where one season's rows changed (a result's distances): that season's block
+    # is made again, every other block copied from the first export's files, and the bytes equal a fresh export.
+    data, results, slugs = _by_season(seed)
+    first = exports.ExportBlocks()
+    old_csv, old_json = exports._assignment_files(data, results, slugs, first)
+    changed = [r for r in results if len(r.assignments)]
+    if not changed:
+        pytest.skip("this seed assigns no deck")
+    victim = changed[0]
+    victim.assignments = victim.assignments.assign(distance=[0.5] * len(victim.assignments))
+    blocks = exports.ExportBlocks.from_files(old_csv, old_json, first.new_index)
+    csv_file, json_file = exports._assignment_files(data, results, slugs, blocks)
+    table = exports.assignment_table(data, results, slugs)
+    assert csv_file == exports.assignments_csv(table)
+    assert json_file == exports.assignments_json(table)
+    assert blocks.reused == len(first.new_index) - 1

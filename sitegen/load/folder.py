@@ -238,6 +238,34 @@ class SeasonMemo:
                                                     excluded=frozenset(data.excluded), partitions=tuple(partitions)))
 
 
+def _ids_in_two_seasons(id_lists: list[list[str]], id_places: list[tuple[np.ndarray, np.ndarray]],
+                        tables: list[Table], seasons: list[str], errors: list[DataError]) -> None:
+    """An error for each deck id (up to a page per season) found in an earlier season's table too,
+    naming both places; one pass over every id of the folder."""
+    if not id_lists:
+        return
+    names = np.concatenate([np.asarray(ids, dtype=object) for ids in id_lists])
+    table_of = np.concatenate([t for t, _ in id_places])
+    row_of = np.concatenate([r for _, r in id_places])
+    codes, _ = pd.factorize(names)
+    first = np.empty(codes.max() + 1 if codes.size else 0, dtype=np.int64)
+    first[codes[::-1]] = np.arange(codes.size - 1, -1, -1)
+    again = np.flatnonzero((first[codes] != np.arange(codes.size)) & (names != ""))
+    shown: dict[int, int] = {}
+    for i in again.tolist():
+        table = int(table_of[i])
+        if shown.get(table, 0) >= normalise.ERRORS_PER_PROBLEM:
+            continue
+        shown[table] = shown.get(table, 0) + 1
+        other = int(first[codes[i]])
+        other_file, other_row = tables[int(table_of[other])].where(np.array([row_of[other]]), "deck_id")[0]
+        file, row = tables[table].where(np.array([row_of[i]]), "deck_id")[0]
+        errors.append(DataError(file, f"deck id is also in season {seasons[int(table_of[other])]!r} "
+                                f"({other_file} row {other_row})", row=row,
+                                column=tables[table].names.get("deck_id", "deck_id"), value=names[i], has_value=True,
+                                fix="give each deck one row and its own id, in the folder of its season"))
+
+
 def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], dict[str, str]],
                 card_columns: dict[str, str], card_table: Table | None) -> SeasonFolder:
     """Read what must agree across seasons, and check it; DataErrors name every problem found."""
@@ -254,11 +282,12 @@ def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], d
     leader_counts: dict[str, int] = {}
     card_counts: dict[str, int] = {}
     first_dates: dict[str, pd.Timestamp] = {}
-    # Every deck id seen so far -> the season number and row position of its first row.
-    seen = pd.DataFrame({"season": np.zeros(0, dtype=np.int64), "row": np.zeros(0, dtype=np.int64)},
-                        index=pd.Index([], dtype=object))
+    # Each season's distinct deck ids, and for each the season's table and the row position of its first row.
+    id_lists: list[list[str]] = []
+    id_places: list[tuple[np.ndarray, np.ndarray]] = []
     deck_tables: list[Table] = []
-    for number, f in enumerate(files):
+    table_seasons: list[str] = []
+    for f in files:
         decks = _collect(errors, lambda: read_table(f.decks, setting="data.parquet_folder", required=required,
                                                     optional=optional, numeric=frozenset({"wins", "losses"})))
         names = _collect(errors, lambda: count_values(f.cards, setting="data.parquet_folder", logical="card",
@@ -270,6 +299,7 @@ def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], d
             continue
         frame = decks.frame
         deck_tables.append(Table(decks.file, frame.iloc[:0], decks.origin, decks.names))  # for row numbers only
+        table_seasons.append(f.season)
         codes, leaders = normalise._codes(frame["leader"])
         for name, n in zip(leaders, np.bincount(codes, minlength=len(leaders)).tolist()):
             leader_counts[name] = leader_counts.get(name, 0) + n
@@ -280,19 +310,9 @@ def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], d
         codes, ids = normalise._codes(frame["deck_id"])
         first = np.empty(len(ids), dtype=np.int64)  # first row of each distinct id
         first[codes[::-1]] = np.arange(len(codes) - 1, -1, -1)
-        names = pd.Index(np.asarray(ids, dtype=object))
-        found = seen.index.get_indexer(names) if len(seen) else np.full(len(names), -1)
-        named = np.asarray(names != "", dtype=bool)
-        for i in np.flatnonzero((found >= 0) & named)[:normalise.ERRORS_PER_PROBLEM].tolist():
-            other, other_pos = seen.iloc[found[i]]
-            other_row = deck_tables[other].where(np.array([other_pos]), "deck_id")[0]
-            file, row = decks.where(np.array([first[i]]), "deck_id")[0]
-            errors.append(DataError(file, f"deck id is also in season {files[other].season!r} "
-                                    f"({other_row[0]} row {other_row[1]})", row=row,
-                                    column=decks.names.get("deck_id", "deck_id"), value=ids[i], has_value=True,
-                                    fix="give each deck one row and its own id, in the folder of its season"))
-        new = named & (found < 0)
-        seen = pd.concat([seen, pd.DataFrame({"season": number, "row": first[new]}, index=names[new])])
+        id_lists.append(ids)
+        id_places.append((np.full(len(ids), len(deck_tables) - 1, dtype=np.int64), first))
+    _ids_in_two_seasons(id_lists, id_places, deck_tables, table_seasons, errors)
     _raise(errors)
     known = None
     if card_table is not None:

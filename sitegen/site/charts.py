@@ -332,7 +332,7 @@ def map_chart(result: PartitionResult, names: Mapping[str, str], chart_id: str) 
         return str(key)
 
     points = result.map_points
-    keys_seen = [str(k) for k in points["archetype"]] if len(points) else []
+    keys_seen = points["archetype"].astype(str).tolist() if len(points) else []
     order = [g.key for g in result.groups] + sorted(set(keys_seen) - set(groups))
     style = _style([(display(k), k == OTHER_KEY or (k in groups and groups[k].is_other)) for k in order])
 

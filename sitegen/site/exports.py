@@ -16,10 +16,11 @@ OWASP "CSV Injection" advice). Numbers we format ourselves are left alone.
 from __future__ import annotations
 
 import csv
+import hashlib
 import io
 import json
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field, replace
 from typing import Any, Callable, Iterable, Sequence
 
 import numpy as np
@@ -292,6 +293,13 @@ def assignments_json(table: AssignmentTable) -> bytes:
     """
     if not len(table):
         return json_bytes([])
+    return b"[\n" + _json_rows(table)[:-2] + b"\n]\n"
+
+
+def _json_rows(table: AssignmentTable) -> bytes:
+    """The rows of ``assignments.json``, each object followed by ``,\\n`` (the last one too)."""
+    if not len(table):
+        return b""
     encode = json.encoder.encode_basestring  # what json.dumps(ensure_ascii=False) writes strings with
     cols = table.columns
     pieces: list[pa.Array | str] = []
@@ -302,7 +310,7 @@ def assignments_json(table: AssignmentTable) -> bytes:
         else:
             pieces.append(cols[key].cells(lambda values: list(map(_json_number, values))))
     pieces.append("\n },\n")
-    return b"[\n" + _joined(pieces)[:-2] + b"\n]\n"
+    return _joined(pieces)
 
 
 def archetypes_doc(results: Sequence[PartitionResult], season_order: Sequence[str],
@@ -333,12 +341,93 @@ def archetypes_doc(results: Sequence[PartitionResult], season_order: Sequence[st
     return {"archetypes": archetypes, "partitions": partitions}
 
 
+#: Bumped when the bytes of an assignments block change for the same inputs.
+BLOCK_FORMAT = 1
+
+
+@dataclass
+class ExportBlocks:
+    """The assignments files season by season, as the last build wrote them.
+
+    Rows go by season first, so each file is one block of rows per season.
+    ``index`` maps a block's key (a digest of everything its rows are made
+    from) to its byte ranges in ``old_csv`` (the CSV file) and ``old_json``
+    (the JSON file's rows, each object followed by a comma and a line end);
+    a block whose key is there is copied instead of made again.
+    :func:`export_files` fills ``new_index`` with the blocks it wrote, for
+    the next build.
+    """
+
+    old_csv: bytes = b""
+    old_json: bytes = b""
+    index: dict[str, tuple[int, int, int, int]] = field(default_factory=dict)
+    new_index: list[tuple[str, int, int, int, int]] = field(default_factory=list)
+    reused: int = 0
+
+    @classmethod
+    def from_files(cls, csv_file: bytes, json_file: bytes, index: Sequence[Sequence]) -> "ExportBlocks":
+        """The blocks of a last build's two files and the ``new_index`` that build made."""
+        rows = json_file[2:-3] + b",\n" if json_file.startswith(b"[\n {") and json_file.endswith(b"\n]\n") else b""
+        return cls(old_csv=csv_file, old_json=rows, index={k: (int(a), int(b), int(c), int(d)) for k, a, b, c, d in index})
+
+
+def _block_key(season: str, decks: pd.DataFrame, results: Sequence[PartitionResult],
+               page_slugs: dict[tuple[str, str, str], str]) -> str:
+    h = hashlib.sha256(f"assignments\0{BLOCK_FORMAT}\0{season}\0".encode())
+    h.update(pd.util.hash_pandas_object(decks[["deck_id", "leader"]], index=False).to_numpy().tobytes())
+    for r in results:
+        h.update(f"\0{r.leader}\0{r.fingerprint}\0".encode())
+        h.update(json.dumps(sorted(_slug_of(r, page_slugs).items())).encode())
+        if r.assignments is not None and len(r.assignments):
+            cols = r.assignments[["deck_id", "archetype", "distance", "x", "y"]]
+            h.update(pd.util.hash_pandas_object(cols, index=False).to_numpy().tobytes())
+    return h.hexdigest()
+
+
+def _assignment_files(data: DeckData, results: Sequence[PartitionResult],
+                      page_slugs: dict[tuple[str, str, str], str], blocks: ExportBlocks | None) -> tuple[bytes, bytes]:
+    """``data/assignments.csv`` and ``.json``, one season's block of rows at a time (see :class:`ExportBlocks`)."""
+    if blocks is None:
+        table = assignment_table(data, results, page_slugs)
+        return assignments_csv(table), assignments_json(table)
+    rank = {s: i for i, s in enumerate(data.seasons)}
+    decks = data.decks
+    seasons = sorted(pd.unique(decks["season"]).tolist(), key=lambda s: (rank.get(s, len(rank)), s))
+    by_season: dict[str, list[PartitionResult]] = {}
+    for r in results:
+        by_season.setdefault(r.season, []).append(r)
+    season_codes, season_names = pd.factorize(decks["season"])
+    rows_of = {name: np.flatnonzero(season_codes == i) for i, name in enumerate(season_names)}
+    csv_parts, json_parts = [csv_bytes(ASSIGNMENT_COLUMNS, ())], []
+    csv_at, json_at = len(csv_parts[0]), 0
+    for season in seasons:
+        part = decks.iloc[rows_of[season]]
+        mine = by_season.get(season, [])
+        key = _block_key(season, part, mine, page_slugs)
+        old = blocks.index.get(key)
+        if old is not None:
+            csv_block, json_block = blocks.old_csv[old[0]:old[1]], blocks.old_json[old[2]:old[3]]
+            blocks.reused += 1
+        else:
+            table = assignment_table(replace(data, decks=part.reset_index(drop=True)), mine, page_slugs)
+            csv_block = assignments_csv(table)[len(csv_parts[0]):]
+            json_block = _json_rows(table)
+        blocks.new_index.append((key, csv_at, csv_at + len(csv_block), json_at, json_at + len(json_block)))
+        csv_parts.append(csv_block)
+        json_parts.append(json_block)
+        csv_at += len(csv_block)
+        json_at += len(json_block)
+    rows = b"".join(json_parts)
+    return b"".join(csv_parts), (b"[\n" + rows[:-2] + b"\n]\n" if rows else json_bytes([]))
+
+
 def export_files(data: DeckData, results: Sequence[PartitionResult],
-                 page_slugs: dict[tuple[str, str, str], str]) -> dict[str, bytes]:
-    """The site's ``data/`` folder: output path -> bytes."""
-    table = assignment_table(data, results, page_slugs)
+                 page_slugs: dict[tuple[str, str, str], str], blocks: ExportBlocks | None = None) -> dict[str, bytes]:
+    """The site's ``data/`` folder: output path -> bytes. With ``blocks``, the assignments
+    files are made a season at a time and unchanged seasons copied from the last build's."""
+    csv_file, json_file = _assignment_files(data, results, page_slugs, blocks)
     return {
-        "data/assignments.csv": assignments_csv(table),
-        "data/assignments.json": assignments_json(table),
+        "data/assignments.csv": csv_file,
+        "data/assignments.json": json_file,
         "data/archetypes.json": json_bytes(archetypes_doc(results, data.seasons, page_slugs)),
     }

@@ -62,6 +62,8 @@ class SiteInput:
     findings: tuple[Finding, ...]
     templates_dirs: tuple[Path, ...]
     trends: dict | None = None
+    #: The last build's assignments files by season, to copy unchanged seasons from (see exports.ExportBlocks).
+    export_blocks: exports.ExportBlocks | None = None
 
 
 # -- template environment ---------------------------------------------------
@@ -360,7 +362,7 @@ class Renderer:
         points = r.map_points
         if points is None or len(points) <= budget:
             return r
-        keep = stratified_sample([str(k) for k in points["archetype"]], budget, int(self.site.cfg["analysis.seed"]))
+        keep = stratified_sample(points["archetype"].astype(str).tolist(), budget, int(self.site.cfg["analysis.seed"]))
         return dataclasses.replace(r, map_points=points.iloc[keep].reset_index(drop=True))
 
     def _block(self, r: PartitionResult, *, with_charts: bool, with_shares: bool = False,
@@ -654,7 +656,7 @@ class Renderer:
         self.method()
         self.not_found()
         self.search()
-        self.out.update(exports.export_files(self.site.data, s.results, s.page_slug))
+        self.out.update(exports.export_files(self.site.data, s.results, s.page_slug, self.site.export_blocks))
         pages = sorted(p for p in self.out if p.endswith(".html") and p != "404.html")
         files, warns = sitemap_files(self.site.cfg["site.base_url"], pages)
         self.out.update(files)
