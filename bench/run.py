@@ -361,6 +361,7 @@ def main(argv: list[str] | None = None) -> int:
         ("(c) no-op rebuild", f"{noop['seconds']:.2f} s, {noop['analysed']} partitions analysed"),
         ("(d) one season changed", f"{one['seconds']:.1f} s, {one['analysed']} partitions analysed, "
                                    f"{one['seconds'] / full['seconds']:.0%} of the full build"),
+        ("    stages", ", ".join(f"{k} {v:.1f} s" for k, v in one["timings"].items())),
         ("load to weighted matrix (Parquet)", f"{load['load_to_matrix']:.1f} s (read+check {load['load']:.1f} s)"),
         ("exact medoids, every deck", f"{load['medoids']:.2f} s"),
         ("sitegen ARI vs planted truth", f"mean {ari_s[0]:.3f}, worst partition {ari_s[1]:.3f}"),
@@ -375,6 +376,7 @@ def main(argv: list[str] | None = None) -> int:
         rows.append(("(f) same, one season changed", f"{folder_one['seconds']:.1f} s, {folder_one['analysed']} partitions "
                      f"analysed, {folder_one['unread']} seasons not read again, "
                      f"{folder_one['seconds'] / folder_build['seconds']:.0%} of (e)"))
+        rows.append(("    stages", ", ".join(f"{k} {v:.1f} s" for k, v in folder_one["timings"].items())))
     if nb:
         partial = "" if args.notebook_partitions is None else f" (first {nb['partitions_done']} partitions only)"
         rows += [

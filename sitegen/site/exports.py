@@ -358,8 +358,8 @@ class ExportBlocks:
     the next build.
     """
 
-    old_csv: bytes = b""
-    old_json: bytes = b""
+    old_csv: bytes | memoryview = b""
+    old_json: bytes | memoryview = b""
     index: dict[str, tuple[int, int, int, int]] = field(default_factory=dict)
     new_index: list[tuple[str, int, int, int, int]] = field(default_factory=list)
     reused: int = 0
@@ -367,20 +367,47 @@ class ExportBlocks:
     @classmethod
     def from_files(cls, csv_file: bytes, json_file: bytes, index: Sequence[Sequence]) -> "ExportBlocks":
         """The blocks of a last build's two files and the ``new_index`` that build made."""
-        rows = json_file[2:-3] + b",\n" if json_file.startswith(b"[\n {") and json_file.endswith(b"\n]\n") else b""
-        return cls(old_csv=csv_file, old_json=rows, index={k: (int(a), int(b), int(c), int(d)) for k, a, b, c, d in index})
+        # The JSON rows are the file less its opening "[\n" and closing "\n]\n"; the last row lost its ",\n".
+        rows = memoryview(json_file)[2:-3] if json_file.startswith(b"[\n {") and json_file.endswith(b"\n]\n") else b""
+        return cls(old_csv=memoryview(csv_file), old_json=rows,
+                   index={k: (int(a), int(b), int(c), int(d)) for k, a, b, c, d in index})
+
+    def copy(self, key: str) -> tuple[bytes | memoryview, bytes | memoryview] | None:
+        """The CSV and JSON bytes of the block filed under ``key``, or None."""
+        found = self.index.get(key)
+        if found is None:
+            return None
+        a, b, c, d = found
+        json_rows = self.old_json[c:d] if d <= len(self.old_json) else bytes(self.old_json[c:]) + b",\n"
+        self.reused += 1
+        return self.old_csv[a:b], json_rows
+
+
+def _feed(h, column: pd.Series) -> None:
+    """A column's values into the digest ``h``, by Arrow's buffers (no Python object per value)."""
+    values = pa.array(column, from_pandas=True)
+    if isinstance(values, pa.ChunkedArray):
+        values = values.combine_chunks()
+    if pa.types.is_dictionary(values.type):
+        values = values.cast(values.type.value_type)
+    # A slice shares its parent's buffers: its offset and length say which part of them it is.
+    h.update(f"\0{values.type}\0{values.offset}\0{len(values)}\0".encode())
+    for buffer in values.buffers():
+        if buffer is not None:
+            h.update(buffer)
 
 
 def _block_key(season: str, decks: pd.DataFrame, results: Sequence[PartitionResult],
                page_slugs: dict[tuple[str, str, str], str]) -> str:
     h = hashlib.sha256(f"assignments\0{BLOCK_FORMAT}\0{season}\0".encode())
-    h.update(pd.util.hash_pandas_object(decks[["deck_id", "leader"]], index=False).to_numpy().tobytes())
+    for column in ("deck_id", "leader"):
+        _feed(h, decks[column])
     for r in results:
         h.update(f"\0{r.leader}\0{r.fingerprint}\0".encode())
         h.update(json.dumps(sorted(_slug_of(r, page_slugs).items())).encode())
         if r.assignments is not None and len(r.assignments):
-            cols = r.assignments[["deck_id", "archetype", "distance", "x", "y"]]
-            h.update(pd.util.hash_pandas_object(cols, index=False).to_numpy().tobytes())
+            for column in ("deck_id", "archetype", "distance", "x", "y"):
+                _feed(h, r.assignments[column])
     return h.hexdigest()
 
 
@@ -404,10 +431,9 @@ def _assignment_files(data: DeckData, results: Sequence[PartitionResult],
         part = decks.iloc[rows_of[season]]
         mine = by_season.get(season, [])
         key = _block_key(season, part, mine, page_slugs)
-        old = blocks.index.get(key)
-        if old is not None:
-            csv_block, json_block = blocks.old_csv[old[0]:old[1]], blocks.old_json[old[2]:old[3]]
-            blocks.reused += 1
+        copied = blocks.copy(key)
+        if copied is not None:
+            csv_block, json_block = copied
         else:
             table = assignment_table(replace(data, decks=part.reset_index(drop=True)), mine, page_slugs)
             csv_block = assignments_csv(table)[len(csv_parts[0]):]
@@ -417,8 +443,12 @@ def _assignment_files(data: DeckData, results: Sequence[PartitionResult],
         json_parts.append(json_block)
         csv_at += len(csv_block)
         json_at += len(json_block)
-    rows = b"".join(json_parts)
-    return b"".join(csv_parts), (b"[\n" + rows[:-2] + b"\n]\n" if rows else json_bytes([]))
+    while json_parts and not len(json_parts[-1]):
+        json_parts.pop()
+    if not json_parts:
+        return b"".join(csv_parts), json_bytes([])
+    json_parts[-1] = json_parts[-1][:-2]  # the last row has no ",\n"
+    return b"".join(csv_parts), b"".join([b"[\n", *json_parts, b"\n]\n"])  # one copy of every block
 
 
 def export_files(data: DeckData, results: Sequence[PartitionResult],
