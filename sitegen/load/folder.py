@@ -238,6 +238,14 @@ class SeasonMemo:
                                                     excluded=frozenset(data.excluded), partitions=tuple(partitions)))
 
 
+def _first_rows(codes: np.ndarray, count: int) -> np.ndarray:
+    """The first position of each of the codes 0 .. count-1 (each one occurs)."""
+    used, first = np.unique(codes, return_index=True)
+    out = np.zeros(count, dtype=np.int64)
+    out[used] = first
+    return out
+
+
 def _ids_in_two_seasons(id_lists: list[list[str]], id_places: list[tuple[np.ndarray, np.ndarray]],
                         tables: list[Table], seasons: list[str], errors: list[DataError]) -> None:
     """An error for each deck id (up to a page per season) found in an earlier season's table too,
@@ -247,9 +255,8 @@ def _ids_in_two_seasons(id_lists: list[list[str]], id_places: list[tuple[np.ndar
     names = np.concatenate([np.asarray(ids, dtype=object) for ids in id_lists])
     table_of = np.concatenate([t for t, _ in id_places])
     row_of = np.concatenate([r for _, r in id_places])
-    codes, _ = pd.factorize(names)
-    first = np.empty(codes.max() + 1 if codes.size else 0, dtype=np.int64)
-    first[codes[::-1]] = np.arange(codes.size - 1, -1, -1)
+    codes, distinct = pd.factorize(names)
+    first = _first_rows(codes, len(distinct))
     again = np.flatnonzero((first[codes] != np.arange(codes.size)) & (names != ""))
     shown: dict[int, int] = {}
     for i in again.tolist():
@@ -308,8 +315,7 @@ def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], d
             if dates.notna().any():
                 first_dates[normalise.clean_text(f.season)] = dates.min()
         codes, ids = normalise._codes(frame["deck_id"])
-        first = np.empty(len(ids), dtype=np.int64)  # first row of each distinct id
-        first[codes[::-1]] = np.arange(len(codes) - 1, -1, -1)
+        first = _first_rows(codes, len(ids))
         id_lists.append(ids)
         id_places.append((np.full(len(ids), len(deck_tables) - 1, dtype=np.int64), first))
     _ids_in_two_seasons(id_lists, id_places, deck_tables, table_seasons, errors)
