@@ -378,7 +378,10 @@ class ExportBlocks:
         if found is None:
             return None
         a, b, c, d = found
-        json_rows = self.old_json[c:d] if d <= len(self.old_json) else bytes(self.old_json[c:]) + b",\n"
+        if c == d or d <= len(self.old_json):
+            json_rows = self.old_json[c:d]
+        else:  # the old file's last block, whose ",\n" the file does not hold
+            json_rows = bytes(self.old_json[c:]) + b",\n"
         self.reused += 1
         return self.old_csv[a:b], json_rows
 
