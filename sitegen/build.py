@@ -291,6 +291,8 @@ def _previous_blocks(cache_dir: Path, out: Path):
 
     try:
         record = json.loads((cache_dir / _STAMP_FILE).read_text(encoding="utf-8"))
+        if not record.get("export_blocks"):
+            return ExportBlocks()  # nothing to copy: the files need not be read
         listed = {path: (size, mtime) for path, size, mtime in record["output"]}
         files = []
         for name in _BLOCK_FILES:

@@ -65,6 +65,15 @@ class DeckData:
     excluded: frozenset[str] = frozenset()
 
 
+def in_row_order(rows: np.ndarray, columns: np.ndarray) -> bool:
+    """True when rows never decrease and, within a row, columns strictly increase: long-form
+    rows in :class:`DeckData` order (by deck, then card), no pair twice."""
+    if rows.size < 2:
+        return True
+    step = np.diff(rows)
+    return bool((step >= 0).all() and ((step > 0) | (np.diff(columns) > 0)).all())
+
+
 def coded(codes: np.ndarray, categories: pd.Index) -> pd.Categorical:
     """A categorical from codes and categories already known to be distinct.
 

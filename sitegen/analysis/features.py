@@ -14,6 +14,8 @@ import pandas as pd
 import scipy.sparse as sp
 from sklearn.decomposition import TruncatedSVD
 
+from ..model import in_row_order
+
 
 def build_matrix(cards_df: pd.DataFrame, deck_ids: Sequence[str]) -> tuple[sp.csr_matrix, tuple[str, ...]]:
     """Copies of each card in each deck, as CSR, and the card names (columns).
@@ -38,7 +40,7 @@ def build_matrix(cards_df: pd.DataFrame, deck_ids: Sequence[str]) -> tuple[sp.cs
     qty = np.asarray(cards_df["quantity"], dtype=np.float64)[keep]
     rows, columns = rows[keep], column_of[card_codes]
     shape = (len(deck_ids), len(cards))
-    if _grouped(rows, columns) and (qty != 0).all():
+    if in_row_order(rows, columns) and (qty != 0).all():
         # Rows by deck and, within a deck, cards in column order, once each (the loader's order):
         # that is CSR already, without the sort a conversion from coordinates makes.
         indptr = np.concatenate([[0], np.cumsum(np.bincount(rows, minlength=shape[0]))])
@@ -48,14 +50,6 @@ def build_matrix(cards_df: pd.DataFrame, deck_ids: Sequence[str]) -> tuple[sp.cs
     counts.eliminate_zeros()
     counts.sort_indices()
     return counts, cards
-
-
-def _grouped(rows: np.ndarray, columns: np.ndarray) -> bool:
-    """True when rows never decrease and, within a row, columns strictly increase."""
-    if rows.size < 2:
-        return True
-    step = np.diff(rows)
-    return bool((step >= 0).all() and (np.diff(columns)[step == 0] > 0).all())
 
 
 def _codes(column: pd.Series) -> tuple[np.ndarray, pd.Index]:

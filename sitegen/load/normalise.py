@@ -23,7 +23,7 @@ import pyarrow.compute as pc
 
 from ..config import Config
 from ..errors import ConfigError, DataError, DataErrors
-from ..model import DECK_COLUMNS, DeckData, Finding, coded
+from ..model import DECK_COLUMNS, DeckData, Finding, coded, in_row_order
 from .tables import CSV_SUFFIXES, Table, _arrow_text
 
 #: Individual errors listed per problem before the rest are counted in one line.
@@ -236,14 +236,6 @@ def _trimmed(series: pd.Series) -> pd.Series:
     if flagged.size:
         out.iloc[flagged] = [clean_text(v) for v in out.iloc[flagged].tolist()]
     return out
-
-
-def _in_order(deck: np.ndarray, card: np.ndarray) -> bool:
-    """True when rows go by deck and, within a deck, by card, each card once."""
-    if deck.size < 2:
-        return True
-    step = np.diff(deck)
-    return bool((step >= 0).all() and ((step > 0) | (np.diff(card) > 0)).all())
 
 
 def _row_deck_codes(ids: pd.Series, deck_ids: pd.Series, deck_codes: np.ndarray,
@@ -563,7 +555,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         deck_rank = _rank(deck_names)
     card_rank = _rank(card_names)
     row_deck = (deck_rank if same_decks else _rank(cdeck_names))[cdeck_codes]
-    if _in_order(row_deck, card_rank[card_codes]):
+    if in_row_order(row_deck, card_rank[card_codes]):
         # The usual case: grouped by deck and sorted by card already, so no row repeats another.
         order, in_order, same = None, True, np.array([], dtype=np.int64)
     else:
