@@ -6,6 +6,7 @@ and html5lib's strict parser (the WHATWG parsing algorithm).
 """
 from __future__ import annotations
 
+import base64
 import importlib.util
 import json
 import posixpath
@@ -91,3 +92,24 @@ def test_every_internal_link_and_asset_resolves(built):
                 checked += 1
     assert checked > 100
 
+
+
+def test_every_page_names_its_icon(built):
+    # HTML living standard, link type "icon" (from memory): a document over http(s) with no
+    # <link rel=icon> may make the browser fetch /favicon.ico from the host's root, which a
+    # site in a sub-folder of a static host does not have (a 404 on every page).
+    _, out = built
+    parser = html5lib.HTMLParser(namespaceHTMLElements=False)
+    icons = [p for p in out if p.startswith("assets/icon.")]
+    assert len(icons) == 1
+    pages = [p for p in out if p.endswith(".html")]
+    for path in pages:
+        links = [el for el in parser.parse(out[path]).iter("link") if el.get("rel") == "icon"]
+        assert len(links) == 1, path
+        href = links[0].get("href")
+        if path == "404.html":  # written for any depth: the icon travels inside it
+            assert href.startswith("data:image/svg+xml;base64,")
+            assert base64.b64decode(href.split(",", 1)[1]) == out[icons[0]]
+        else:
+            assert posixpath.normpath(posixpath.join(posixpath.dirname(path), href)) == icons[0], path
+    assert len(pages) > 10

@@ -149,6 +149,8 @@ class Page:
     inline_style: str = _f("CSS written into the page itself, or empty; only the 404 page without site.base_url, "
                            "which cannot know the way to the stylesheet from the depth it is served at.")
     style_hash: str = _f("Base64 SHA-256 of inline_style, allowed by the page's Content-Security-Policy; empty without it.")
+    icon: str = _f("The site icon's address as written in the page (root included, or a data: URL), or empty.",
+                   default="")
 
 
 @dataclass(frozen=True, kw_only=True)

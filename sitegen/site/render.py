@@ -131,6 +131,13 @@ def _rel_root(path: str) -> str:
     return "../" * path.count("/")
 
 
+def _data_url(files: dict[str, bytes], path: str | None) -> str:
+    """An SVG asset as a data: URL (the page's CSP allows data: images), or '' without one."""
+    if path is None:
+        return ""
+    return "data:image/svg+xml;base64," + base64.b64encode(files[path]).decode("ascii")
+
+
 def _any_value(df: Any, col: str) -> bool:
     return col in df.columns and bool(df[col].notna().any())
 
@@ -282,8 +289,11 @@ class Renderer:
         if s.seasons:
             nav.append(P.Link(text="Latest season", href=s.season_href(s.seasons[-1])))
         nav.append(P.Link(text="How it works", href="method.html"))
-        return dict(site_title=self.site.cfg["site.title"], title=title, description=description,
-                    root=_rel_root(path) if root is None else root, path=path, stylesheets=tuple(styles),
+        root = _rel_root(path) if root is None else root
+        # An icon of the site's own, so browsers do not ask the host for a missing /favicon.ico.
+        icon = root + urls["icon_svg"] if "icon_svg" in urls else ""
+        return dict(site_title=self.site.cfg["site.title"], title=title, description=description, icon=icon,
+                    root=root, path=path, stylesheets=tuple(styles),
                     scripts=tuple(scripts), nav=tuple(nav), leader_word=s.word, leader_word_plural=s.words,
                     absolute=False, inline_style="", style_hash="")
 
@@ -622,7 +632,7 @@ class Renderer:
             if "</" in css:  # it would end the <style> element early
                 raise RenderError(f"{self.urls['site_css']}: contains '</', which cannot be written inside a <style> element")
             base.update(inline_style=css, style_hash=base64.b64encode(hashlib.sha256(css.encode("utf-8")).digest()).decode("ascii"),
-                        stylesheets=(), scripts=())
+                        stylesheets=(), scripts=(), icon=_data_url(self.assets, self.urls.get("icon_svg")))
         self._emit("404.html", P.NotFoundPage(**base, home=root + "index.html"))
 
     def search(self) -> None:
