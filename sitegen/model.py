@@ -65,13 +65,21 @@ class DeckData:
     excluded: frozenset[str] = frozenset()
 
 
-def in_row_order(rows: np.ndarray, columns: np.ndarray) -> bool:
+def in_row_order(rows: np.ndarray, columns: np.ndarray, column_rank: np.ndarray | None = None) -> bool:
     """True when rows never decrease and, within a row, columns strictly increase: long-form
-    rows in :class:`DeckData` order (by deck, then card), no pair twice."""
-    if rows.size < 2:
-        return True
-    step = np.diff(rows)
-    return bool((step >= 0).all() and ((step > 0) | (np.diff(columns) > 0)).all())
+    rows in :class:`DeckData` order (by deck, then card), no pair twice. With ``column_rank``
+    the columns compared are ``column_rank[columns]``, looked up a block at a time."""
+    # In blocks of a million rows (each block overlaps the next by one), so the temporary
+    # arrays stay small and in cache; comparisons, not differences, so any integer dtype works.
+    step = 1 << 20
+    for start in range(0, rows.size - 1, step):
+        r, c = rows[start:start + step + 1], columns[start:start + step + 1]
+        if column_rank is not None:
+            c = column_rank[c]
+        later, earlier = r[1:], r[:-1]
+        if (later < earlier).any() or not ((later > earlier) | (c[1:] > c[:-1])).all():
+            return False
+    return True
 
 
 def coded(codes: np.ndarray, categories: pd.Index) -> pd.Categorical:

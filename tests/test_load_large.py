@@ -137,3 +137,50 @@ def test_count_values_equals_pandas_value_counts(tmp_path):
     expected = cards["card"].fillna("").value_counts().to_dict()
     assert got == expected
     assert sum(got.values()) == len(cards)
+
+
+def test_card_names_over_many_row_groups_equal_pyarrow(tmp_path):
+    # Reference: pyarrow's own reading of the column (nulls as ''), for a card column read
+    # dictionary-encoded over 16 row groups, each with a dictionary of its own, some with nulls.
+    _, cards = _planted(7)
+    cards.loc[cards.index[::4999], "card"] = None
+    cards.loc[cards.index[20_000:30_000], "card"] = "Card only here"  # in a few row groups only
+    path = tmp_path / "deck_cards.parquet"
+    pq.write_table(pa.Table.from_pandas(cards, preserve_index=False), path, row_group_size=9_999)
+    assert pq.ParquetFile(path).metadata.num_row_groups == 16
+    got = _read_cards(path)["card"]
+    assert isinstance(got.dtype, pd.CategoricalDtype) and got.cat.categories.is_unique
+    assert got.astype(str).tolist() == [v or "" for v in pq.read_table(path).column("card").to_pylist()]
+
+
+def _in_order_by_lexsort(rows: np.ndarray, columns: np.ndarray) -> bool:
+    # numpy's lexsort (rows first, then columns) is the reference: in order means sorting
+    # moves nothing and no (row, column) pair repeats.
+    order = np.lexsort((columns, rows))
+    if not np.array_equal(order, np.arange(rows.size)):
+        return False
+    return not bool(((rows[1:] == rows[:-1]) & (columns[1:] == columns[:-1])).any())
+
+
+@pytest.mark.parametrize("dtype", [np.int64, np.int32, np.uint16])
+def test_row_order_check_agrees_with_lexsort_at_block_edges(dtype):
+    # The check runs in blocks of 2**20 rows; each planted fault sits at or next to a block edge.
+    from sitegen.model import in_row_order
+
+    edge = 1 << 20
+    n = 2 * edge + 5
+    rows = (np.arange(n) // 7).astype(dtype) if dtype != np.uint16 else (np.arange(n) // 7000).astype(dtype)
+    columns = (np.arange(n) % (7 if dtype != np.uint16 else 7000)).astype(dtype)
+    cases = {"sorted": (rows, columns)}
+    for at in (edge - 1, edge, edge + 1, 2 * edge):
+        r, c = rows.copy(), columns.copy()
+        r[at] = r[at - 1] - 1 if r[at - 1] > 0 else r[at]  # a row that goes back
+        cases[f"row back at {at}"] = (r, c)
+        r, c = rows.copy(), columns.copy()
+        r[at], c[at] = r[at - 1], c[at - 1]  # the same pair twice
+        cases[f"pair twice at {at}"] = (r, c)
+    cases["tiny"] = (rows[:1], columns[:1])
+    cases["empty"] = (rows[:0], columns[:0])
+    for name, (r, c) in cases.items():
+        assert in_row_order(r, c) == _in_order_by_lexsort(r, c), name
+    assert sum(not _in_order_by_lexsort(r, c) for r, c in cases.values()) == 8  # every planted fault is one

@@ -555,7 +555,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         deck_rank = _rank(deck_names)
     card_rank = _rank(card_names)
     row_deck = (deck_rank if same_decks else _rank(cdeck_names))[cdeck_codes]
-    if in_row_order(row_deck, card_rank[card_codes]):
+    if in_row_order(row_deck, card_codes, card_rank):
         # The usual case: grouped by deck and sorted by card already, so no row repeats another.
         order, in_order, same = None, True, np.array([], dtype=np.int64)
     else:
@@ -590,7 +590,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     known = None
     if card_table is not None:
         card_info, known = _card_info(card_table, cfg, problems)
-    counts = np.bincount(card_codes, minlength=len(card_names))
+    counts = _counts(card_codes, len(card_names))
     canonical, name_findings, unknown = _name_variants(card_names, counts, known, "card name")
     if spellings is None:
         findings.extend(name_findings)
@@ -667,6 +667,16 @@ def added_up_finding(rows: int) -> Finding:
     """The finding for card rows whose copies were added to another spelling's row of the same deck."""
     return Finding("name-variants", f"{rows} card row(s) named a card a deck already "
                    "listed under another spelling; their copies were added up")
+
+
+def _counts(codes: np.ndarray, size: int) -> np.ndarray:
+    """``np.bincount(codes, minlength=size)`` a block at a time: bincount turns its input
+    into 8-byte integers first, a copy of tens of millions of values at once otherwise."""
+    counts = np.zeros(size, dtype=np.int64)
+    step = 1 << 20
+    for start in range(0, codes.size, step):
+        counts += np.bincount(codes[start:start + step], minlength=size)
+    return counts
 
 
 def _rank(names: list[str]) -> np.ndarray:

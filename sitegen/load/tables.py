@@ -401,7 +401,7 @@ def _as_categories(column: pa.ChunkedArray, guess: pd.Series | None = None) -> p
     runs = _runs_as_categories(column, guess)
     if runs is not None:
         return runs
-    series = pd.Series(column.unify_dictionaries().to_pandas() if column.num_chunks > 1 else column.to_pandas())
+    series = _chunks_as_categories(column) if column.num_chunks > 1 else pd.Series(column.to_pandas(), copy=False)
     if series.isna().any():
         if "" not in series.cat.categories:
             series = series.cat.add_categories([""])
@@ -445,11 +445,39 @@ def _runs_as_categories(column: pa.ChunkedArray, guess: pd.Series | None = None)
         expected = _arrow_text(guess)
         if expected is not None and heads.equals(expected):
             return pd.Series(coded(np.repeat(np.arange(len(heads), dtype=np.int32), lengths),
-                                   pd.Index(guess, dtype="str")))
+                                   pd.Index(guess, dtype="str")), copy=False)
     encoded = pc.dictionary_encode(heads)
     codes = np.repeat(encoded.indices.to_numpy(zero_copy_only=False).astype(np.int32, copy=False),
                       lengths)
-    return pd.Series(coded(codes, pd.Index(encoded.dictionary.to_pandas(), dtype="str")))
+    return pd.Series(coded(codes, pd.Index(encoded.dictionary.to_pandas(), dtype="str")), copy=False)
+
+
+def _chunks_as_categories(column: pa.ChunkedArray) -> pd.Series:
+    """A dictionary column of many chunks (row groups) as one categorical, categories in order
+    of first appearance. Each chunk's small dictionary is mapped to the categories and its
+    indices looked up into one array; unifying the dictionaries in Arrow and converting
+    makes two copies of every row instead."""
+    index: dict[str, int] = {}
+    codes = np.empty(len(column), dtype=np.int32)
+    at, nulls = 0, False
+    for chunk in column.chunks:
+        n = len(chunk)
+        if n == 0:
+            continue
+        names = chunk.dictionary.cast(pa.string()).to_pylist()
+        lookup = np.array([-1 if name is None else index.setdefault(name, len(index)) for name in names] or [-1],
+                          dtype=np.int32)
+        if chunk.null_count:
+            nulls = True
+            lookup = np.append(lookup, np.int32(-1))  # a null row's index is set to the last slot
+            indices = chunk.indices.fill_null(len(lookup) - 1)
+        else:
+            indices = chunk.indices
+        np.take(lookup, indices.to_numpy(zero_copy_only=False), out=codes[at:at + n])
+        at += n
+    categories = pd.Index(list(index), dtype="str")
+    return pd.Series(pd.Categorical.from_codes(codes, dtype=pd.CategoricalDtype(categories), validate=nulls),
+                     copy=False)
 
 
 def _arrow_text(series: pd.Series) -> pa.Array | None:
