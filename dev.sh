@@ -30,8 +30,8 @@ case "${1:-}" in
   demo)
     shift
     setup ""
-    .venv/bin/sitegen build demo_data/site.toml
-    exec .venv/bin/sitegen serve demo_data/site.toml "$@"
+    .venv/bin/sitegen build site.toml
+    exec .venv/bin/sitegen serve site.toml "$@"
     ;;
   test)
     shift

@@ -3,11 +3,15 @@ and an installed wheel that works without a clone."""
 from __future__ import annotations
 
 import os
+import re
 import subprocess
 import sys
 import zipfile
+from pathlib import Path
 
 import pytest
+
+from sitegen import config
 
 from _sites import make_project, read_rows, write_rows
 
@@ -106,3 +110,15 @@ def test_wheel_scaffold_and_build_outside_the_clone(tmp_path):
     assert proc.returncode == 0, proc.stderr
     site = outside / "guide" / "site"
     assert (site / "index.html").is_file() and list((site / "assets").glob("*.js"))
+
+
+def test_dev_sh_demo_builds_and_serves_the_demo_config():
+    # The README's demo command must name a config that exists: it once named demo_data/site.toml, which does not.
+    root = Path(__file__).resolve().parent.parent
+    script = (root / "dev.sh").read_text(encoding="utf-8")
+    demo = script.split("\n  demo)", 1)[1].split(";;", 1)[0]
+    named = re.findall(r"\.venv/bin/sitegen (build|serve) (\S+)", demo)
+    assert [verb for verb, _ in named] == ["build", "serve"]
+    for _, path in named:
+        assert (root / path).is_file(), path
+        assert config.load(root / path).path("data.decks") == root / "demo_data" / "decks.csv"
