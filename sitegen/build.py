@@ -131,7 +131,7 @@ def build(
                       progress=progress) as runs:
             runs.start_workers()  # before the data is loaded: workers are forked from this process
             with progress.stage("reading decks"):
-                folder = open_season_folder(cfg)
+                folder = open_season_folder(cfg, cache)
                 data = load_data(cfg) if folder is None else None
                 if data is not None:
                     progress.say(f"  {len(data.decks):,} decks, {len(data.cards):,} card rows, {len(data.seasons)} season(s)")
@@ -222,6 +222,7 @@ def _analyse_folder(folder, cfg: Config, runs, cache, progress: Progress):
             # so no more than two seasons' card rows are held at once.
             runs.wait_below(started)
         results, run = runs.finish()
+    runs.other_keys |= folder.summary_keys
     if memo is not None:
         runs.other_keys |= memo.keys
         run = replace(run, seasons_unread=tuple(memo.unread))

@@ -296,6 +296,24 @@ class SeasonRecord:
 
 
 @dataclass(frozen=True)
+class SeasonSummary:
+    """What the first pass over a season folder took from one season's two files, kept so
+    that the next build's first pass need not open them while they are unchanged.
+
+    ``leader_counts`` and ``card_counts`` are the season's cleaned leader and
+    card names with their row counts, in the order the files gave them;
+    ``first_date`` is its earliest deck date (None when it has none);
+    ``id_hashes`` are the sorted 64-bit hashes of its distinct non-empty deck
+    ids, so that only seasons whose hashes meet need their deck ids compared.
+    """
+
+    leader_counts: dict[str, int]
+    card_counts: dict[str, int]
+    first_date: pd.Timestamp | None
+    id_hashes: np.ndarray
+
+
+@dataclass(frozen=True)
 class RunReport:
     """Which partitions (season, leader) were analysed afresh and which came from the cache,
     and whose maps were drawn afresh (a map is redrawn when its partition or the map it

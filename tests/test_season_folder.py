@@ -218,3 +218,163 @@ def test_a_season_is_read_again_when_its_results_left_the_cache(tmp_path):
     again = build(cfg=cfg, quiet=True)
     assert again.run.seasons_unread == ()
     assert len(again.run.analysed) == len(first.run.analysed)
+
+
+def _spy_on_the_first_pass(monkeypatch) -> list[list[str]]:
+    """For each first pass over the folder (one per build), the files it opened, as 'season=NAME/file'."""
+    passes: list[list[str]] = []
+    inside = [False]
+    real_open, real_read, real_count = folder_mod.open_folder, folder_mod.read_table, folder_mod.count_values
+
+    def opened(path):
+        if inside[0]:
+            passes[-1].append(f"{path.parent.name}/{path.name}")
+
+    def spying_open(*args, **kwargs):
+        passes.append([])
+        inside[0] = True
+        try:
+            return real_open(*args, **kwargs)
+        finally:
+            inside[0] = False
+
+    def spying_read(path, **kwargs):
+        opened(path)
+        return real_read(path, **kwargs)
+
+    def spying_count(path, **kwargs):
+        opened(path)
+        return real_count(path, **kwargs)
+
+    monkeypatch.setattr(folder_mod, "open_folder", spying_open)
+    monkeypatch.setattr(folder_mod, "read_table", spying_read)
+    monkeypatch.setattr(folder_mod, "count_values", spying_count)
+    return passes
+
+
+def _both_files(*seasons: int) -> list[str]:
+    return [f"season=Season {n}/{name}" for n in seasons for name in ("decks.parquet", "deck_cards.parquet")]
+
+
+def _summaries(cache_folder) -> dict[int, object]:
+    """The first-pass summaries in the cache, by the month of their season's first date (Season n: month n)."""
+    from sitegen.cache import Cache
+    from sitegen.model import SeasonSummary
+
+    cache = Cache(cache_folder)
+    found = {}
+    for entry in sorted(cache_folder.glob("*.entry")):
+        summary = cache.get(entry.stem, SeasonSummary)
+        if summary is not None:
+            found[summary.first_date.month] = entry
+    return found
+
+
+def test_the_first_pass_opens_only_the_changed_season(tmp_path, monkeypatch):
+    # Planted: five seasons; then one quantity in Season 4's card rows changes. The rebuild's first pass over
+    # the folder opens Season 4's two files only, and the site is byte for byte a build from an empty cache.
+    from _sites import tree
+
+    _five_seasons(tmp_path)
+    settings = {"analysis": {"workers": 1, "min_decks": 5}, "data": {"parquet_folder": "pq"}}
+    cfg = config(tmp_path, site={"output": "site"}, cache={"folder": "cache"}, **settings)
+    passes = _spy_on_the_first_pass(monkeypatch)
+    build(cfg=cfg, quiet=True)
+    assert passes == [_both_files(1, 2, 3, 4, 5)]
+    before = _summaries(tmp_path / "cache")
+    assert sorted(before) == [1, 2, 3, 4, 5]
+    changed = tmp_path / "pq" / "season=Season 4" / "deck_cards.parquet"
+    rows = pd.read_parquet(changed)
+    rows.loc[rows.index[2], "quantity"] = 3  # deck s4d0 played 2 of its third card
+    rows.to_parquet(changed, index=False)
+
+    again = build(cfg=cfg, quiet=True)
+    assert passes[1] == _both_files(4)
+    assert {season for season, _ in again.run.analysed} == {"Season 4"}
+    after = _summaries(tmp_path / "cache")
+    # Pruning kept every season's summary and dropped the changed season's old one.
+    assert sorted(after) == [1, 2, 3, 4, 5]
+    assert [after[n] for n in (1, 2, 3, 5)] == [before[n] for n in (1, 2, 3, 5)] and after[4] != before[4]
+    fresh = build(cfg=config(tmp_path, site={"output": "site-fresh"}, cache={"folder": "cache-fresh"}, **settings),
+                  quiet=True)
+    assert passes[2] == _both_files(1, 2, 3, 4, 5)
+    assert tree(tmp_path / "site") == tree(tmp_path / "site-fresh")
+    assert again.warnings == fresh.warnings
+
+
+def _rename_decks(part, renames: dict[str, str]) -> None:
+    for name in ("decks.parquet", "deck_cards.parquet"):
+        table = pd.read_parquet(part / name)
+        table["deck_id"] = table["deck_id"].replace(renames)
+        table.to_parquet(part / name, index=False)
+
+
+def test_a_deck_id_shared_with_a_remembered_season_is_the_same_error(tmp_path, monkeypatch):
+    # Planted: after a build of five seasons, Season 3 renames two decks to ids of Season 1 (s1d3, an earlier
+    # season) and of Season 5 (s5d6, a later one); both other seasons come from the memo. The errors name the
+    # same files and rows as a first pass without a memo, and only the two clashing deck tables are read again.
+    _five_seasons(tmp_path)
+    cfg = config(tmp_path, site={"output": "site"}, cache={"folder": "cache"},
+                 analysis={"workers": 1, "min_decks": 5}, data={"parquet_folder": "pq"})
+    passes = _spy_on_the_first_pass(monkeypatch)
+    build(cfg=cfg, quiet=True)
+    _rename_decks(tmp_path / "pq" / "season=Season 3", {"s3d3": "s1d3", "s3d6": "s5d6"})
+
+    with pytest.raises(DataErrors) as remembered:
+        build(cfg=cfg, quiet=True)
+    assert passes[1] == _both_files(3) + ["season=Season 1/decks.parquet", "season=Season 5/decks.parquet"]
+    with pytest.raises(DataErrors) as unremembered:
+        open_season_folder(cfg)
+    messages = [str(e) for e in remembered.value.errors]
+    assert messages == [str(e) for e in unremembered.value.errors]
+    # s1d3 is row 5 of both deck tables; s5d6 is row 8 of both.
+    assert len(messages) == 2
+    assert "season=Season 3" in messages[0] and "row 5" in messages[0] and "'s1d3'" in messages[0]
+    assert "also in season 'Season 1'" in messages[0] and "season=Season 1" in messages[0]
+    assert "season=Season 5" in messages[1] and "row 8" in messages[1] and "'s5d6'" in messages[1]
+    assert "also in season 'Season 3'" in messages[1]
+
+
+def test_a_damaged_summary_means_the_season_is_read_again(tmp_path, monkeypatch):
+    # Planted: after a build, Season 2's summary is garbled and Season 5's cut short. The rebuild's first pass
+    # reads those two seasons again (and stores them afresh), and the site is byte for byte the first one.
+    from _sites import tree
+
+    _five_seasons(tmp_path)
+    cfg = config(tmp_path, site={"output": "site"}, cache={"folder": "cache"},
+                 analysis={"workers": 1, "min_decks": 5}, data={"parquet_folder": "pq"})
+    passes = _spy_on_the_first_pass(monkeypatch)
+    build(cfg=cfg, quiet=True)
+    first_site = tree(tmp_path / "site")
+    entries = _summaries(tmp_path / "cache")
+    garbled = bytearray(entries[2].read_bytes())
+    garbled[-20:-10] = bytes(10)
+    entries[2].write_bytes(bytes(garbled))
+    entries[5].write_bytes(entries[5].read_bytes()[:-7])
+    (tmp_path / "cache" / "last-build.json").unlink()  # or the unchanged inputs end the build before it starts
+
+    build(cfg=cfg, quiet=True)
+    assert passes[1] == _both_files(2, 5)
+    assert sorted(_summaries(tmp_path / "cache")) == [1, 2, 3, 4, 5]
+    assert tree(tmp_path / "site") == first_site
+
+
+def test_a_hash_shared_by_different_deck_ids_is_no_error(tmp_path, monkeypatch):
+    # Planted: every deck id hashes alike (a clash made by hand), so every remembered season seems to share an
+    # id with another; their deck tables are read and compared exactly, no error is raised, and the folder
+    # opens as it does without a memo.
+    import numpy as np
+
+    from sitegen.cache import Cache
+
+    cfg = _three_seasons(tmp_path)
+    monkeypatch.setattr(folder_mod, "_id_hashes", lambda ids: np.array([7], dtype=np.uint64))
+    cache = Cache(tmp_path / "cache")
+    open_season_folder(cfg, cache)
+    passes = _spy_on_the_first_pass(monkeypatch)
+    remembered = open_season_folder(cfg, cache)
+    assert passes == [[f"season=Season {n}/decks.parquet" for n in (1, 2, 3)]]
+    plain = open_season_folder(cfg)
+    assert remembered.spellings == plain.spellings
+    assert remembered.name_findings == plain.name_findings
+    assert list(remembered.first_dates.items()) == list(plain.first_dates.items())

@@ -9,6 +9,7 @@ config names, checks every row, and returns a validated
 from __future__ import annotations
 
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 import pandas as pd
@@ -21,6 +22,9 @@ from .decklists import read_decklists
 from .normalise import build
 from .origin import StackedOrigin
 from .tables import Table, read_table
+
+if TYPE_CHECKING:
+    from ..cache import Cache
 
 __all__ = ["load_data", "open_season_folder", "read_decklists", "read_table"]
 
@@ -135,11 +139,13 @@ def load_data(cfg: Config) -> DeckData:
     return build(decks, cards, card_table, cfg)
 
 
-def open_season_folder(cfg: Config):
+def open_season_folder(cfg: Config, cache: Cache | None = None):
     """The config's season folder opened for reading one season at a time
     (:class:`~sitegen.load.folder.SeasonFolder`), or None when the data is
     read whole: no ``data.parquet_folder``, or seasons taken from a calendar
-    of dates (a deck's season is then not its folder's)."""
+    of dates (a deck's season is then not its folder's). With a ``cache``
+    (:class:`~sitegen.cache.Cache`), the first pass over the folder opens
+    only the seasons whose files changed since it last looked."""
     folder = cfg.path("data.parquet_folder")
     if folder is None or cfg["seasons.source"] == "calendar":
         return None
@@ -150,7 +156,7 @@ def open_season_folder(cfg: Config):
     required.pop("season", None)
     optional.pop("season", None)
     (card_table,) = _read_both([lambda: _read_card_table(cfg)])
-    return open_folder(cfg, folder, (required, optional), _card_rows_columns(cfg), card_table)
+    return open_folder(cfg, folder, (required, optional), _card_rows_columns(cfg), card_table, cache)
 
 
 def _read_parquet_folder(folder: Path, cfg: Config) -> tuple[Table, Table]:

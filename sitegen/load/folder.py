@@ -5,7 +5,9 @@ with ``decks.parquet`` and ``deck_cards.parquet``. :func:`open_folder` first
 reads what must agree over the whole data and is small: every season's deck
 table (one row per deck) and the distinct card names of every long-form
 table with their row counts. That settles one spelling per card and leader,
-deck ids unique across seasons, and the season order. Then
+deck ids unique across seasons, and the season order. With a cache, what
+this pass took from each season is kept there (:class:`SummaryMemo`), so a
+rebuild after one season changed opens only that season's files here. Then
 :meth:`SeasonFolder.seasons` reads, checks and hands over one season's card
 rows at a time (each season's deck table is read again then: it is small);
 the caller analyses them while it reads the next, and waits for a season's
@@ -28,11 +30,12 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
 
 from ..check import RULE_KINDS, check_rules
 from ..config import Config
 from ..errors import DataError, DataErrors
-from ..model import CARD_ROW_COLUMNS, DECK_COLUMNS, DeckData, Finding, SeasonRecord
+from ..model import CARD_ROW_COLUMNS, DECK_COLUMNS, DeckData, Finding, SeasonRecord, SeasonSummary
 from . import normalise
 from .tables import PARQUET_SUFFIXES, Table, count_values, read_table
 
@@ -41,6 +44,8 @@ if TYPE_CHECKING:
 
 #: Bumped when what a season record holds, or how its key is made, changes.
 RECORD_FORMAT = 1
+#: Bumped when what a first-pass summary holds, or how its key is made, changes.
+SUMMARY_FORMAT = 1
 #: The finding a build makes when two spellings of one card sat in one deck (its count first).
 _ADDED_UP = re.compile(r"^(\d+) card row\(s\) named a card a deck already listed under another spelling")
 
@@ -110,6 +115,8 @@ class SeasonFolder:
     spellings: normalise.Spellings
     name_findings: list[Finding]
     first_dates: dict[str, pd.Timestamp]
+    #: Every first-pass summary key asked for, so the build keeps those entries when it prunes the cache.
+    summary_keys: set[str] = field(default_factory=set)
     _decks: list[pd.DataFrame] = field(default_factory=list)
     _findings: list[Finding] = field(default_factory=list)
     _excluded: set[str] = field(default_factory=set)
@@ -246,6 +253,109 @@ def _first_rows(codes: np.ndarray, count: int) -> np.ndarray:
     return out
 
 
+@dataclass
+class SummaryMemo:
+    """First-pass summaries (:class:`~sitegen.model.SeasonSummary`) kept in the cache between builds.
+
+    A summary is filed under a digest of the season's two files (path, size,
+    time of last change), of the column names read from them, of the loading
+    code and of the libraries that read and hash them (``salt``). Any change
+    gives another key, so the season is read again.
+    """
+
+    cache: Cache
+    salt: str
+    #: Every key asked for, so the build keeps those entries when it prunes the cache.
+    keys: set[str] = field(default_factory=set)
+
+    @classmethod
+    def for_columns(cls, cache: Cache, deck_columns: tuple[dict[str, str], dict[str, str]],
+                    card_columns: dict[str, str]) -> SummaryMemo:
+        """A memo for a folder read with these column names."""
+        h = hashlib.sha256(f"season-summary\0{SUMMARY_FORMAT}\0".encode())
+        h.update(json.dumps([deck_columns[0], deck_columns[1], card_columns], sort_keys=True).encode())
+        # Another pandas or pyarrow may hash ids or read files otherwise: old summaries are not trusted then.
+        h.update(f"{pd.__version__}|{pa.__version__}|{np.__version__}\n".encode())
+        for path in sorted(Path(__file__).resolve().parent.glob("*.py")):
+            h.update(path.name.encode() + b"\0" + path.read_bytes())
+        return cls(cache, h.hexdigest())
+
+    def key_of(self, files: SeasonFiles) -> str | None:
+        """The season's key, or None when a file cannot be looked at (its read will say why)."""
+        h = hashlib.sha256(self.salt.encode())
+        for path in (files.decks, files.cards):
+            try:
+                st = path.stat()
+            except OSError:
+                return None
+            h.update(f"{path}|{st.st_size}|{st.st_mtime_ns}\n".encode())
+        key = h.hexdigest()
+        self.keys.add(key)
+        return key
+
+    def get(self, key: str) -> SeasonSummary | None:
+        return self.cache.get(key, SeasonSummary)
+
+    def put(self, key: str, summary: SeasonSummary) -> None:
+        self.cache.put(key, summary)
+
+
+@dataclass
+class _DeckIds:
+    """One season's distinct deck ids, the row position of each one's first row, and its
+    deck table without rows (to turn positions into file rows)."""
+
+    season: str
+    table: Table
+    ids: list[str]
+    first: np.ndarray
+
+
+def _deck_ids(decks: Table, season: str) -> _DeckIds:
+    codes, ids = normalise._codes(decks.frame["deck_id"])
+    return _DeckIds(season, Table(decks.file, decks.frame.iloc[:0], decks.origin, decks.names), ids,
+                    _first_rows(codes, len(ids)))
+
+
+def _id_hashes(ids: list[str]) -> np.ndarray:
+    """Sorted distinct 64-bit hashes of the non-empty ``ids`` (an empty id is never a clash)."""
+    values = np.asarray(ids, dtype=object)
+    return np.unique(pd.util.hash_array(values[values != ""], categorize=False))
+
+
+def _summary_of(decks: Table | None, names: dict[str, int] | None, ids: _DeckIds | None,
+                hashed: bool) -> SeasonSummary:
+    """What the first pass needs of one season (what could be read of it)."""
+    card_counts: dict[str, int] = {}
+    for name, n in (names or {}).items():
+        name = normalise.clean_text(name)
+        card_counts[name] = card_counts.get(name, 0) + n
+    if decks is None:
+        return SeasonSummary({}, card_counts, None, np.zeros(0, dtype=np.uint64))
+    frame = decks.frame
+    codes, leaders = normalise._codes(frame["leader"])
+    leader_counts = dict(zip(leaders, np.bincount(codes, minlength=len(leaders)).tolist()))
+    first_date = None
+    if "date" in frame:
+        dates, _, _ = normalise._parse_dates(frame["date"])
+        if dates.notna().any():
+            first_date = dates.min()
+    hashes = _id_hashes(ids.ids) if hashed and ids is not None else np.zeros(0, dtype=np.uint64)
+    return SeasonSummary(leader_counts, card_counts, first_date, hashes)
+
+
+def _sharing_a_hash(hashes: list[np.ndarray]) -> list[int]:
+    """Positions of the arrays (each sorted and distinct) that share a value with another one."""
+    if len(hashes) < 2:
+        return []
+    # Sorted runs: a stable sort merges them rather than sorting from scratch.
+    merged = np.sort(np.concatenate(hashes), kind="stable")
+    shared = np.unique(merged[1:][merged[1:] == merged[:-1]])
+    if shared.size == 0:
+        return []
+    return [i for i, h in enumerate(hashes) if np.isin(h, shared, assume_unique=True).any()]
+
+
 def _ids_in_two_seasons(id_lists: list[list[str]], id_places: list[tuple[np.ndarray, np.ndarray]],
                         tables: list[Table], seasons: list[str], errors: list[DataError]) -> None:
     """An error for each deck id (up to a page per season) found in an earlier season's table too,
@@ -273,11 +383,45 @@ def _ids_in_two_seasons(id_lists: list[list[str]], id_places: list[tuple[np.ndar
                                 fix="give each deck one row and its own id, in the folder of its season"))
 
 
-def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], dict[str, str]],
-                card_columns: dict[str, str], card_table: Table | None) -> SeasonFolder:
-    """Read what must agree across seasons, and check it; DataErrors name every problem found."""
-    files = season_files(folder)
+def _read_deck_table(files: SeasonFiles, deck_columns: tuple[dict[str, str], dict[str, str]]) -> Table:
     required, optional = deck_columns
+    return read_table(files.decks, setting="data.parquet_folder", required=required, optional=optional,
+                      numeric=frozenset({"wins", "losses"}))
+
+
+def _check_ids_across_seasons(files: list[SeasonFiles], summaries: list[SeasonSummary],
+                              deck_ids: list[_DeckIds | None], remembered: list[bool],
+                              deck_columns: tuple[dict[str, str], dict[str, str]], errors: list[DataError]) -> None:
+    """An error for each deck id in two seasons (see :func:`_ids_in_two_seasons`).
+
+    When some seasons were not read (their summaries were remembered), only
+    the seasons whose id hashes meet another season's can hold such an id:
+    those are read and compared exactly, the rest are not opened. A hash
+    clash of two different ids costs a read, never a wrong error.
+    """
+    taking = [i for i in range(len(files)) if remembered[i] or deck_ids[i] is not None]
+    if any(remembered):
+        taking = [taking[j] for j in _sharing_a_hash([summaries[i].id_hashes for i in taking])]
+        for i in taking:
+            if deck_ids[i] is None:
+                decks = _collect(errors, lambda: _read_deck_table(files[i], deck_columns))
+                deck_ids[i] = _deck_ids(decks, files[i].season) if decks is not None else None
+    read = [deck_ids[i] for i in taking if deck_ids[i] is not None]
+    _ids_in_two_seasons([r.ids for r in read],
+                        [(np.full(len(r.ids), n, dtype=np.int64), r.first) for n, r in enumerate(read)],
+                        [r.table for r in read], [r.season for r in read], errors)
+
+
+def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], dict[str, str]],
+                card_columns: dict[str, str], card_table: Table | None, cache: Cache | None = None) -> SeasonFolder:
+    """Read what must agree across seasons, and check it; DataErrors name every problem found.
+
+    With a ``cache``, what this pass takes from each season is kept there
+    (:class:`SummaryMemo`), and a season whose two files have not changed
+    since is not opened again, unless its deck ids must be compared with
+    another season's. The result is the same either way.
+    """
+    files = season_files(folder)
     errors: list[DataError] = []
     by_name: dict[str, SeasonFiles] = {}
     for f in files:
@@ -286,40 +430,41 @@ def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], d
             errors.append(DataError(f.decks.parent, f"names the same season as {other.decks.parent.name!r} "
                                     "(folder names differ only by spaces)",
                                     fix="keep one folder per season: move its files into the other folder"))
+    memo = SummaryMemo.for_columns(cache, deck_columns, card_columns) if cache is not None else None
+    summaries: list[SeasonSummary] = []
+    # The deck ids of each deck table read in this pass (None: not read, or unreadable).
+    deck_ids: list[_DeckIds | None] = []
+    remembered: list[bool] = []
+    for f in files:
+        key = memo.key_of(f) if memo is not None else None
+        summary = memo.get(key) if key is not None else None
+        remembered.append(summary is not None)
+        ids = None
+        if summary is None:
+            before = len(errors)
+            decks = _collect(errors, lambda: _read_deck_table(f, deck_columns))
+            names = _collect(errors, lambda: count_values(f.cards, setting="data.parquet_folder", logical="card",
+                                                          column=card_columns["card"]))
+            ids = _deck_ids(decks, f.season) if decks is not None else None
+            summary = _summary_of(decks, names, ids, hashed=memo is not None)
+            if key is not None and len(errors) == before:
+                memo.put(key, summary)
+        summaries.append(summary)
+        deck_ids.append(ids)
+    _check_ids_across_seasons(files, summaries, deck_ids, remembered, deck_columns, errors)
+    del deck_ids
+    _raise(errors)
+    # Merged in folder order, so every name keeps the place a read of all seasons gives it.
     leader_counts: dict[str, int] = {}
     card_counts: dict[str, int] = {}
     first_dates: dict[str, pd.Timestamp] = {}
-    # Each season's distinct deck ids, and for each the season's table and the row position of its first row.
-    id_lists: list[list[str]] = []
-    id_places: list[tuple[np.ndarray, np.ndarray]] = []
-    deck_tables: list[Table] = []
-    table_seasons: list[str] = []
-    for f in files:
-        decks = _collect(errors, lambda: read_table(f.decks, setting="data.parquet_folder", required=required,
-                                                    optional=optional, numeric=frozenset({"wins", "losses"})))
-        names = _collect(errors, lambda: count_values(f.cards, setting="data.parquet_folder", logical="card",
-                                                      column=card_columns["card"]))
-        for name, n in (names or {}).items():
-            name = normalise.clean_text(name)
+    for f, summary in zip(files, summaries):
+        for name, n in summary.card_counts.items():
             card_counts[name] = card_counts.get(name, 0) + n
-        if decks is None:
-            continue
-        frame = decks.frame
-        deck_tables.append(Table(decks.file, frame.iloc[:0], decks.origin, decks.names))  # for row numbers only
-        table_seasons.append(f.season)
-        codes, leaders = normalise._codes(frame["leader"])
-        for name, n in zip(leaders, np.bincount(codes, minlength=len(leaders)).tolist()):
+        for name, n in summary.leader_counts.items():
             leader_counts[name] = leader_counts.get(name, 0) + n
-        if "date" in frame:
-            dates, _, _ = normalise._parse_dates(frame["date"])
-            if dates.notna().any():
-                first_dates[normalise.clean_text(f.season)] = dates.min()
-        codes, ids = normalise._codes(frame["deck_id"])
-        first = _first_rows(codes, len(ids))
-        id_lists.append(ids)
-        id_places.append((np.full(len(ids), len(deck_tables) - 1, dtype=np.int64), first))
-    _ids_in_two_seasons(id_lists, id_places, deck_tables, table_seasons, errors)
-    _raise(errors)
+        if summary.first_date is not None:
+            first_dates[normalise.clean_text(f.season)] = summary.first_date
     known = None
     if card_table is not None:
         problems = normalise._Problems()
@@ -333,5 +478,5 @@ def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], d
         leader_names, np.array([leader_counts[n] for n in leader_names], dtype=np.int64), None, cfg["site.leader_word"])
     return SeasonFolder(cfg=cfg, files=files, deck_columns=deck_columns, card_columns=card_columns,
                         card_table=card_table, spellings=normalise.Spellings(card_spelling, leader_spelling),
-                        name_findings=card_findings + leader_findings, first_dates=first_dates)
-
+                        name_findings=card_findings + leader_findings, first_dates=first_dates,
+                        summary_keys=memo.keys if memo is not None else set())
