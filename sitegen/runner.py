@@ -18,10 +18,10 @@ from typing import Sequence
 
 from . import __version__
 from .analysis.params import AnalysisParams
-from .analysis.partition import analyse_partition, draw_map, place_map
+from .analysis.embed import place_map
 from .cache import Cache, fingerprint
 from .errors import SitegenError
-from .model import MapLayout, PartitionInput, PartitionResult, RunReport
+from .model import MapLayout, MapSample, PartitionInput, PartitionResult, RunReport
 from .progress import Progress
 
 #: Bumped when the way maps are drawn changes in a way the analysis code digest does not see.
@@ -51,6 +51,28 @@ def _one_thread() -> None:
         threadpool_limits(1)
     except Exception:  # pragma: no cover - threadpoolctl ships with scikit-learn
         pass
+
+
+# The analysis code brings in scikit-learn and openTSNE, which the building process itself never
+# uses: only its workers do. So it is imported at a worker's first job (see start_workers, which
+# has the workers import it while this process reads the data), not when this module is.
+def analyse_partition(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
+    """:func:`sitegen.analysis.partition.analyse_partition`, imported at first use."""
+    from .analysis import partition
+
+    return partition.analyse_partition(part, params)
+
+
+def draw_map(sample: MapSample, params: AnalysisParams,
+             previous: tuple[MapSample, MapLayout] | None = None) -> MapLayout:
+    """:func:`sitegen.analysis.partition.draw_map`, imported at first use."""
+    from .analysis import partition
+
+    return partition.draw_map(sample, params, previous)
+
+
+def _import_analysis() -> None:
+    from .analysis import partition  # noqa: F401
 
 
 def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
@@ -132,6 +154,8 @@ class Analyses:
             self._forked_clean = "vl_convert" not in sys.modules
             self._pool = ProcessPoolExecutor(max_workers=n, initializer=_one_thread)
             self._pool.submit(int).result()  # the first job makes the pool start every worker
+            for _ in range(n):  # not waited for: each worker imports the analysis code while the data is read
+                self._pool.submit(_import_analysis)
 
     def __exit__(self, *exc) -> None:
         self.close()

@@ -8,9 +8,12 @@ bytes on every run.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from dataclasses import replace
 
 import numpy as np
 import scipy.sparse as sp
+
+from ..model import MapLayout, PartitionResult
 
 #: Least decks drawn from each group (or all of it when smaller).
 MIN_PER_GROUP = 5
@@ -131,3 +134,18 @@ def _unit(matrix: sp.csr_matrix) -> sp.csr_matrix:
     norms = np.sqrt(np.asarray(matrix.multiply(matrix).sum(axis=1)).ravel())
     norms[norms == 0] = 1.0
     return sp.diags(1.0 / norms) @ matrix
+
+
+def place_map(result: PartitionResult, layout: MapLayout) -> PartitionResult:
+    """``result`` with its drawn decks' map coordinates filled in."""
+    sample = result.map_sample
+    assert sample is not None and layout.coords.shape == (len(sample.drawn), 2)
+    assignments = result.assignments.copy()
+    for axis, column in enumerate(("x", "y")):
+        values = assignments[column].to_numpy(dtype=float, copy=True)
+        values[sample.drawn] = layout.coords[:, axis]
+        assignments[column] = values
+    points = result.map_points.copy()
+    points["x"] = layout.coords[:, 0]
+    points["y"] = layout.coords[:, 1]
+    return replace(result, assignments=assignments, map_points=points)

@@ -18,6 +18,7 @@ from threadpoolctl import threadpool_limits
 from ..model import OTHER_KEY, Archetype, MapLayout, MapSample, PartitionInput, PartitionResult
 from ..slugs import SlugSet, slugify
 from . import cluster, describe, embed, features
+from .embed import place_map  # noqa: F401 - the runner's and the tests' name for it
 from .params import AnalysisParams
 
 ASSIGNMENT_COLUMNS = ("deck_id", "archetype", "distance", "x", "y")
@@ -142,21 +143,6 @@ def draw_map(sample: MapSample, params: AnalysisParams, previous: tuple[MapSampl
             coords = embed.tsne(sample.rows, params.seed, steps, init=start)
     # Decks all alike leave t-SNE nothing to spread (NaN): they are drawn on one spot.
     return MapLayout(coords=np.round(np.where(np.isfinite(coords), coords, 0.0), 3) + 0.0, warm=start is not None)
-
-
-def place_map(result: PartitionResult, layout: MapLayout) -> PartitionResult:
-    """``result`` with its drawn decks' map coordinates filled in."""
-    sample = result.map_sample
-    assert sample is not None and layout.coords.shape == (len(sample.drawn), 2)
-    assignments = result.assignments.copy()
-    for axis, column in enumerate(("x", "y")):
-        values = assignments[column].to_numpy(dtype=float, copy=True)
-        values[sample.drawn] = layout.coords[:, axis]
-        assignments[column] = values
-    points = result.map_points.copy()
-    points["x"] = layout.coords[:, 0]
-    points["y"] = layout.coords[:, 1]
-    return replace(result, assignments=assignments, map_points=points)
 
 
 class _Context:
