@@ -7,11 +7,14 @@ whose leader is :data:`sitegen.model.ALL_LEADERS`.
 """
 from __future__ import annotations
 
+from concurrent.futures import ThreadPoolExecutor
+
 import numpy as np
 import pandas as pd
 
 from .config import Config
 from .model import ALL_LEADERS, DeckData, PartitionInput, coded
+from .resources import usable_cores
 
 
 def card_types(data: DeckData) -> dict[str, str]:
@@ -70,8 +73,9 @@ def split(data: DeckData, cfg: Config) -> list[PartitionInput]:
     types = card_types(data)
     local = np.full(n, -1, dtype=np.int32)
     columns = _card_columns(data.cards)
-    parts: list[PartitionInput] = []
-    for i, (season, leader) in enumerate(order):
+
+    def cut(i: int) -> PartitionInput:
+        season, leader = order[i]
         rows = deck_order[deck_bounds[i]:deck_bounds[i + 1]]
         part_decks = decks.iloc[rows].reset_index(drop=True)
         if not cfg["analysis.by_leader"]:
@@ -91,11 +95,15 @@ def split(data: DeckData, cfg: Config) -> list[PartitionInput]:
         card = part_cards["card"]
         present = (set(card.cat.categories) if isinstance(card.dtype, pd.CategoricalDtype) else set(card.unique())) \
             if types else set()
-        parts.append(PartitionInput(
-            season=season, leader=leader, decks=part_decks, cards=part_cards,
-            card_types={c: types[c] for c in present if c in types},
-        ))
-    return parts
+        return PartitionInput(season=season, leader=leader, decks=part_decks, cards=part_cards,
+                              card_types={c: types[c] for c in present if c in types})
+
+    threads = min(usable_cores(), len(order))
+    if threads < 2 or (by_part is not None and deck_row is not None):  # that way shares ``local``: one at a time
+        return [cut(i) for i in range(len(order))]
+    # Gathering rows releases the GIL, so partitions are cut side by side, one thread per core.
+    with ThreadPoolExecutor(max_workers=threads) as pool:
+        return list(pool.map(cut, range(len(order))))
 
 
 def _deck_rows(data: DeckData) -> np.ndarray | None:

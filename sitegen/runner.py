@@ -13,7 +13,7 @@ import hashlib
 import os
 import sys
 from dataclasses import replace
-from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
+from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, ThreadPoolExecutor, wait
 from typing import Sequence
 
 from . import __version__
@@ -23,6 +23,7 @@ from .cache import Cache, fingerprint
 from .errors import SitegenError
 from .model import MapLayout, MapSample, PartitionInput, PartitionResult, RunReport
 from .progress import Progress
+from .resources import usable_cores
 
 #: Bumped when the way maps are drawn changes in a way the analysis code digest does not see.
 MAP_FORMAT = 1
@@ -82,8 +83,7 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
 
 def worker_count(setting: int, jobs: int) -> int:
     """Workers to start: the setting, or every core when it is 0; never more than jobs."""
-    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
-    wanted = setting or cores
+    wanted = setting or usable_cores()
     return max(1, min(wanted, jobs))
 
 
@@ -174,9 +174,8 @@ class Analyses:
         """Look each partition up in the cache and start the analysis of those not found; how many were started."""
         todo = []
         cached = 0
-        for part in parts:
+        for part, fp in zip(parts, _fingerprints(parts, self.params, self.version)):
             i = len(self._results)
-            fp = fingerprint(part, self.params, self.version)
             self._keys.append((part.season, part.leader))
             self._fps.append(fp)
             hit = self.cache.get(fp) if self.cache is not None else None
@@ -343,6 +342,17 @@ class Analyses:
             fut = self._client.submit(_analyse, part, self.params, key=f"sitegen-{part.season}-{part.leader}-{i}",
                                       retries=3, pure=False)
             self._pending[fut] = i
+
+
+def _fingerprints(parts: Sequence[PartitionInput], params: AnalysisParams, version: str) -> list[str]:
+    """Each partition's fingerprint, one thread per core: hashing and sorting release the GIL
+    for much of their work, and the workers are idle while this process makes them (at 1M
+    decks, 70 partitions on 2 cores: 2.3 s one at a time, 1.5 s two at a time)."""
+    threads_wanted = worker_count(0, len(parts))
+    if threads_wanted < 2:
+        return [fingerprint(p, params, version) for p in parts]
+    with ThreadPoolExecutor(max_workers=threads_wanted) as threads:
+        return list(threads.map(lambda p: fingerprint(p, params, version), parts))
 
 
 def _with_fingerprint(result: PartitionResult, fp: str) -> PartitionResult:
