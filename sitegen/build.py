@@ -46,6 +46,8 @@ class BuildReport:
     timings: dict[str, float] = field(default_factory=dict)
     #: Seasons whose rows of the assignments files were copied from the last build's files.
     copied_blocks: int = 0
+    #: Pages whose context was unchanged, taken from the last build's files instead of rendered.
+    reused_pages: int = 0
 
     def summary(self) -> str:
         w = self.written
@@ -154,14 +156,18 @@ def build(
             notes = load_notes(content) if content is not None else load_notes(cfg.root / "content")
             linked, override_findings = apply_overrides(linked, notes.front_matter_by_slug())
             trends = trend_rows(linked, data.seasons, cfg["trends.min_games"])
-            blocks = _previous_blocks(cache_dir, out) if cache_dir is not None else None
+            last = _last_build(cache_dir)
+            blocks = _previous_blocks(last, out) if cache_dir is not None else None
+            pages = _previous_pages(last, out, templates_dirs(cfg)) if cache_dir is not None else None
             # The workers are idle while pages render: they check the charts meanwhile.
             with progress.stage("rendering pages"), checked_by(runs.idle_pool()):
                 files, render_findings = render_site(SiteInput(
                     cfg=cfg, data=data, results=tuple(linked), history=history, notes=notes,
                     findings=data.findings, templates_dirs=templates_dirs(cfg), trends=trends,
-                    export_blocks=blocks,
+                    export_blocks=blocks, page_memo=pages,
                 ))
+                if pages is not None and pages.reused:
+                    progress.say(f"  {pages.reused:,} page(s) unchanged, taken from the last build")
         with progress.stage("writing the site"):
             written = write_site(out, files)
         warnings = tuple(data.findings) + tuple(override_findings) + tuple(render_findings)
@@ -178,8 +184,9 @@ def build(
             seconds=time.perf_counter() - start,
             timings=dict(progress.timings),
             copied_blocks=blocks.reused if blocks is not None else 0,
+            reused_pages=pages.reused if pages is not None else 0,
         )
-        _write_stamp(cache_dir, stamp, report, blocks.new_index if blocks is not None else [])
+        _write_stamp(cache_dir, stamp, report, blocks.new_index if blocks is not None else [], pages)
     return report
 
 
@@ -285,16 +292,31 @@ def _output_listing(out: Path) -> list[list]:
 _BLOCK_FILES = ("data/assignments.csv", "data/assignments.json")
 
 
-def _previous_blocks(cache_dir: Path, out: Path):
+def _last_build(cache_dir: Path | None) -> dict | None:
+    """The last build's record (see :func:`_write_stamp`), or None."""
+    if cache_dir is None:
+        return None
+    try:
+        record = json.loads((cache_dir / _STAMP_FILE).read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    return record if isinstance(record, dict) else None
+
+
+def _listing(record: dict) -> dict[str, tuple[int, int]]:
+    """Each output file of the last build with the (size, time of change) it left it at."""
+    return {path: (size, mtime) for path, size, mtime in record["output"]}
+
+
+def _previous_blocks(record: dict | None, out: Path):
     """The last build's assignments files and the index of their season blocks, when both
     files are still as that build left them (same size and time of change); else none."""
     from .site.exports import ExportBlocks
 
     try:
-        record = json.loads((cache_dir / _STAMP_FILE).read_text(encoding="utf-8"))
-        if not record.get("export_blocks"):
+        if not record or not record.get("export_blocks"):
             return ExportBlocks()  # nothing to copy: the files need not be read
-        listed = {path: (size, mtime) for path, size, mtime in record["output"]}
+        listed = _listing(record)
         files = []
         for name in _BLOCK_FILES:
             st = (out / name).stat()
@@ -306,10 +328,26 @@ def _previous_blocks(cache_dir: Path, out: Path):
         return ExportBlocks()
 
 
-def _write_stamp(cache_dir: Path | None, stamp: str, report: BuildReport, blocks: list) -> None:
+def _previous_pages(record: dict | None, out: Path, template_dirs: tuple[Path, ...]):
+    """The last build's page keys, for pages whose context is unchanged (site/memo.py);
+    none when the templates or sitegen's code changed since."""
+    from .site.memo import PageMemo, render_salt
+
+    salt = render_salt(template_dirs)
+    try:
+        pages = record.get("pages") if record else None
+        if not pages or pages.get("salt") != salt:
+            return PageMemo(salt)
+        return PageMemo(salt, out, {str(k): str(v) for k, v in pages["keys"].items()}, _listing(record))
+    except (ValueError, KeyError, TypeError, AttributeError):
+        return PageMemo(salt)
+
+
+def _write_stamp(cache_dir: Path | None, stamp: str, report: BuildReport, blocks: list, pages=None) -> None:
     if cache_dir is None:
         return
-    record = {"stamp": stamp, "output": _output_listing(report.output), "export_blocks": blocks, "report": {
+    record = {"stamp": stamp, "output": _output_listing(report.output), "export_blocks": blocks,
+              "pages": {"salt": pages.salt, "keys": pages.keys} if pages is not None else None, "report": {
         "decks": report.decks, "seasons": report.seasons, "leaders": report.leaders,
         "archetypes": report.archetypes, "partitions": report.partitions,
         "partition_keys": [list(k) for k in report.run.analysed + report.run.cached],
@@ -326,10 +364,10 @@ def _write_stamp(cache_dir: Path | None, stamp: str, report: BuildReport, blocks
 
 def _read_stamp(cache_dir: Path | None, stamp: str, out: Path) -> BuildReport | None:
     """The last build's report when its inputs and its output are exactly as they were."""
-    if cache_dir is None:
+    record = _last_build(cache_dir)
+    if record is None:
         return None
     try:
-        record = json.loads((cache_dir / _STAMP_FILE).read_text(encoding="utf-8"))
         if record.get("stamp") != stamp or record.get("output") != _output_listing(out):
             return None
         r = record["report"]

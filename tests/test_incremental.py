@@ -4,6 +4,7 @@ edits to the scaffold's sample data)."""
 from __future__ import annotations
 
 import os
+from pathlib import Path
 
 import pytest
 
@@ -66,6 +67,8 @@ def test_changing_one_deck_reanalyses_only_its_partition(project, tmp_path):
     assert report.copied_blocks == 1
     # Its map is redrawn, and so are the later maps of its leader (each starts from the one before).
     assert where in report.run.mapped and all(leader == where[1] for _, leader in report.run.mapped)
+    # Pages whose context did not change are taken from the last build, and the site is still a clean build's.
+    assert 0 < report.reused_pages < report.written.files
     assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")
 
 
@@ -138,3 +141,28 @@ def test_overrides_survive_a_rebuild_that_adds_a_season(project, tmp_path):
     assert hide not in by_slug and merge not in by_slug
     first = next(a for a in by_slug[keep] if a["season"] == "First Tide")
     assert first["decks"] == wren[0]["decks"] + wren[2]["decks"]  # the merged archetype's decks joined it
+
+
+def test_a_page_edited_in_the_output_is_rendered_again(project, tmp_path):
+    # A page whose file is not as the last build left it is never reused, though its context is unchanged.
+    build(project, quiet=True)
+    page = next(p for p in sorted((project.parent / "site" / "cards").glob("*.html")))
+    page.write_bytes(page.read_bytes().replace(b"</main>", b"<p>edited by hand</p></main>"))
+    change_one_deck(project.parent)
+    report = build(project, quiet=True)
+    assert report.reused_pages > 0
+    assert b"edited by hand" not in page.read_bytes()
+    assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")
+
+
+def test_a_changed_template_renders_every_page_again(project, tmp_path):
+    # The memo's keys cover the templates: after an override of the base layout no page is reused.
+    build(project, quiet=True)
+    own = project.parent / "templates"
+    own.mkdir(exist_ok=True)
+    base = (Path(__file__).resolve().parent.parent / "templates" / "base.html").read_text(encoding="utf-8")
+    (own / "base.html").write_text(base.replace("</main>", "<p>Printed in the harbour.</p></main>"), encoding="utf-8")
+    report = build(project, quiet=True)
+    assert report.reused_pages == 0
+    assert "Printed in the harbour." in (project.parent / "site" / "index.html").read_text(encoding="utf-8")
+    assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")

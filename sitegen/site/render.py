@@ -30,6 +30,7 @@ from ..slugs import SlugSet
 from . import assets, exports
 from . import charts as ch
 from . import pages as P
+from .memo import PageMemo
 from .notes import Note, Notes, orphan_findings
 from .search import SearchEntry, search_files
 from .sitemap import sitemap_files
@@ -64,6 +65,8 @@ class SiteInput:
     trends: dict | None = None
     #: The last build's assignments files by season, to copy unchanged seasons from (see exports.ExportBlocks).
     export_blocks: exports.ExportBlocks | None = None
+    #: The last build's page keys, to reuse pages whose context is unchanged (see memo.PageMemo).
+    page_memo: PageMemo | None = None
 
 
 # -- template environment ---------------------------------------------------
@@ -298,8 +301,15 @@ class Renderer:
                     absolute=False, inline_style="", style_hash="")
 
     def _emit(self, template: str, page: Any) -> None:
+        context = _context(page)
+        memo = self.site.page_memo
+        if memo is not None:
+            body = memo.reuse(page.path, memo.key(page.path, template, context))
+            if body is not None:
+                self.out[page.path] = body
+                return
         try:
-            html = self.env.get_template(template).render(**_context(page))
+            html = self.env.get_template(template).render(**context)
         except jinja2.TemplateError as exc:
             where, line = _template_place(exc, template)
             raise RenderError(f"template {where}{f', line {line}' if line else ''}: {exc} (page {page.path})") from exc
