@@ -14,10 +14,13 @@ import hashlib
 import json
 import math
 import re
+from collections import Counter
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Iterable, Iterator, Mapping, Sequence
+
+import numpy as np
 
 from ..errors import RenderError
 from ..model import ALL_LEADERS, OTHER_KEY, PartitionResult
@@ -336,15 +339,18 @@ def map_chart(result: PartitionResult, names: Mapping[str, str], chart_id: str) 
     order = [g.key for g in result.groups] + sorted(set(keys_seen) - set(groups))
     style = _style([(display(k), k == OTHER_KEY or (k in groups and groups[k].is_other)) for k in order])
 
-    values = []
-    counts: dict[str, int] = {}
-    for deck, key, x, y, cards in zip(points["deck_id"], keys_seen, points["x"], points["y"], points["cards"]):
-        xv, yv = _num(x, 3), _num(y, 3)
-        if xv is None or yv is None:  # a deck left off the map
-            continue
-        name = display(key)
-        counts[name] = counts.get(name, 0) + 1
-        values.append({"deck": str(deck), "archetype": name, "cards": str(cards), "x": xv, "y": yv})
+    # As _num(x, 3) point by point, but the finite test is done on whole columns: a season page
+    # draws thousands of points for each of its leaders.
+    xs = points["x"].to_numpy(dtype=float, na_value=np.nan) if len(points) else np.zeros(0)
+    ys = points["y"].to_numpy(dtype=float, na_value=np.nan) if len(points) else np.zeros(0)
+    drawn_rows = np.flatnonzero(np.isfinite(xs) & np.isfinite(ys))  # the others were left off the map
+    shown = {key: display(key) for key in dict.fromkeys(keys_seen)}
+    names_drawn = [shown[keys_seen[i]] for i in drawn_rows.tolist()]
+    decks, cards = points["deck_id"].to_numpy(dtype=object), points["cards"].to_numpy(dtype=object)
+    values = [{"deck": str(deck), "archetype": name, "cards": str(card), "x": round(x, 3), "y": round(y, 3)}
+              for deck, name, card, x, y in zip(decks[drawn_rows].tolist(), names_drawn, cards[drawn_rows].tolist(),
+                                               xs[drawn_rows].tolist(), ys[drawn_rows].tolist())]
+    counts = Counter(names_drawn)
 
     bare_axis = {"type": "quantitative", "axis": None, "scale": {"zero": False, "nice": False}}
     spec = {
