@@ -309,15 +309,21 @@ def _rename_decks(part, renames: dict[str, str]) -> None:
         table.to_parquet(part / name, index=False)
 
 
-def test_a_deck_id_shared_with_a_remembered_season_is_the_same_error(tmp_path, monkeypatch):
-    # Planted: after a build of five seasons, Season 3 renames two decks to ids of Season 1 (s1d3, an earlier
-    # season) and of Season 5 (s5d6, a later one); both other seasons come from the memo. The errors name the
-    # same files and rows as a first pass without a memo, and only the two clashing deck tables are read again.
+def _five_seasons_built(tmp_path, monkeypatch):
+    """Five planted seasons built once, with the first pass of every build recorded."""
     _five_seasons(tmp_path)
     cfg = config(tmp_path, site={"output": "site"}, cache={"folder": "cache"},
                  analysis={"workers": 1, "min_decks": 5}, data={"parquet_folder": "pq"})
     passes = _spy_on_the_first_pass(monkeypatch)
     build(cfg=cfg, quiet=True)
+    return cfg, passes
+
+
+def test_a_deck_id_shared_with_a_remembered_season_is_the_same_error(tmp_path, monkeypatch):
+    # Planted: after a build of five seasons, Season 3 renames two decks to ids of Season 1 (s1d3, an earlier
+    # season) and of Season 5 (s5d6, a later one); both other seasons come from the memo. The errors name the
+    # same files and rows as a first pass without a memo, and only the two clashing deck tables are read again.
+    cfg, passes = _five_seasons_built(tmp_path, monkeypatch)
     _rename_decks(tmp_path / "pq" / "season=Season 3", {"s3d3": "s1d3", "s3d6": "s5d6"})
 
     with pytest.raises(DataErrors) as remembered:
@@ -340,11 +346,7 @@ def test_a_damaged_summary_means_the_season_is_read_again(tmp_path, monkeypatch)
     # reads those two seasons again (and stores them afresh), and the site is byte for byte the first one.
     from _sites import tree
 
-    _five_seasons(tmp_path)
-    cfg = config(tmp_path, site={"output": "site"}, cache={"folder": "cache"},
-                 analysis={"workers": 1, "min_decks": 5}, data={"parquet_folder": "pq"})
-    passes = _spy_on_the_first_pass(monkeypatch)
-    build(cfg=cfg, quiet=True)
+    cfg, passes = _five_seasons_built(tmp_path, monkeypatch)
     first_site = tree(tmp_path / "site")
     entries = _summaries(tmp_path / "cache")
     garbled = bytearray(entries[2].read_bytes())
