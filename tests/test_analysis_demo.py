@@ -21,7 +21,8 @@ from sklearn.metrics import adjusted_rand_score
 from _planted import planted_partition
 from sitegen import config
 from sitegen.analysis.params import AnalysisParams
-from sitegen.analysis.partition import analyse_partition, draw_map, place_map
+from sitegen.analysis.embed import place_map
+from sitegen.analysis.partition import analyse_partition, draw_map
 from sitegen.model import OTHER_KEY, PartitionInput
 
 ROOT = Path(__file__).resolve().parents[1]

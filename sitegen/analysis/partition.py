@@ -18,7 +18,6 @@ from threadpoolctl import threadpool_limits
 from ..model import OTHER_KEY, Archetype, MapLayout, MapSample, PartitionInput, PartitionResult
 from ..slugs import SlugSet, slugify
 from . import cluster, describe, embed, features
-from .embed import place_map  # noqa: F401 - the runner's and the tests' name for it
 from .params import AnalysisParams
 
 ASSIGNMENT_COLUMNS = ("deck_id", "archetype", "distance", "x", "y")
