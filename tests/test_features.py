@@ -30,6 +30,38 @@ def test_build_matrix_orders_decks_as_given_and_cards_by_name():
     assert sp.isspmatrix_csr(counts)
 
 
+@pytest.mark.parametrize("as_partition", [True, False])
+def test_build_matrix_equals_a_pandas_pivot(as_partition):
+    # Reference: pandas pivot_table (sum of copies per deck and card, cards sorted by name). Rows as
+    # partitions.split gives them (categoricals whose categories are the decks in order and every card
+    # used, sorted) take the path without lookups; the same rows as plain text take the general one.
+    rng = np.random.default_rng(5)
+    decks = [f"deck-{i:03d}" for i in range(120)]
+    names = sorted(f"Card {chr(65 + i // 26)}{chr(97 + i % 26)}" for i in range(60))
+    picked = [(d, c) for d in decks for c in sorted(rng.choice(names, size=int(rng.integers(0, 12)), replace=False))]
+    rows = pd.DataFrame(picked, columns=["deck_id", "card"])
+    rows["quantity"] = rng.integers(1, 4, size=len(rows))
+    if as_partition:
+        used = sorted(set(rows["card"]))
+        rows["deck_id"] = pd.Categorical(rows["deck_id"], categories=decks)
+        rows["card"] = pd.Categorical(rows["card"], categories=used)
+    expected = (pd.DataFrame(picked, columns=["deck_id", "card"]).assign(quantity=rows["quantity"])
+                .pivot_table(index="deck_id", columns="card", values="quantity", aggfunc="sum", fill_value=0)
+                .reindex(index=decks, fill_value=0))
+    counts, cards = features.build_matrix(rows, decks)
+    assert list(cards) == list(expected.columns)
+    assert counts.has_sorted_indices and counts.toarray().tolist() == expected.to_numpy().tolist()
+
+
+def test_tfidf_of_an_empty_row_equals_scikit_learn():
+    # Reference: sklearn TfidfTransformer leaves an all-zero row zero; copies as tf, presence as tf.
+    counts = sp.csr_matrix(np.array([[2.0, 0.0, 1.0], [0.0, 0.0, 0.0], [1.0, 3.0, 0.0]]))
+    for use_presence in (True, False):
+        term = (counts > 0).astype(float) if use_presence else counts
+        expected = TfidfTransformer(norm="l2", smooth_idf=True).fit_transform(term).toarray()
+        np.testing.assert_allclose(features.tfidf(counts, use_presence=use_presence).toarray(), expected, atol=1e-12)
+
+
 @pytest.mark.parametrize("use_presence", [True, False])
 def test_tfidf_equals_scikit_learn(use_presence):
     # Reference: sklearn TfidfTransformer(norm="l2", use_idf=True, smooth_idf=True, sublinear_tf=False),

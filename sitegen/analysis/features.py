@@ -11,6 +11,7 @@ from collections.abc import Sequence
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
 import scipy.sparse as sp
 from sklearn.decomposition import TruncatedSVD
 
@@ -26,25 +27,34 @@ def build_matrix(cards_df: pd.DataFrame, deck_ids: Sequence[str]) -> tuple[sp.cs
     """
     # Codes first (a categorical's own, else factorised), then look up only the distinct values.
     deck_codes, deck_uniques = _codes(cards_df["deck_id"])
-    rows = pd.Index(list(deck_ids)).get_indexer(pd.Index(deck_uniques))[deck_codes]
-    keep = (deck_codes >= 0) & (rows >= 0)
+    if _same_values(deck_uniques, deck_ids):
+        rows = deck_codes  # a partition's own categories: its decks, in order (see partitions.split)
+    else:
+        rows = pd.Index(list(deck_ids)).get_indexer(pd.Index(deck_uniques))[deck_codes]
     card_codes, card_uniques = _codes(cards_df["card"])
-    keep &= card_codes >= 0  # a missing card name is no column
-    card_codes = card_codes[keep]
+    keep = (rows >= 0) & (card_codes >= 0)  # a missing card name is no column
+    whole = bool(keep.all())
+    if not whole:
+        rows, card_codes = rows[keep], card_codes[keep]
     used = np.flatnonzero(np.bincount(card_codes, minlength=len(card_uniques)))  # sorted, like np.unique
     names = [str(n) for n in np.asarray(card_uniques, dtype=object)[used].tolist()]
     order = sorted(range(len(names)), key=names.__getitem__)
     cards = tuple(names[i] for i in order)
-    column_of = np.full(len(card_uniques), -1, dtype=np.intp)
-    column_of[used[order]] = np.arange(len(order))
-    qty = np.asarray(cards_df["quantity"], dtype=np.float64)[keep]
-    rows, columns = rows[keep], column_of[card_codes]
+    if used.size == len(card_uniques) and order == list(range(len(order))):
+        columns = card_codes  # every category used, in name order: a code is its column
+    else:
+        column_of = np.full(len(card_uniques), -1, dtype=np.intp)
+        column_of[used[order]] = np.arange(len(order))
+        columns = column_of[card_codes]
+    qty = np.asarray(cards_df["quantity"], dtype=np.float64)
+    if not whole:
+        qty = qty[keep]
     shape = (len(deck_ids), len(cards))
     if in_row_order(rows, columns) and (qty != 0).all():
         # Rows by deck and, within a deck, cards in column order, once each (the loader's order):
         # that is CSR already, without the sort a conversion from coordinates makes.
         indptr = np.concatenate([[0], np.cumsum(np.bincount(rows, minlength=shape[0]))])
-        return sp.csr_matrix((qty, columns.astype(np.int32, copy=False), indptr), shape=shape), cards
+        return sp.csr_matrix((qty, columns.astype(np.int32), indptr), shape=shape), cards
     counts = sp.csr_matrix((qty, (rows, columns)), shape=shape)
     counts.sum_duplicates()
     counts.eliminate_zeros()
@@ -52,9 +62,20 @@ def build_matrix(cards_df: pd.DataFrame, deck_ids: Sequence[str]) -> tuple[sp.cs
     return counts, cards
 
 
+def _same_values(index: pd.Index, values: Sequence[str]) -> bool:
+    """True when ``index`` holds exactly ``values``, in that order (compared, not hashed)."""
+    if len(index) != len(values):
+        return False
+    try:  # Arrow compares a partition's ids several times faster than Python objects
+        mine = pa.chunked_array(index.array.__arrow_array__()).combine_chunks()
+        return mine.equals(pa.array(values, type=mine.type))
+    except (AttributeError, TypeError, pa.ArrowException):
+        return bool(np.array_equal(np.asarray(index, dtype=object), np.asarray(values, dtype=object)))
+
+
 def _codes(column: pd.Series) -> tuple[np.ndarray, pd.Index]:
     if isinstance(column.dtype, pd.CategoricalDtype):
-        return np.asarray(column.cat.codes.to_numpy(), dtype=np.intp), column.cat.categories
+        return np.asarray(column.array.codes), column.cat.categories  # no copy: only read here
     codes, uniques = pd.factorize(column, sort=False)
     return codes, pd.Index(uniques)
 
@@ -101,10 +122,20 @@ def tfidf(counts: sp.csr_matrix, *, use_presence: bool = True) -> sp.csr_matrix:
     scikit-learn's ``TfidfTransformer(norm="l2", use_idf=True,
     smooth_idf=True, sublinear_tf=False)`` applied to the same tf matrix.
     """
-    term = presence(counts) if use_presence else sp.csr_matrix(counts, dtype=np.float64, copy=True)
-    weights = idf(term)
-    term.data *= weights[term.indices]
-    return l2_rows(term)
+    counts = sp.csr_matrix(counts)
+    weights = idf(counts)  # df counts stored entries: the same for presence and copies
+    # One new data array, scaled in place: as presence() then l2_rows() would, without their copies.
+    data = weights[counts.indices] if use_presence else counts.data.astype(np.float64) * weights[counts.indices]
+    shape = counts.shape
+    # Row sums of squares added up as scipy's .sum(axis=1) adds them (reduceat over non-empty rows):
+    # the same bits as before, without building the squared matrix.
+    norms = np.ones(shape[0])
+    filled = np.flatnonzero(np.diff(counts.indptr))
+    if filled.size:
+        squares = np.sqrt(np.add.reduceat(data * data, counts.indptr[filled]))
+        norms[filled] = np.where(squares == 0, 1.0, squares)
+    data /= np.repeat(norms, np.diff(counts.indptr))
+    return sp.csr_matrix((data, counts.indices.copy(), counts.indptr.copy()), shape=shape)
 
 
 def reduce(weights: sp.csr_matrix, dims: int, seed: int, fit_sample: int | None = None) -> np.ndarray:
