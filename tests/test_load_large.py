@@ -184,3 +184,60 @@ def test_row_order_check_agrees_with_lexsort_at_block_edges(dtype):
     for name, (r, c) in cases.items():
         assert in_row_order(r, c) == _in_order_by_lexsort(r, c), name
     assert sum(not _in_order_by_lexsort(r, c) for r, c in cases.values()) == 8  # every planted fault is one
+
+
+def test_card_categories_come_sorted_as_python_sorts():
+    # Reference: Python's sorted() (code point order); the reader sorts the categories of a card
+    # column of many row groups, so later steps can skip looking codes up by name.
+    _, cards = _planted(8)
+    cards.loc[cards.index[::3], "card"] = "Émile"  # non-ASCII sorts after every ASCII name
+    table = pa.Table.from_pandas(cards, preserve_index=False)
+    from sitegen.load.tables import _chunks_as_categories
+
+    names = table.column("card").combine_chunks()
+    # 15 chunks, each with a dictionary of its own in order of first appearance (as row groups read).
+    column = pa.chunked_array([names.slice(i, 10_000).dictionary_encode() for i in range(0, len(cards), 10_000)])
+    got = _chunks_as_categories(column)
+    assert list(got.cat.categories) == sorted(set(cards["card"]))
+    assert got.astype(str).tolist() == cards["card"].tolist()
+
+
+def test_dates_parsed_once_per_text_equal_python_fromisoformat():
+    # Reference: Python's datetime.date.fromisoformat (stdlib, ISO 8601 dates) row by row, on
+    # 6 000 rows of 5 distinct texts: the loader parses each distinct text once.
+    import datetime as dt
+
+    from sitegen.load.normalise import _parse_dates
+
+    texts = ["2026-03-01", "2026-03-02", "not a date", "", " 2026-02-28 "]
+    column = pd.Series([texts[i % 5] for i in range(6000)], dtype="str")
+    dates, bad, empty = _parse_dates(column)
+
+    def reference(text):
+        try:
+            return dt.date.fromisoformat(text.strip())
+        except ValueError:
+            return None
+
+    expected = [reference(t) for t in column]
+    assert [None if pd.isna(d) else d.date() for d in dates] == expected
+    assert bad.tolist() == [i for i, t in enumerate(column) if t.strip() and expected[i] is None]
+    assert empty.tolist() == [i for i, t in enumerate(column) if not t.strip()]
+
+
+def test_trim_check_agrees_with_python_unicode_data():
+    # Reference: Python's str.isspace and unicodedata's Cc category (C0/C1 controls), plus the
+    # byte order mark, at either end of a text: what the loader trims. The check looks at bytes
+    # first, so texts ending in multi-byte characters (accents, CJK spaces) are the hard cases.
+    import unicodedata
+
+    from sitegen.load.normalise import _needs_trim
+
+    def trims(c):
+        return c.isspace() or unicodedata.category(c) == "Cc" or c == "\ufeff"
+
+    edges = ["a", "Z", "9", "é", "ß", " ", "\t", "\u00a0", "\u3000", "\u2009", "\ufeff", "\x7f", "\x85", "中", "-"]
+    texts = [f"{a}mid{b}" for a in edges for b in edges] + ["", "é", " ", "x"]
+    values = pa.array(texts * 3).slice(7)  # a sliced array: its offsets do not start at 0
+    expected = [bool(t) and (trims(t[0]) or trims(t[-1])) for t in values.to_pylist()]
+    assert _needs_trim(values).tolist() == expected

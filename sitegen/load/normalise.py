@@ -85,6 +85,7 @@ class _Problems:
 
 #: Integer codes of distinct values: numpy gathers with 32-bit indices several times faster than with 64-bit.
 _CODE = np.int32
+_NARROW_CODES = (np.dtype(np.int8), np.dtype(np.int16), np.dtype(np.int32))
 
 
 def _factorize(series: pd.Series) -> tuple[np.ndarray, list]:
@@ -151,7 +152,8 @@ def _codes(series: pd.Series) -> tuple[np.ndarray, list[str]]:
         if cleaned != names[i]:
             names[i] = cleaned
             changed = True
-    codes = np.asarray(codes, dtype=_CODE)
+    if codes.dtype not in _NARROW_CODES:
+        codes = codes.astype(_CODE)  # a categorical's own codes stay as narrow as they are (no copy)
     if not changed:
         return codes, names
     codes2, uniq2 = pd.factorize(pd.Series(names, dtype=object), sort=False)
@@ -213,15 +215,40 @@ def _distinct_codes(series: pd.Series) -> tuple[np.ndarray, list[str], np.ndarra
     values = _arrow_text(series)
     if values is None or values.null_count or len(values) < 2:
         return None
-    if pc.any(pc.match_substring_regex(values, _NEEDS_TRIM)).as_py():
+    if _needs_trim(values).any():
         return None
+    every = np.arange(len(values), dtype=_CODE)
+    if pc.all(pc.greater(values[1:], values[:-1])).as_py():
+        return every, values.to_pylist(), every  # ascending already (ids written in order): no sort
     by_name = pc.sort_indices(values)
     in_order = values.take(by_name)
     if pc.any(pc.equal(in_order[1:], in_order[:-1])).as_py():
         return None
     rank = np.empty(len(values), dtype=_CODE)
-    rank[by_name.to_numpy()] = np.arange(len(values), dtype=_CODE)
-    return np.arange(len(values), dtype=_CODE), values.to_pylist(), rank
+    rank[by_name.to_numpy()] = every
+    return every, values.to_pylist(), rank
+
+
+def _needs_trim(values: pa.Array) -> np.ndarray:
+    """For each text of ``values`` (no nulls), whether it starts or ends with a character
+    :func:`clean_text` trims. Each text's first and last byte are looked at first: ASCII
+    letters, digits and punctuation there clear it; only the rest (spaces, controls, any
+    non-ASCII byte) are matched against the pattern, usually a handful of a million."""
+    if not pa.types.is_string(values.type) or values.null_count:
+        return pc.match_substring_regex(values, _NEEDS_TRIM).to_numpy(zero_copy_only=False)
+    _, offsets_buffer, data_buffer = values.buffers()
+    offsets = np.frombuffer(offsets_buffer, dtype=np.int32, count=len(values) + 1, offset=values.offset * 4)
+    data = np.frombuffer(data_buffer, dtype=np.uint8) if data_buffer is not None else np.zeros(0, dtype=np.uint8)
+    starts, ends = offsets[:-1], offsets[1:]
+    filled = np.flatnonzero(ends > starts)
+    first, last = data[starts[filled]], data[ends[filled] - 1]
+    suspect = np.zeros(len(values), dtype=bool)
+    suspect[filled] = (first <= 0x20) | (first >= 0x7F) | (last <= 0x20) | (last >= 0x7F)
+    maybe = np.flatnonzero(suspect)
+    if maybe.size:
+        suspect[maybe] = pc.match_substring_regex(values.take(pa.array(maybe)), _NEEDS_TRIM).to_numpy(
+            zero_copy_only=False)
+    return suspect
 
 
 def _trimmed(series: pd.Series) -> pd.Series:
@@ -231,7 +258,7 @@ def _trimmed(series: pd.Series) -> pd.Series:
     if values is None:
         return _cleaned(series).reset_index(drop=True)
     values = pc.fill_null(values, "")
-    flagged = np.flatnonzero(pc.match_substring_regex(values, _NEEDS_TRIM).to_numpy(zero_copy_only=False))
+    flagged = np.flatnonzero(_needs_trim(values))
     out = pd.Series(values.to_pandas(), dtype="str")
     if flagged.size:
         out.iloc[flagged] = [clean_text(v) for v in out.iloc[flagged].tolist()]
@@ -250,6 +277,8 @@ def _row_deck_codes(ids: pd.Series, deck_ids: pd.Series, deck_codes: np.ndarray,
     if isinstance(ids.dtype, pd.CategoricalDtype):
         categories, codes = ids.cat.categories, ids.array.codes
         if len(categories) == len(deck_ids) and categories.equals(pd.Index(deck_ids)) and not (codes < 0).any():
+            if _is_arange(deck_codes):  # the deck table's ids were distinct: a category is its code
+                return codes.astype(_CODE, copy=False), deck_names, True
             return np.asarray(deck_codes, dtype=_CODE)[codes], deck_names, True
     codes, names = _codes(ids)
     return codes, names, names == deck_names
@@ -323,7 +352,22 @@ def _parse_dates(series: pd.Series) -> tuple[pd.Series, np.ndarray, np.ndarray]:
     """Dates (NaT where empty or bad), positions of bad values, positions of empty ones.
 
     Times with an offset are read in UTC, so mixed offsets never fail the parse.
+    A season's decks share a few hundred dates: each distinct text is parsed once.
     """
+    values = _arrow_text(series)
+    if values is None or len(values) < 1000:
+        return _parse_each_date(series)
+    encoded = pc.dictionary_encode(pc.fill_null(values, ""))
+    dates, bad, empty = _parse_each_date(pd.Series(encoded.dictionary.to_pandas(), dtype="str"))
+    codes = encoded.indices.to_numpy(zero_copy_only=False)
+    is_bad, is_empty = np.zeros(len(dates), dtype=bool), np.zeros(len(dates), dtype=bool)
+    is_bad[bad], is_empty[empty] = True, True
+    return (pd.Series(dates.to_numpy()[codes], dtype=dates.dtype), np.flatnonzero(is_bad[codes]),
+            np.flatnonzero(is_empty[codes]))
+
+
+def _parse_each_date(series: pd.Series) -> tuple[pd.Series, np.ndarray, np.ndarray]:
+    """:func:`_parse_dates` of every row on its own."""
     text = pd.Series(series.to_numpy(dtype=object), dtype="str").fillna("").str.strip()
     empty = (text == "").to_numpy(dtype=bool)
     try:
@@ -443,7 +487,10 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
                       values=[deck_names[deck_codes[p]] for p in shown],
                       notes=[f" (also row {decks.where(np.array([first[int(deck_codes[p])]]), 'deck_id')[0][1]})" for p in shown],
                       fix="give each deck one row and its own id")
-    deck_id = _text(deck_names, deck_codes)
+    if distinct is not None and frame["deck_id"].dtype == "str":
+        deck_id = frame["deck_id"].reset_index(drop=True)  # the ids as read: distinct, and none needed trimming
+    else:
+        deck_id = _text(deck_names, deck_codes)
 
     leader = _cleaned(frame["leader"])
     problems.flag(decks, np.flatnonzero((leader == "").to_numpy()), "deck has no leader", column="leader",
@@ -452,7 +499,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     dates = None
     if "date" in frame:
         dates, bad, empty = _parse_dates(frame["date"])
-        problems.flag(decks, bad, "not a date", column="date", values=frame["date"].to_numpy()[bad[:ERRORS_PER_PROBLEM]],
+        problems.flag(decks, bad, "not a date", column="date", values=frame["date"].iloc[bad[:ERRORS_PER_PROBLEM]].to_numpy(),
                       fix="write dates as YYYY-MM-DD, for example 2026-03-01")
     calendar = None
     if source == "calendar":
@@ -470,7 +517,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
             season[inside] = name
         outside = np.flatnonzero(dates.notna().to_numpy() & (season == "").to_numpy())
         problems.flag(decks, outside, "date falls in no season of seasons.calendar",
-                      column="date", values=frame["date"].to_numpy()[outside[:ERRORS_PER_PROBLEM]],
+                      column="date", values=frame["date"].iloc[outside[:ERRORS_PER_PROBLEM]].to_numpy(),
                       fix="add a season covering this date to seasons.calendar, or correct the date")
         season = season.astype("str")
     else:
@@ -486,7 +533,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         if column in frame:
             values, bad = parse_counts(frame[column], positive=False)
             problems.flag(decks, bad, f"{column} is not a whole number of 0 or more", column=column,
-                          values=_as_written(decks, frame[column].to_numpy()[bad[:ERRORS_PER_PROBLEM]]),
+                          values=_as_written(decks, frame[column].iloc[bad[:ERRORS_PER_PROBLEM]].to_numpy()),
                           fix="write a count like 3, or leave it empty")
             results[column] = values.reset_index(drop=True)
         else:
@@ -522,7 +569,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         quantity = parsed.to_numpy(dtype=np.int64, na_value=0)
         del parsed
     problems.flag(cards, bad, "quantity is not a whole number of 1 or more", column="quantity",
-                  values=_as_written(cards, cframe["quantity"].to_numpy()[bad[:ERRORS_PER_PROBLEM]]),
+                  values=_as_written(cards, cframe["quantity"].iloc[bad[:ERRORS_PER_PROBLEM]].to_numpy()),
                   fix="write the number of copies, like 2 (delete rows of cards the deck does not play)")
 
     # Decks known to one table and not the other, both directions.
@@ -554,8 +601,9 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     if deck_rank is None:
         deck_rank = _rank(deck_names)
     card_rank = _rank(card_names)
-    row_deck = (deck_rank if same_decks else _rank(cdeck_names))[cdeck_codes]
-    if in_row_order(row_deck, card_codes, card_rank):
+    row_rank = deck_rank if same_decks else _rank(cdeck_names)
+    row_deck = cdeck_codes if _is_arange(row_rank) else row_rank[cdeck_codes]  # ids in sorted order already
+    if in_row_order(row_deck, card_codes, None if _is_arange(card_rank) else card_rank):
         # The usual case: grouped by deck and sorted by card already, so no row repeats another.
         order, in_order, same = None, True, np.array([], dtype=np.int64)
     else:
@@ -622,7 +670,8 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     present = set(season.unique().tolist())
     first_date: dict[str, pd.Timestamp] = {}
     if dates is not None and dates.notna().any():
-        first_date = {str(k): v for k, v in dates.groupby(season.to_numpy()).min().dropna().items()}
+        season_codes, season_names = _codes(season)  # grouping by a few codes, not a million texts
+        first_date = {season_names[k]: v for k, v in pd.Series(dates.to_numpy()).groupby(season_codes).min().dropna().items()}
     seasons = _season_order(present, cfg, calendar, first_date)
     decks_out = pd.DataFrame({
         "deck_id": deck_id, "season": season.reset_index(drop=True), "leader": leader,
@@ -643,7 +692,9 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     deck_row = row_deck if same_decks and in_order else deck_rank[where_in_decks][deck_row]
     del row_deck
     card_list = sorted(set(canonical))
-    card_code = pd.Index(card_list).get_indexer(canonical).astype(_CODE)[card_code]
+    column_of = pd.Index(card_list).get_indexer(canonical).astype(_CODE)
+    if not _is_arange(column_of):  # names read sorted and spelt once (the usual case) are their columns already
+        card_code = column_of[card_code]
     if any(c != n for c, n in zip(canonical, card_names)):
         # Spellings that became one name may now sit twice in a deck: add them up and re-sort.
         before = qty.size
@@ -655,8 +706,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
             findings.append(added_up_finding(before - qty.size))
     cards_out = pd.DataFrame(copy=False, data={
         "deck_id": coded(deck_row.astype(np.int32, copy=False), pd.Index(decks_out["deck_id"], dtype="str")),
-        "card": pd.Categorical.from_codes(card_code.astype(np.int32, copy=False), categories=pd.Index(card_list, dtype="str"),
-                                          validate=False),
+        "card": coded(card_code, pd.Index(card_list, dtype="str")),  # card_list is sorted and distinct
         "quantity": qty,
     })
     return DeckData(decks=decks_out, cards=cards_out, card_info=card_info, seasons=seasons,
@@ -689,6 +739,12 @@ def _rank(names: list[str]) -> np.ndarray:
         by_name = np.argsort(np.asarray(names, dtype=object), kind="stable")
     rank[by_name] = np.arange(len(names), dtype=_CODE)
     return rank
+
+
+def _is_arange(values: np.ndarray) -> bool:
+    """True when ``values`` is 0, 1, 2, ...: a lookup through it changes nothing."""
+    return values.size == 0 or (int(values[0]) == 0 and int(values[-1]) == values.size - 1
+                                and bool((np.diff(values) == 1).all()))
 
 
 def _argsort(key: np.ndarray, stable: bool = False) -> np.ndarray | None:

@@ -453,29 +453,29 @@ def _runs_as_categories(column: pa.ChunkedArray, guess: pd.Series | None = None)
 
 
 def _chunks_as_categories(column: pa.ChunkedArray) -> pd.Series:
-    """A dictionary column of many chunks (row groups) as one categorical, categories in order
-    of first appearance. Each chunk's small dictionary is mapped to the categories and its
-    indices looked up into one array; unifying the dictionaries in Arrow and converting
-    makes two copies of every row instead."""
-    index: dict[str, int] = {}
+    """A dictionary column of many chunks (row groups) as one categorical, categories sorted
+    (code point order, as Python sorts text), so a code's order is its name's. Each chunk's
+    small dictionary is looked up among the categories by Arrow and its indices taken into
+    one array; unifying the dictionaries in Arrow and converting makes two copies of every
+    row instead."""
+    chunks = [chunk for chunk in column.chunks if len(chunk)]
+    dictionaries = [chunk.dictionary.cast(pa.string()) for chunk in chunks]
+    names = pc.unique(pa.concat_arrays(dictionaries)).drop_null() if dictionaries else pa.array([], pa.string())
+    names = names.take(pc.sort_indices(names))
     codes = np.empty(len(column), dtype=np.int32)
     at, nulls = 0, False
-    for chunk in column.chunks:
+    for chunk, dictionary in zip(chunks, dictionaries):
         n = len(chunk)
-        if n == 0:
-            continue
-        names = chunk.dictionary.cast(pa.string()).to_pylist()
-        lookup = np.array([-1 if name is None else index.setdefault(name, len(index)) for name in names] or [-1],
-                          dtype=np.int32)
+        lookup = pc.fill_null(pc.index_in(dictionary, value_set=names), -1).to_numpy(zero_copy_only=False)
+        lookup = np.append(lookup.astype(np.int32, copy=False), np.int32(-1))  # a null row's index: the last slot
+        indices = chunk.indices
         if chunk.null_count:
-            nulls = True
-            lookup = np.append(lookup, np.int32(-1))  # a null row's index is set to the last slot
-            indices = chunk.indices.fill_null(len(lookup) - 1)
-        else:
-            indices = chunk.indices
-        np.take(lookup, indices.to_numpy(zero_copy_only=False), out=codes[at:at + n])
+            indices = indices.fill_null(len(lookup) - 1)
+        nulls = nulls or bool(chunk.null_count) or bool((lookup < 0).any())
+        # mode="clip": the indices are the chunk's own, and np.take buffers ``out`` in the default mode.
+        np.take(lookup, indices.to_numpy(zero_copy_only=False), out=codes[at:at + n], mode="clip")
         at += n
-    categories = pd.Index(list(index), dtype="str")
+    categories = pd.Index(names.to_pandas(), dtype="str")
     return pd.Series(pd.Categorical.from_codes(codes, dtype=pd.CategoricalDtype(categories), validate=nulls),
                      copy=False)
 
