@@ -51,7 +51,9 @@ class DeckData:
     deck_id. ``cards``: one row per deck and card, columns
     :data:`CARD_ROW_COLUMNS`, sorted by deck_id then card; deck_id and card
     are categoricals whose categories are sorted (deck_id's are the deck
-    table's ids, so a code is a row of ``decks``), quantity is int64.
+    table's ids, so a code is a row of ``decks``), quantity is the narrowest
+    signed integer type that holds the largest count (int8 as a rule: see
+    :func:`sitegen.load.normalise.narrow_counts`).
     ``card_info``: the card table, ``card`` and ``type`` first, then any
     further columns, or None when no card table was given. ``seasons``:
     season names in publication order.

@@ -56,7 +56,8 @@ def split(data: DeckData, cfg: Config) -> list[PartitionInput]:
     if deck_row is not None and _ascending(deck_row):
         # The loader's order: rows grouped by deck, decks in table order. A partition's rows are
         # then its decks' runs of rows, taken without sorting tens of millions of rows.
-        run_start = np.searchsorted(deck_row, np.arange(n + 1))
+        # Needles of the haystack's own type: searchsorted would otherwise copy all rows to int64.
+        run_start = np.searchsorted(deck_row, np.arange(n + 1, dtype=deck_row.dtype))
         by_part = bounds = None
     else:
         card_part = _card_parts(data, deck_part, deck_row)
@@ -121,9 +122,12 @@ def _ascending(values: np.ndarray) -> bool:
 
 
 def _runs(starts: np.ndarray, lengths: np.ndarray) -> np.ndarray:
-    """The positions start, start+1, ... of each run, one run after another."""
+    """The positions start, start+1, ... of each run, one run after another (int32 when the
+    positions fit: half the memory of int64 for a partition's millions of rows)."""
     ends = np.cumsum(lengths)
-    return np.arange(ends[-1] if ends.size else 0) + np.repeat(starts - (ends - lengths), lengths)
+    total = int(ends[-1]) if ends.size else 0
+    kind = np.int32 if int(starts.max(initial=0)) + total < 2**31 else np.int64
+    return np.arange(total, dtype=kind) + np.repeat((starts - (ends - lengths)).astype(kind), lengths)
 
 
 def _card_parts(data: DeckData, deck_part: np.ndarray, deck_row: np.ndarray | None) -> np.ndarray:

@@ -49,7 +49,7 @@ def test_tables_load_to_the_documented_layout(tmp_path):
     assert pd.isna(data.decks.loc[0, "event"])  # an empty optional cell is missing, not ""
     assert data.cards.values.tolist() == [["d1", "Ember Fox", 3], ["d1", "Tide Call", 2],
                                           ["d2", "Ember Fox", 1], ["d3", "Stone Wall", 4]]
-    assert data.cards["quantity"].dtype == np.int64
+    assert data.cards["quantity"].dtype == np.int8  # the narrowest type for counts up to 127
     # No seasons.order, no dates: by name, numbers compared as numbers.
     assert data.seasons == ("Season 2", "Season 10")
     assert data.card_info is None and data.findings == ()
@@ -468,3 +468,15 @@ def test_demo_decklists_match_the_demo_tables(tmp_path):
     # The two loads hold different decks, so their categoricals have different categories: compare values.
     as_text = {"deck_id": str, "card": str}
     pd.testing.assert_frame_equal(from_lists.cards.astype(as_text), cards.astype(as_text))
+
+
+@pytest.mark.parametrize("top", [1, 127, 128, 40_000, 2**31 - 1, 2**31, 2**40])
+def test_counts_kept_in_the_narrowest_signed_type_numpy_promotes_to(top):
+    # Reference: numpy's min_scalar_type, which for a negative value gives the least signed type
+    # holding it; a signed type holds ``top`` exactly when it holds -(top + 1) (two's complement).
+    from sitegen.load.normalise import narrow_counts
+
+    values = np.array([1, top, 1], dtype=np.int64)
+    got = narrow_counts(values)
+    assert got.dtype == np.min_scalar_type(-top - 1)
+    assert got.tolist() == values.tolist()

@@ -707,7 +707,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     cards_out = pd.DataFrame(copy=False, data={
         "deck_id": coded(deck_row.astype(np.int32, copy=False), pd.Index(decks_out["deck_id"], dtype="str")),
         "card": coded(card_code, pd.Index(card_list, dtype="str")),  # card_list is sorted and distinct
-        "quantity": qty,
+        "quantity": narrow_counts(qty),
     })
     return DeckData(decks=decks_out, cards=cards_out, card_info=card_info, seasons=seasons,
                     findings=tuple(findings))
@@ -717,6 +717,17 @@ def added_up_finding(rows: int) -> Finding:
     """The finding for card rows whose copies were added to another spelling's row of the same deck."""
     return Finding("name-variants", f"{rows} card row(s) named a card a deck already "
                    "listed under another spelling; their copies were added up")
+
+
+def narrow_counts(values: np.ndarray) -> np.ndarray:
+    """Copies (whole numbers of 1 or more) in the narrowest signed integer type that holds the
+    largest: int8 for the usual 1 to 127. Tens of millions of rows are an eighth of int64's size
+    wherever they are cut, copied or gathered later."""
+    top = int(values.max()) if values.size else 0
+    for kind in (np.int8, np.int16, np.int32):
+        if top <= np.iinfo(kind).max:
+            return values.astype(kind)
+    return values.astype(np.int64, copy=False)
 
 
 def _counts(codes: np.ndarray, size: int) -> np.ndarray:
