@@ -80,3 +80,26 @@ def test_unsorted_cards_give_the_same_totals():
     cards = _data(DECKS).cards.sample(frac=1, random_state=0).reset_index(drop=True)
     expected = cards.groupby("deck_id")["quantity"].sum().to_dict()
     assert deck_totals(cards).to_dict() == expected
+
+
+def test_deck_totals_over_million_row_blocks_equal_pandas_groupby():
+    # Reference: pandas groupby-sum. 2.5 million int8 rows in runs of 1 to 60 rows, so runs
+    # straddle the million-row blocks the sums are taken in; one deck's total passes int8's 127.
+    import numpy as np
+    import pandas as pd
+
+    from sitegen.check import deck_totals
+
+    rng = np.random.default_rng(11)
+    lengths = rng.integers(1, 61, size=80_000)
+    lengths[7] = 200  # 200 rows of 3 copies: 600, beyond int8
+    ids = pd.Index([f"d{i:06d}" for i in range(lengths.size)], dtype="str")
+    codes = np.repeat(np.arange(lengths.size, dtype=np.int32), lengths)
+    quantity = rng.integers(1, 4, size=codes.size).astype(np.int8)
+    quantity[codes == 7] = 3
+    cards = pd.DataFrame({"deck_id": pd.Categorical.from_codes(codes, categories=ids), "quantity": quantity})
+    got = deck_totals(cards)
+    expected = pd.DataFrame({"deck_id": ids[codes], "quantity": quantity.astype(np.int64)}).groupby(
+        "deck_id", sort=False)["quantity"].sum()
+    assert got.index.tolist() == expected.index.tolist()
+    assert got.tolist() == expected.tolist() and got["d000007"] == 600

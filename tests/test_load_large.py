@@ -241,3 +241,20 @@ def test_trim_check_agrees_with_python_unicode_data():
     values = pa.array(texts * 3).slice(7)  # a sliced array: its offsets do not start at 0
     expected = [bool(t) and (trims(t[0]) or trims(t[-1])) for t in values.to_pylist()]
     assert _needs_trim(values).tolist() == expected
+
+
+@pytest.mark.parametrize("values", [[1, 2, 3], [1, 300, 2], [-5, 1, 70_000], [1, None, 2]])
+def test_parquet_whole_numbers_read_narrow_equal_pyarrow(tmp_path, values):
+    # Reference: pyarrow's own reading of an int64 column over 12 row groups. The reader keeps the
+    # numbers in the least signed type holding them (numpy's min_scalar_type of the far end);
+    # a column with gaps is left to pandas as it was.
+    _, cards = _planted(9)
+    cards["quantity"] = pd.array([values[i % len(values)] for i in range(len(cards))], dtype="Int64")
+    path = tmp_path / "deck_cards.parquet"
+    pq.write_table(pa.Table.from_pandas(cards, preserve_index=False), path, row_group_size=12_500)
+    got = _read_cards(path)["quantity"]
+    expected = pq.read_table(path).column("quantity").to_pylist()
+    assert [None if pd.isna(v) else int(v) for v in got] == expected
+    if None not in values:
+        far = max(max(values), -min(values) - 1)
+        assert got.dtype == np.min_scalar_type(-far - 1)

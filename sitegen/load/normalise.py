@@ -560,8 +560,8 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
                       fix="give every row the id of its deck")
     raw_quantity = cframe["quantity"]
     if isinstance(raw_quantity.dtype, np.dtype) and raw_quantity.dtype.kind in "iu":
-        # Whole numbers already (Parquet): no parsing, and no copy of tens of millions of values.
-        quantity = raw_quantity.to_numpy().astype(np.int64, copy=False)
+        # Whole numbers already (Parquet, as narrow as the reader found them): no parsing, no copy.
+        quantity = raw_quantity.to_numpy()
         bad = np.flatnonzero(quantity < 1)
     else:
         parsed, bad = parse_counts(raw_quantity, positive=True)
@@ -726,7 +726,7 @@ def narrow_counts(values: np.ndarray) -> np.ndarray:
     top = int(values.max()) if values.size else 0
     for kind in (np.int8, np.int16, np.int32):
         if top <= np.iinfo(kind).max:
-            return values.astype(kind)
+            return values.astype(kind, copy=False)
     return values.astype(np.int64, copy=False)
 
 

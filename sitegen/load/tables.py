@@ -371,26 +371,56 @@ def _parquet_header(path: Path) -> list[str]:
 def _read_parquet(path: Path, wanted: dict[str, str], numeric: frozenset[str],
                   categorical: frozenset[str] = frozenset(), guess: dict[str, pd.Series] | None = None) -> pd.DataFrame:
     raw_names = list(dict.fromkeys(wanted.values()))
+    as_category = {wanted[logical] for logical in categorical if logical in wanted}
     try:
         schema = pq.ParquetFile(path).schema_arrow
-        # Only text columns can be read dictionary-encoded; others are turned into text below.
-        as_dictionary = [name for name in raw_names if name in categorical
-                         and (pa.types.is_string(schema.field(name).type) or pa.types.is_large_string(schema.field(name).type))]
-        table = pq.read_table(path, columns=raw_names, read_dictionary=as_dictionary or None)
     except Exception as exc:  # pyarrow raises several types for a corrupt file
         raise _not_parquet(path, exc) from None
     out: dict[str, pd.Series] = {}
-    for logical, raw in wanted.items():
-        column = table.column(raw)
-        kind = column.type
-        if logical in numeric and (pa.types.is_integer(kind) or pa.types.is_floating(kind)):
-            out[logical] = column.to_pandas()
-            continue
-        out[logical] = _as_categories(column, (guess or {}).get(raw)) if raw in categorical else _as_text(column)
-    frame = pd.DataFrame(out, copy=False)
-    del table, column, out
+    # One column at a time, each turned into its pandas form before the next is read: Arrow's
+    # buffers are then reused from column to column, and the table never sits whole in memory
+    # beside its converted copy (fresh memory is what costs most on a virtual machine).
+    for raw in raw_names:
+        kind = schema.field(raw).type
+        # Only text columns can be read dictionary-encoded; others are turned into text below.
+        dictionary = raw in as_category and (pa.types.is_string(kind) or pa.types.is_large_string(kind))
+        try:
+            column = pq.read_table(path, columns=[raw], read_dictionary=[raw] if dictionary else None).column(raw)
+        except Exception as exc:  # pyarrow raises several types for a corrupt file
+            raise _not_parquet(path, exc) from None
+        for logical in (name for name, r in wanted.items() if r == raw):
+            if logical in numeric and (pa.types.is_integer(kind) or pa.types.is_floating(kind)):
+                out[logical] = _numbers(column)
+            elif raw in as_category:
+                out[logical] = _as_categories(column, (guess or {}).get(raw))
+            else:
+                out[logical] = _as_text(column)
+        del column
+    frame = pd.DataFrame({logical: out[logical] for logical in wanted}, copy=False)
+    del out
     pa.default_memory_pool().release_unused()  # Arrow's allocator keeps freed memory otherwise
     return frame
+
+
+def _numbers(column: pa.ChunkedArray) -> pd.Series:
+    """A numeric column as pandas; whole numbers without gaps in the narrowest signed type that
+    holds them (copies of a card: int8, an eighth of the int64 a Parquet writer stores)."""
+    kind = column.type
+    if not pa.types.is_integer(kind) or column.null_count or len(column) == 0:
+        return column.to_pandas()
+    low, high = (v.as_py() for v in pc.min_max(column).values())
+    for narrow in (np.int8, np.int16, np.int32, np.int64):
+        limits = np.iinfo(narrow)
+        if limits.min <= low and high <= limits.max:
+            break
+    else:
+        return column.to_pandas()  # unsigned beyond int64
+    values = np.empty(len(column), dtype=narrow)
+    at = 0
+    for chunk in column.chunks:
+        values[at:at + len(chunk)] = chunk.to_numpy(zero_copy_only=False)
+        at += len(chunk)
+    return pd.Series(values, copy=False)
 
 
 def _as_categories(column: pa.ChunkedArray, guess: pd.Series | None = None) -> pd.Series:
