@@ -94,6 +94,8 @@ def child_notebook(data: str, max_partitions: int | None, tsne: bool) -> dict:
 
 def child_load(config: str) -> dict:
     """Loading to the weighted matrix, and exact medoids, for every partition."""
+    from concurrent.futures import ThreadPoolExecutor
+
     import numpy as np
 
     from sitegen import config as config_mod
@@ -101,16 +103,21 @@ def child_load(config: str) -> dict:
     from sitegen.check import check_rules
     from sitegen.load import load_data
     from sitegen.partitions import split
+    from sitegen.resources import usable_cores
 
     cfg = config_mod.load(config)
     t0 = time.perf_counter()
     data = check_rules(load_data(cfg), cfg)
     t1 = time.perf_counter()
     parts = split(data, cfg)
-    weighted = []
-    for p in parts:
+
+    def weigh(p):
         counts, _ = features.build_matrix(p.cards, p.decks["deck_id"].tolist())
-        weighted.append(features.tfidf(counts))
+        return features.tfidf(counts)
+
+    # One thread per core, as a build's workers make their partitions' matrices side by side.
+    with ThreadPoolExecutor(max_workers=usable_cores()) as pool:
+        weighted = list(pool.map(weigh, parts))
     t2 = time.perf_counter()
     for w in weighted:
         describe.medoid(w, np.arange(w.shape[0]))

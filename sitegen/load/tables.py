@@ -273,16 +273,23 @@ def _read_csv(path: Path, wanted: dict[str, str], numeric: frozenset[str],
                 # Empty cells: back to text, so they are told apart from bad values where rows are checked.
                 column = pc.fill_null(pc.cast(table.column(name), pa.string()), "")
                 table = table.set_column(table.column_names.index(name), name, column)
-        kept = [name for name in table.column_names if name not in categorical]
-        frame = table.select(kept).to_pandas()
-        for name in table.column_names:
+        columns: dict[str, pd.Series] = {}
+        for name in table.column_names:  # a column at a time, its Arrow form dropped once converted
+            column = table.column(name)
             if name in categorical:
-                frame[name] = _as_categories(table.column(name), (guess or {}).get(name))
-        del table
+                columns[name] = _as_categories(column, (guess or {}).get(name))
+            elif name in whole and pa.types.is_integer(column.type):
+                columns[name] = _numbers(column)
+            else:
+                columns[name] = pd.Series(column.to_pandas(), copy=False)
+            table = table.drop_columns([name])
+            del column
+        frame = pd.DataFrame(columns, copy=False)
+        del table, columns
+        pa.default_memory_pool().release_unused()
     except (pa.ArrowInvalid, pa.ArrowException, ValueError, OSError) as exc:
         frame = _read_csv_slow(path, raw_names, str(exc))
-    out = pd.DataFrame({logical: frame[raw] for logical, raw in wanted.items()})
-    return out
+    return pd.DataFrame({logical: frame[raw] for logical, raw in wanted.items()}, copy=False)
 
 
 def _arrow_csv(path: Path, raw_names: list[str], categorical: frozenset[str], whole: frozenset[str]) -> pa.Table:
