@@ -376,3 +376,12 @@ def test_warning_capture_sees_a_known_warning(capfd):
     capfd.readouterr()
     vl_convert.vegalite_to_vega(spec, vl_version=charts.vl_version(), show_warnings=True)
     assert "WARN" in capfd.readouterr().err
+
+
+def test_schema_found_without_importing_altair_is_altairs_own():
+    # Reference: altair itself (its SCHEMA_VERSION and the schema file beside its v6 wrappers).
+    path, version = charts._schema_file()
+    assert version == altair.SCHEMA_VERSION
+    assert path.resolve() == (Path(altair.__file__).resolve().parent / "vegalite" / version.split(".")[0]
+                              / "schema" / "vega-lite-schema.json")
+    assert charts.schema_url() == altair.SCHEMA_URL
