@@ -133,3 +133,20 @@ def test_unchanged_seasons_are_copied_and_the_bytes_stay_the_same(seed):
     csv_file, json_file = exports._assignment_files(data, results, slugs, blocks)
     _same_as_whole(csv_file, json_file, data, results, slugs)
     assert blocks.reused == len(first.new_index) - 1
+
+
+@pytest.mark.parametrize("doc", [
+    {"archetypes": [], "partitions": []},
+    {"b": [{"z": 1, "a": [0.5, None, 'Ærin "quoted" \\ end']}, {"k": {"n": 2}}], "a": [1, "two"]},
+])
+def test_one_item_per_line_json_is_what_the_json_module_reads(doc):
+    # Reference: the standard library's json.loads gives the document back; the file is UTF-8,
+    # keys sorted as json.dumps(sort_keys=True) sorts them, one list item per line.
+    data = exports.lines_json(doc)
+    assert json.loads(data.decode("utf-8")) == doc
+    lines = data.decode("utf-8").splitlines()
+    for key, items in doc.items():
+        for item in items:
+            assert json.dumps(item, sort_keys=True, ensure_ascii=False) + "," in lines or \
+                json.dumps(item, sort_keys=True, ensure_ascii=False) in lines
+    assert data.endswith(b"}\n")
