@@ -199,6 +199,7 @@ def _analyse_tables(data, cfg: Config, runs, progress: Progress):
         data = check_rules(data, cfg)
     parts = split(data, cfg)
     with progress.stage(f"analysing {len(parts)} partition(s)"):
+        runs.plan_maps(data.seasons)  # a map starts as soon as its partition is analysed
         runs.add(parts)
         del parts
         results, run = runs.finish()

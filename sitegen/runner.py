@@ -133,6 +133,15 @@ class Analyses:
         self._inline = False
         self._forked_clean = False
         self._map_keys: set[str] = set()
+        # Maps (see plan_maps): season ranks once planned, each mapped partition's cache key and the
+        # partition its map starts from, layouts known, maps taken from the cache, maps started.
+        self._rank: dict[str, int] | None = None
+        self._map_key: dict[int, str] = {}
+        self._map_before: dict[int, int | None] = {}
+        self._layouts: dict[int, MapLayout] = {}
+        self._map_hits: set[int] = set()
+        self._map_started: list[int] = []
+        self._map_running: dict = {}  # future -> partition index
         #: Further cache keys this build used (season records), kept from pruning.
         self.other_keys: set[str] = set()
         #: (season, leader) of every map drawn afresh by :meth:`draw_maps`.
@@ -197,9 +206,13 @@ class Analyses:
             self._submit_dask(todo)
             return len(todo)
         self.start_workers()
+        if not self._inline:
+            # Largest first: the last few jobs are then short, and no worker waits long for the last one.
+            todo.sort(key=lambda job: -len(job[1].cards))
         for i, part in todo:
             if self._inline:
                 self._store(i, analyse_partition(part, self.params))
+                self._advance_maps()
             else:
                 self._pending[self._pool.submit(analyse_partition, part, self.params)] = i
         return len(todo)
@@ -228,7 +241,7 @@ class Analyses:
     def idle_pool(self) -> ProcessPoolExecutor | None:
         """The local worker pool, for chart checks once every analysis and map is done; None
         without one, or when its workers were forked after this process had used vl-convert."""
-        return self._pool if not self._pending and self._forked_clean else None
+        return self._pool if not self._pending and not self._map_running and self._forked_clean else None
 
     def wait_below(self, queued: int) -> None:
         """Collect finished analyses until at most ``queued`` are still running or waiting."""
@@ -243,56 +256,82 @@ class Analyses:
                            cached=tuple(self._keys[i] for i in self._cached))
         return [r for r in self._results if r is not None], report
 
+    def plan_maps(self, seasons: Sequence[str]) -> None:
+        """From now on, start each map as soon as its partition is analysed and the map it
+        starts from is known, while other analyses still run (a worker that would wait for the
+        last analysis draws a map meanwhile). :meth:`draw_maps` then waits for the rest."""
+        if self._rank is None:
+            self._rank = {s: i for i, s in enumerate(seasons)}
+            self._advance_maps()
+
     def draw_maps(self, results: Sequence[PartitionResult], seasons: Sequence[str]) -> list[PartitionResult]:
         """``results`` with their maps drawn: each leader's maps in season order, each started
         from that leader's previous map, so chains of different leaders run side by side.
 
         A map is cached under a digest of its partition's fingerprint and of the map it
         started from, so an unchanged season whose previous map is unchanged is not drawn again.
+        Maps already started (see :meth:`plan_maps`, whose season order then holds) are waited for.
         """
-        rank = {s: i for i, s in enumerate(seasons)}
+        self.plan_maps(seasons)
+        self.wait_below(0)
+        self._advance_maps()
+        started, drawn = len(self._map_started), len(self._map_started) - len(self._map_running)
+        if started:
+            self.progress.say(f"  drawing {started} map(s), {len(self._map_hits)} unchanged")
+        while self._map_running:
+            drawn += self._maps_done(self._wait_any(list(self._map_running)))
+            self._advance_maps()
+            self.progress.step(drawn, len(self._map_started), "maps drawn")
+        self._map_keys = set(self._map_key.values())
+        self.mapped = tuple(self._keys[i] for i in sorted(self._map_started))
+        index = {key: i for i, key in enumerate(self._keys)}
+        out = []
+        for r in results:
+            i = index.get((r.season, r.leader))
+            out.append(place_map(r, self._layouts[i]) if i in self._layouts else r)
+        return out
+
+    def _advance_maps(self) -> None:
+        """Look up or start every map that can be: walking each leader's partitions in season
+        order up to the first not yet analysed (a later map's key depends on it)."""
+        if self._rank is None:
+            return
+        rank = self._rank
         chains: dict[str, list[int]] = {}
-        for i in sorted(range(len(results)), key=lambda i: (rank.get(results[i].season, len(rank)), i)):
-            if results[i].map_sample is not None:
-                chains.setdefault(results[i].leader, []).append(i)
-        keys: dict[int, str] = {}
-        before: dict[int, int | None] = {}
+        for i in sorted(range(len(self._keys)), key=lambda i: (rank.get(self._keys[i][0], len(rank)), i)):
+            chains.setdefault(self._keys[i][1], []).append(i)
         for chain in chains.values():
             previous = None
             for i in chain:
-                h = hashlib.sha256(f"map\0{MAP_FORMAT}\0{results[i].fingerprint}\0".encode("ascii"))
-                h.update(keys[previous].encode("ascii") if previous is not None else b"first")
-                keys[i], before[i], previous = h.hexdigest(), previous, i
-        layouts: dict[int, MapLayout] = {}
-        for i, key in keys.items():
-            hit = self.cache.get(key, MapLayout) if self.cache is not None else None
-            if hit is not None:
-                layouts[i] = hit
-        missing = [i for i in keys if i not in layouts]
-        self._map_keys = set(keys.values())
-        self.mapped = tuple((results[i].season, results[i].leader) for i in sorted(missing))
-        if missing:
-            self.progress.say(f"  drawing {len(missing)} map(s), {len(keys) - len(missing)} unchanged")
-        # Run every map whose previous map is known; each finished map may free the next of its chain.
-        waiting = set(missing)
-        running: dict = {}
+                r = self._results[i]
+                if r is None:
+                    break
+                if r.map_sample is None:
+                    continue
+                if i not in self._map_key:
+                    h = hashlib.sha256(f"map\0{MAP_FORMAT}\0{r.fingerprint}\0".encode("ascii"))
+                    h.update(self._map_key[previous].encode("ascii") if previous is not None else b"first")
+                    self._map_key[i], self._map_before[i] = h.hexdigest(), previous
+                    hit = self.cache.get(self._map_key[i], MapLayout) if self.cache is not None else None
+                    if hit is not None:
+                        self._layouts[i] = hit
+                        self._map_hits.add(i)
+                if i not in self._layouts and i not in self._map_started and (previous is None or previous in self._layouts):
+                    start = (self._results[previous].map_sample, self._layouts[previous]) if previous is not None else None
+                    self._map_started.append(i)
+                    self._map_running[self._start_map(r.map_sample, start)] = i
+                previous = i
+
+    def _maps_done(self, finished) -> int:
+        """Keep the layouts of finished maps (and cache them); how many there were."""
         done = 0
-        while waiting or running:
-            for i in sorted(waiting):
-                j = before[i]
-                if j is None or j in layouts:
-                    waiting.discard(i)
-                    previous = (results[j].map_sample, layouts[j]) if j is not None else None
-                    running[self._start_map(results[i].map_sample, previous)] = i
-            finished = self._wait_any(list(running))
-            for fut in sorted(finished, key=lambda f: running[f]):
-                i = running.pop(fut)
-                layouts[i] = fut.result()
-                if self.cache is not None:
-                    self.cache.put(keys[i], layouts[i])
-                done += 1
-                self.progress.step(done, len(missing), "maps drawn")
-        return [place_map(r, layouts[i]) if i in layouts else r for i, r in enumerate(results)]
+        for fut in sorted((f for f in finished if f in self._map_running), key=lambda f: self._map_running[f]):
+            i = self._map_running.pop(fut)
+            self._layouts[i] = fut.result()
+            if self.cache is not None:
+                self.cache.put(self._map_key[i], self._layouts[i])
+            done += 1
+        return done
 
     @property
     def kept_keys(self) -> set[str]:
@@ -329,10 +368,12 @@ class Analyses:
         self.progress.step(self._done, len(self._todo), "partitions analysed")
 
     def _collect_some(self) -> None:
-        finished = self._wait_any(list(self._pending))
-        for fut in sorted(finished, key=lambda f: self._pending[f]):
+        finished = self._wait_any([*self._pending, *self._map_running])
+        for fut in sorted((f for f in finished if f in self._pending), key=lambda f: self._pending[f]):
             i = self._pending.pop(fut)
             self._store(i, fut.result())
+        self._maps_done(finished)
+        self._advance_maps()
 
     def _submit_dask(self, todo: list[tuple[int, PartitionInput]]) -> None:
         """Send each partition to the Dask scheduler; Dask retries a job whose worker died."""
