@@ -8,6 +8,7 @@ config names, checks every row, and returns a validated
 """
 from __future__ import annotations
 
+from concurrent.futures import Future, ThreadPoolExecutor
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -19,7 +20,7 @@ from ..config import Config
 from ..errors import ConfigError, DataError, DataErrors
 from ..model import DeckData
 from .decklists import read_decklists
-from .normalise import build
+from .normalise import build, check_decks
 from .origin import StackedOrigin
 from .tables import Table, read_table
 
@@ -119,10 +120,13 @@ def load_data(cfg: Config) -> DeckData:
                           f"set {missing} to the path of the table, relative to the config file")
     required, optional = _deck_columns(cfg)
     read: dict[str, Table] = {}
+    checking: dict[str, Future] = {}
 
     def read_decks() -> Table:
         read["decks"] = read_table(decks_path, setting="data.decks", required=required, optional=optional,
                                    numeric=frozenset({"wins", "losses"}))
+        # Checked in another thread while the long-form table is read (Arrow and numpy let go of the lock).
+        checking["decks"] = pool.submit(check_decks, read["decks"], cfg)
         return read["decks"]
 
     def read_cards() -> Table:
@@ -131,12 +135,14 @@ def load_data(cfg: Config) -> DeckData:
                           numeric=frozenset({"quantity"}), categorical=_CARD_ROW_CATEGORIES,
                           deck_ids=read["decks"].frame["deck_id"] if "decks" in read else None)
 
-    decks, cards, card_table = _read_both([
-        read_decks,
-        read_cards,
-        lambda: _read_card_table(cfg),
-    ])
-    return build(decks, cards, card_table, cfg)
+    with ThreadPoolExecutor(max_workers=1) as pool:  # on a read error, waits for the check and drops it
+        decks, cards, card_table = _read_both([
+            read_decks,
+            read_cards,
+            lambda: _read_card_table(cfg),
+        ])
+        checked = checking["decks"].result()
+    return build(decks, cards, card_table, cfg, checked=checked)
 
 
 def open_season_folder(cfg: Config, cache: Cache | None = None):

@@ -454,20 +454,32 @@ def spellings_of(names: list[str], counts: np.ndarray, known: dict[str, str] | N
     return {variant_key(n): c for n, c in zip(names, canonical)}, findings
 
 
-def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
-          spellings: Spellings | None = None) -> DeckData:
-    """Check every row of the read tables and assemble the DeckData.
+@dataclass
+class DeckChecks:
+    """A deck table checked on its own (:func:`check_decks`): its problems and cleaned columns."""
 
-    Names that differ only by case or spacing are read as one (the card
-    table's spelling, else the most used one) with a ``name-variants``
-    finding; a deck that lists both spellings gets their copies added up.
-    Raises DataErrors with every problem found (file and row order), or a
-    ConfigError when the settings do not fit the data.
-    """
+    problems: _Problems
+    frame: pd.DataFrame
+    deck_codes: np.ndarray
+    deck_names: list[str]
+    deck_rank: np.ndarray
+    deck_id: pd.Series
+    season: pd.Series
+    dates: pd.Series | None
+    calendar: list | None
+    results: dict[str, pd.Series]
+    extras: dict[str, pd.Series]
+    leader_codes: np.ndarray
+    leader_canon: list[str]
+    leader_findings: list[Finding]
+
+
+def check_decks(decks: Table, cfg: Config, spellings: Spellings | None = None) -> DeckChecks:
+    """The checks of :func:`build` that need the deck table only, so they can run while the
+    long-form table is still being read (see :func:`sitegen.load.load_data`)."""
     problems = _Problems()
     frame = decks.frame
     source = cfg["seasons.source"]
-    cards_file = cards.file
 
     # -- deck table
     distinct = _distinct_codes(frame["deck_id"])
@@ -546,6 +558,35 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         else:
             extras[column] = pd.Series([np.nan] * n_decks, dtype="str")
 
+    if deck_rank is None:
+        deck_rank = _rank(deck_names)
+    leader_codes, leader_names = _codes(leader)
+    leader_canon, leader_findings, _ = _name_variants(
+        leader_names, np.bincount(leader_codes, minlength=len(leader_names)), None, cfg["site.leader_word"])
+    if spellings is not None:
+        leader_canon = [spellings.leaders.get(variant_key(n), c) for n, c in zip(leader_names, leader_canon)]
+    return DeckChecks(problems, frame, deck_codes, deck_names, deck_rank, deck_id, season, dates, calendar, results,
+                      extras, leader_codes, leader_canon, leader_findings)
+
+
+def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
+          spellings: Spellings | None = None, checked: DeckChecks | None = None) -> DeckData:
+    """Check every row of the read tables and assemble the DeckData.
+
+    Names that differ only by case or spacing are read as one (the card
+    table's spelling, else the most used one) with a ``name-variants``
+    finding; a deck that lists both spellings gets their copies added up.
+    Raises DataErrors with every problem found (file and row order), or a
+    ConfigError when the settings do not fit the data. ``checked``: the deck
+    table's :func:`check_decks`, when the caller ran it already.
+    """
+    d = checked if checked is not None else check_decks(decks, cfg, spellings)
+    problems = _Problems()
+    problems.errors.extend(d.problems.errors)  # the deck table's first, as when checked in one go
+    frame, deck_codes, deck_names, deck_rank = d.frame, d.deck_codes, d.deck_names, d.deck_rank
+    season, dates, calendar, results, extras = d.season, d.dates, d.calendar, d.results, d.extras
+    cards_file = cards.file
+
     # -- long-form table
     cframe = cards.frame
     cdeck_codes, cdeck_names, same_decks = _row_deck_codes(cframe["deck_id"], frame["deck_id"], deck_codes, deck_names)
@@ -598,8 +639,6 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
                       fix="add its cards to the long-form table, or delete the deck's row")
 
     # Sort by deck id then card (codes ranked by the names' sort order).
-    if deck_rank is None:
-        deck_rank = _rank(deck_names)
     card_rank = _rank(card_names)
     row_rank = deck_rank if same_decks else _rank(cdeck_names)
     row_deck = cdeck_codes if _is_arange(row_rank) else row_rank[cdeck_codes]  # ids in sorted order already
@@ -655,18 +694,13 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
                       notes=[f" (did you mean {h[0]!r}?)" if h else "" for h in hints],
                       fix="add the card to the card table, or correct its spelling")
 
-    leader_codes, leader_names = _codes(leader)
-    leader_canon, leader_findings, _ = _name_variants(
-        leader_names, np.bincount(leader_codes, minlength=len(leader_names)), None, cfg["site.leader_word"])
     if spellings is None:
-        findings.extend(leader_findings)
-    else:
-        leader_canon = [spellings.leaders.get(variant_key(n), c) for n, c in zip(leader_names, leader_canon)]
+        findings.extend(d.leader_findings)
 
     problems.raise_if_any()
 
     # -- assemble
-    leader = pd.Series(np.asarray(leader_canon, dtype=object)[leader_codes], dtype="str")
+    leader = pd.Series(np.asarray(d.leader_canon, dtype=object)[d.leader_codes], dtype="str")
     present = set(season.unique().tolist())
     first_date: dict[str, pd.Timestamp] = {}
     if dates is not None and dates.notna().any():
@@ -674,7 +708,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         first_date = {season_names[k]: v for k, v in pd.Series(dates.to_numpy()).groupby(season_codes).min().dropna().items()}
     seasons = _season_order(present, cfg, calendar, first_date)
     decks_out = pd.DataFrame({
-        "deck_id": deck_id, "season": season.reset_index(drop=True), "leader": leader,
+        "deck_id": d.deck_id, "season": season.reset_index(drop=True), "leader": leader,
         "wins": results["wins"], "losses": results["losses"],
         "event": extras["event"].reset_index(drop=True), "player": extras["player"].reset_index(drop=True),
         "title": extras["title"].reset_index(drop=True),
