@@ -258,3 +258,18 @@ def test_parquet_whole_numbers_read_narrow_equal_pyarrow(tmp_path, values):
     if None not in values:
         far = max(max(values), -min(values) - 1)
         assert got.dtype == np.min_scalar_type(-far - 1)
+
+
+@pytest.mark.parametrize("big", [127, 40_000, 2**40])
+def test_csv_whole_numbers_beyond_16_bits_equal_python_csv(tmp_path, big):
+    # Reference: Python's csv module and int(). Copies are parsed as 16-bit numbers first; a value
+    # beyond them makes the reader parse 64-bit instead, and no value may change on the way.
+    import csv
+
+    decks, cards = _planted(10)
+    cards.loc[cards.index[::50_001], "quantity"] = big
+    data = load_data(_write(tmp_path, decks, cards, "csv"))
+    with open(tmp_path / "deck_cards.csv", newline="", encoding="utf-8") as fh:
+        rows = sorted((r["deck_id"], r["card"], int(r["quantity"])) for r in csv.DictReader(fh))
+    got = list(zip(data.cards["deck_id"].astype(str), data.cards["card"].astype(str), data.cards["quantity"].tolist()))
+    assert got == rows

@@ -262,11 +262,16 @@ def _read_csv(path: Path, wanted: dict[str, str], numeric: frozenset[str],
     # file is read again as text, and the rows to blame are found where they can be named.
     whole = [wanted[c] for c in numeric if c in wanted]
     try:
-        try:
-            table = _arrow_csv(path, raw_names, categorical, frozenset(whole))
-        except (pa.ArrowInvalid, pa.ArrowException, ValueError, OSError):
-            if not whole:
-                raise
+        table = None
+        # 16-bit numbers first (copies of a card): a quarter of the memory of 64-bit, which on a large
+        # file is most of the parse; a count beyond them (or any other refusal) tries 64-bit, then text.
+        for kind in ((pa.int16(), pa.int64()) if whole else ()):
+            try:
+                table = _arrow_csv(path, raw_names, categorical, frozenset(whole), kind)
+                break
+            except (pa.ArrowInvalid, pa.ArrowException, ValueError, OSError):
+                continue
+        if table is None:
             table = _arrow_csv(path, raw_names, categorical, frozenset())
         for name in whole:
             if name in table.column_names and table.column(name).null_count:
@@ -292,9 +297,10 @@ def _read_csv(path: Path, wanted: dict[str, str], numeric: frozenset[str],
     return pd.DataFrame({logical: frame[raw] for logical, raw in wanted.items()}, copy=False)
 
 
-def _arrow_csv(path: Path, raw_names: list[str], categorical: frozenset[str], whole: frozenset[str]) -> pa.Table:
+def _arrow_csv(path: Path, raw_names: list[str], categorical: frozenset[str], whole: frozenset[str],
+               number: pa.DataType = pa.int64()) -> pa.Table:
     def kind(name: str) -> pa.DataType:
-        return _DICTIONARY if name in categorical else pa.int64() if name in whole else pa.string()
+        return _DICTIONARY if name in categorical else number if name in whole else pa.string()
 
     return pacsv.read_csv(
         path,
