@@ -208,3 +208,60 @@ def test_fingerprint_same_for_object_string_and_category_columns():
     as_category = dataclasses.replace(part, cards=part.cards.astype({"deck_id": "category", "card": "category"}),
                                       decks=part.decks.astype({"deck_id": "string", "leader": "category"}))
     assert fingerprint(part, _Params(), "1") == fingerprint(as_category, _Params(), "1")
+
+
+def _big_part(seed: int = 0) -> PartitionInput:
+    # Planted: 400 decks of 6 to 20 distinct cards out of 90, rows grouped by deck and sorted.
+    import numpy as np
+
+    rng = np.random.default_rng(seed)
+    ids = [f"d{i:04d}" for i in range(400)]
+    names = sorted(f"Card {i:02d}" for i in range(90))
+    rows = [(d, c, int(rng.integers(1, 4))) for d in ids
+            for c in sorted(rng.choice(names, size=int(rng.integers(6, 21)), replace=False))]
+    cards = pd.DataFrame(rows, columns=["deck_id", "card", "quantity"])
+    decks = pd.DataFrame({"deck_id": ids, "season": "S1", "leader": "Vessa",
+                          "wins": pd.array(rng.integers(0, 9, 400), dtype="Int64"),
+                          "losses": pd.array([None] * 400, dtype="Int64"),
+                          "event": None, "player": [f"p{i % 7}" for i in range(400)], "title": None})
+    return PartitionInput("S1", "Vessa", decks, cards, {})
+
+
+def _as_cut(part: PartitionInput) -> PartitionInput:
+    """The partition as a build cuts it: categoricals of exactly its sorted decks and cards, copies int8."""
+    cards = part.cards.assign(
+        deck_id=pd.Categorical(part.cards["deck_id"], categories=sorted(set(part.cards["deck_id"]))),
+        card=pd.Categorical(part.cards["card"], categories=sorted(set(part.cards["card"]))),
+        quantity=part.cards["quantity"].astype("int8"))
+    return dataclasses.replace(part, cards=cards, decks=part.decks.astype({"deck_id": "str", "player": "str"}))
+
+
+def test_fingerprint_of_a_cut_partition_equals_plain_shuffled_rows():
+    # Planted: the same rows as a build cuts them (categoricals, narrow copies, in order) and as
+    # plain text columns in a shuffled order must give one fingerprint; any copy changed must not.
+    part = _big_part(1)
+    shuffled = dataclasses.replace(part, cards=part.cards.sample(frac=1.0, random_state=2).reset_index(drop=True),
+                                   decks=part.decks.sample(frac=1.0, random_state=3).reset_index(drop=True))
+    base = fingerprint(_as_cut(part), _Params(), "1")
+    assert fingerprint(shuffled, _Params(), "1") == base
+    cards = part.cards.copy()
+    cards.loc[len(cards) // 2, "quantity"] = cards.loc[len(cards) // 2, "quantity"] % 3 + 1
+    assert fingerprint(dataclasses.replace(part, cards=cards), _Params(), "1") != base
+    # Categories holding an unused or unsorted name describe the same rows.
+    cut = _as_cut(part)
+    odd = cut.cards.assign(card=cut.cards["card"].cat.add_categories(["Zz unused"]).cat.reorder_categories(
+        ["Zz unused", *reversed(cut.cards["card"].cat.categories)]))
+    assert fingerprint(dataclasses.replace(cut, cards=odd), _Params(), "1") == base
+
+
+def test_fingerprint_of_rows_without_a_canonical_form_ignores_their_order():
+    # Planted: a deck id twice and a (deck, card) pair twice; such rows are digested row by row,
+    # which must still not depend on their order, and must tell them from the rows without the twin.
+    part = _big_part(4)
+    twin_cards = pd.concat([part.cards, part.cards.iloc[[5]]], ignore_index=True)
+    twin_decks = pd.concat([part.decks, part.decks.iloc[[9]]], ignore_index=True)
+    twins = dataclasses.replace(part, cards=twin_cards, decks=twin_decks)
+    mixed = dataclasses.replace(part, cards=twin_cards.iloc[::-1].reset_index(drop=True),
+                                decks=twin_decks.iloc[::-1].reset_index(drop=True))
+    assert fingerprint(twins, _Params(), "1") == fingerprint(mixed, _Params(), "1")
+    assert fingerprint(twins, _Params(), "1") != fingerprint(part, _Params(), "1")
