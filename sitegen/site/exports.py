@@ -272,14 +272,15 @@ def _safe_csv_cells(texts: list[str]) -> list[str]:
     return _csv_cells(texts)
 
 
-def _joined(pieces: list[pa.Array | str]) -> bytes:
-    """Row by row, the pieces (columns, or one text for every row) one after another, as UTF-8 bytes."""
+def _joined(pieces: list[pa.Array | str]) -> bytes | memoryview:
+    """Row by row, the pieces (columns, or one text for every row) one after another, as UTF-8 bytes
+    (a view of Arrow's result: a million rows are a few hundred MB, not copied again here)."""
     rows = pc.binary_join_element_wise(*[pa.scalar(p, type=_ARROW_TEXT) if isinstance(p, str) else p for p in pieces],
                                        pa.scalar("", type=_ARROW_TEXT))
     if len(rows) == 0:
         return b""
     offsets = np.frombuffer(rows.buffers()[1], dtype=np.int64)[rows.offset:rows.offset + len(rows) + 1]
-    return rows.buffers()[2][int(offsets[0]):int(offsets[-1])].to_pybytes()
+    return memoryview(rows.buffers()[2])[int(offsets[0]):int(offsets[-1])]
 
 
 def assignments_csv(table: AssignmentTable) -> bytes:
@@ -314,7 +315,7 @@ def assignments_json(table: AssignmentTable) -> bytes:
     return b"[\n" + _json_rows(table)[:-2] + b"\n]\n"
 
 
-def _json_rows(table: AssignmentTable) -> bytes:
+def _json_rows(table: AssignmentTable) -> bytes | memoryview:
     """The rows of ``assignments.json``, each object followed by ``,\\n`` (the last one too)."""
     if not len(table):
         return b""
@@ -457,19 +458,21 @@ def _assignment_files(data: DeckData, results: Sequence[PartitionResult],
             csv_block, json_block = copied
         else:
             table = assignment_table(replace(data, decks=part.reset_index(drop=True)), mine, page_slugs)
-            csv_block = assignments_csv(table)[len(csv_parts[0]):]
+            csv_block = memoryview(assignments_csv(table))[len(csv_parts[0]):]
             json_block = _json_rows(table)
         blocks.new_index.append((key, csv_at, csv_at + len(csv_block), json_at, json_at + len(json_block)))
         csv_parts.append(csv_block)
         json_parts.append(json_block)
         csv_at += len(csv_block)
         json_at += len(json_block)
+    csv_file = b"".join(csv_parts)
+    del csv_parts  # each file's blocks are let go once it is joined: at a million rows, hundreds of MB
     while json_parts and not len(json_parts[-1]):
         json_parts.pop()
     if not json_parts:
-        return b"".join(csv_parts), json_bytes([])
-    json_parts[-1] = json_parts[-1][:-2]  # the last row has no ",\n"
-    return b"".join(csv_parts), b"".join([b"[\n", *json_parts, b"\n]\n"])  # one copy of every block
+        return csv_file, json_bytes([])
+    json_parts[-1] = memoryview(json_parts[-1])[:-2]  # the last row has no ",\n" (a view: no copy of the block)
+    return csv_file, b"".join([b"[\n", *json_parts, b"\n]\n"])  # one copy of every block
 
 
 def export_files(data: DeckData, results: Sequence[PartitionResult],
