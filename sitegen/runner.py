@@ -133,11 +133,10 @@ class Analyses:
         self._inline = False
         self._forked_clean = False
         self._map_keys: set[str] = set()
-        # Maps (see plan_maps): season ranks once planned, each mapped partition's cache key and the
-        # partition its map starts from, layouts known, maps taken from the cache, maps started.
+        # Maps (see plan_maps): season ranks once planned, each mapped partition's cache key,
+        # layouts known, maps taken from the cache, maps started.
         self._rank: dict[str, int] | None = None
         self._map_key: dict[int, str] = {}
-        self._map_before: dict[int, int | None] = {}
         self._layouts: dict[int, MapLayout] = {}
         self._map_hits: set[int] = set()
         self._map_started: list[int] = []
@@ -311,7 +310,7 @@ class Analyses:
                 if i not in self._map_key:
                     h = hashlib.sha256(f"map\0{MAP_FORMAT}\0{r.fingerprint}\0".encode("ascii"))
                     h.update(self._map_key[previous].encode("ascii") if previous is not None else b"first")
-                    self._map_key[i], self._map_before[i] = h.hexdigest(), previous
+                    self._map_key[i] = h.hexdigest()
                     hit = self.cache.get(self._map_key[i], MapLayout) if self.cache is not None else None
                     if hit is not None:
                         self._layouts[i] = hit

@@ -273,3 +273,25 @@ def test_csv_whole_numbers_beyond_16_bits_equal_python_csv(tmp_path, big):
         rows = sorted((r["deck_id"], r["card"], int(r["quantity"])) for r in csv.DictReader(fh))
     got = list(zip(data.cards["deck_id"].astype(str), data.cards["card"].astype(str), data.cards["quantity"].tolist()))
     assert got == rows
+
+
+@pytest.mark.parametrize("fmt", ["parquet", "csv"])
+def test_renamed_long_form_columns_are_read_as_categories(tmp_path, fmt):
+    # Reference: pandas sort_values of the planted rows, as in the tests above. The long-form
+    # table's card and copies columns have names of their own (columns.* settings): its names are
+    # still read as categoricals, not one string per row.
+    from sitegen.load.tables import read_table
+
+    decks, cards = _planted(11)
+    _write(tmp_path, decks, cards.rename(columns={"card": "name", "quantity": "copies"}), fmt)
+    name = "deck_cards.parquet" if fmt == "parquet" else "deck_cards.csv"
+    cfg = config(tmp_path, data={"decks": "decks.csv", "deck_cards": name},
+                 columns={"card": "name", "quantity": "copies"})
+    table = read_table(tmp_path / name, setting="data.deck_cards",
+                       required={"deck_id": "deck_id", "card": "name", "quantity": "copies"},
+                       numeric=frozenset({"quantity"}), categorical=frozenset({"deck_id", "card"}))
+    assert isinstance(table.frame["card"].dtype, pd.CategoricalDtype)
+    data = load_data(cfg)
+    expected = _reference_rows(decks, cards)
+    assert data.cards["card"].astype(str).tolist() == expected["card"].tolist()
+    assert data.cards["quantity"].tolist() == expected["quantity"].tolist()

@@ -384,7 +384,7 @@ def _parquet_header(path: Path) -> list[str]:
 def _read_parquet(path: Path, wanted: dict[str, str], numeric: frozenset[str],
                   categorical: frozenset[str] = frozenset(), guess: dict[str, pd.Series] | None = None) -> pd.DataFrame:
     raw_names = list(dict.fromkeys(wanted.values()))
-    as_category = {wanted[logical] for logical in categorical if logical in wanted}
+    as_category = categorical  # the file's own column names, as read_table passes them
     try:
         schema = pq.ParquetFile(path).schema_arrow
     except Exception as exc:  # pyarrow raises several types for a corrupt file
@@ -505,16 +505,18 @@ def _chunks_as_categories(column: pa.ChunkedArray) -> pd.Series:
     dictionaries = [chunk.dictionary.cast(pa.string()) for chunk in chunks]
     names = pc.unique(pa.concat_arrays(dictionaries)).drop_null() if dictionaries else pa.array([], pa.string())
     names = names.take(pc.sort_indices(names))
-    codes = np.empty(len(column), dtype=np.int32)
+    # Codes as narrow as pandas keeps them for this many categories, so it need not copy them.
+    kind = np.int8 if len(names) < 127 else np.int16 if len(names) < 32_767 else np.int32
+    codes = np.empty(len(column), dtype=kind)
     at, nulls = 0, False
     for chunk, dictionary in zip(chunks, dictionaries):
         n = len(chunk)
         lookup = pc.fill_null(pc.index_in(dictionary, value_set=names), -1).to_numpy(zero_copy_only=False)
-        lookup = np.append(lookup.astype(np.int32, copy=False), np.int32(-1))  # a null row's index: the last slot
+        nulls = nulls or bool(chunk.null_count) or bool((lookup < 0).any())
+        lookup = np.append(lookup.astype(kind), kind(-1))  # a null row's index: the last slot
         indices = chunk.indices
         if chunk.null_count:
             indices = indices.fill_null(len(lookup) - 1)
-        nulls = nulls or bool(chunk.null_count) or bool((lookup < 0).any())
         # mode="clip": the indices are the chunk's own, and np.take buffers ``out`` in the default mode.
         np.take(lookup, indices.to_numpy(zero_copy_only=False), out=codes[at:at + n], mode="clip")
         at += n
