@@ -215,6 +215,9 @@ def _analyse_folder(folder, cfg: Config, runs, cache, progress: Progress):
     from .partitions import split
 
     memo = SeasonMemo(cache, _record_salt(cfg, runs.version), runs.add_known) if cache is not None else None
+    order = folder.season_order()
+    if order is not None:
+        runs.plan_maps(order)  # a map starts as soon as its partition is analysed
     with progress.stage("reading, checking and analysing season by season"):
         for season in folder.seasons(memo):
             if isinstance(season, SeasonRecord):

@@ -136,6 +136,7 @@ class Analyses:
         # Maps (see plan_maps): season ranks once planned, each mapped partition's cache key,
         # layouts known, maps taken from the cache, maps started.
         self._rank: dict[str, int] | None = None
+        self._all_added = False  # set by draw_maps: no partition of any season is still to come
         self._map_key: dict[int, str] = {}
         self._layouts: dict[int, MapLayout] = {}
         self._map_hits: set[int] = set()
@@ -273,6 +274,7 @@ class Analyses:
         """
         self.plan_maps(seasons)
         self.wait_below(0)
+        self._all_added = True
         self._advance_maps()
         started, drawn = len(self._map_started), len(self._map_started) - len(self._map_running)
         if started:
@@ -299,11 +301,16 @@ class Analyses:
         chains: dict[str, list[int]] = {}
         for i in sorted(range(len(self._keys)), key=lambda i: (rank.get(self._keys[i][0], len(rank)), i)):
             chains.setdefault(self._keys[i][1], []).append(i)
+        # Seasons handed in one at a time (a season folder): a map waits until every season before
+        # its own has been added, since any of them may hold the map it must start from.
+        added = {season for season, _ in self._keys}
+        missing = [rank[s] for s in rank if s not in added]
+        horizon = len(rank) if self._all_added or not missing else min(missing)
         for chain in chains.values():
             previous = None
             for i in chain:
                 r = self._results[i]
-                if r is None:
+                if r is None or rank.get(r.season, len(rank)) > horizon:
                     break
                 if r.map_sample is None:
                     continue

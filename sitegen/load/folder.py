@@ -34,7 +34,7 @@ import pyarrow as pa
 
 from ..check import RULE_KINDS, check_rules
 from ..config import Config
-from ..errors import DataError, DataErrors
+from ..errors import ConfigError, DataError, DataErrors
 from ..model import CARD_ROW_COLUMNS, DECK_COLUMNS, DeckData, Finding, SeasonRecord, SeasonSummary
 from . import normalise
 from .tables import PARQUET_SUFFIXES, Table, count_values, read_table
@@ -122,6 +122,16 @@ class SeasonFolder:
     _excluded: set[str] = field(default_factory=set)
     _added_up: int = 0
     _card_info: pd.DataFrame | None = None
+
+    def season_order(self) -> tuple[str, ...] | None:
+        """The seasons in publication order as :meth:`whole` gives them, told from the first pass
+        alone (so maps can start while seasons are still read); None when the settings do not fit
+        the seasons (the error is raised by :meth:`whole`, after the seasons' own)."""
+        try:
+            return normalise._season_order({normalise.clean_text(f.season) for f in self.files}, self.cfg, None,
+                                           self.first_dates)
+        except ConfigError:
+            return None
 
     def _read_decks(self, files: SeasonFiles) -> Table:
         required, optional = self.deck_columns
