@@ -10,8 +10,8 @@ Specs hold their data inline and reach pages only through ``|tojson``.
 from __future__ import annotations
 
 import functools
-import importlib.util
 import hashlib
+import importlib.util
 import json
 import math
 import re
@@ -107,19 +107,17 @@ def _schema_file() -> tuple[Path, str]:
     return base / major / "schema" / "vega-lite-schema.json", altair.SCHEMA_VERSION
 
 
-@functools.cache
-def _schema_and_version() -> tuple[dict, str]:
-    """The Vega-Lite JSON schema shipped in altair, and its version (``v6.4.1``)."""
-    path, version = _schema_file()
-    with path.open(encoding="utf-8") as fh:
-        return json.load(fh), version
+def _schema() -> dict:
+    """The Vega-Lite JSON schema shipped in altair (read once, by :func:`_validator`)."""
+    with _schema_file()[0].open(encoding="utf-8") as fh:
+        return json.load(fh)
 
 
 @functools.cache
 def _validator() -> Any:
     import jsonschema
 
-    schema, _ = _schema_and_version()
+    schema = _schema()
     cls = jsonschema.validators.validator_for(schema)
     return cls(schema)
 
