@@ -38,7 +38,7 @@ import pyarrow.compute as pc
 from pandas.util import hash_pandas_object
 
 from . import __version__
-from .model import CARD_ROW_COLUMNS, DECK_COLUMNS, MapLayout, PartitionInput, PartitionResult, in_row_order
+from .model import CARD_ROW_COLUMNS, DECK_COLUMNS, MapLayout, PartitionInput, PartitionResult, in_row_order, narrowest_int
 
 MAGIC = b"SITEGEN-CACHE"
 #: Bumped when the entry layout changes; entries of another format are ignored.
@@ -147,7 +147,7 @@ def _canonical_decks(frame: pd.DataFrame) -> list[tuple[str, list]] | None:
         if pc.any(pc.equal(in_order[1:], in_order[:-1])).as_py():
             return None
         frame = frame.iloc[order.to_numpy()]
-    return [(f"column-{c}", _column_bytes(frame[c])) for c in _column_order(frame, DECK_COLUMNS)]
+    return [(f"column-{c}", column_bytes(frame[c])) for c in _column_order(frame, DECK_COLUMNS)]
 
 
 def _canonical_cards(frame: pd.DataFrame) -> list[tuple[str, list]] | None:
@@ -167,13 +167,13 @@ def _canonical_cards(frame: pd.DataFrame) -> list[tuple[str, list]] | None:
         deck_codes, card_codes = deck_codes[order], card_codes[order]
         if not in_row_order(deck_codes, card_codes):
             return None  # a (deck, card) pair twice
-    pieces = [("deck-ids", _column_bytes(pd.Series(deck_names, dtype="str"))),
-              ("card-names", _column_bytes(pd.Series(card_names, dtype="str"))),
+    pieces = [("deck-ids", column_bytes(pd.Series(deck_names, dtype="str"))),
+              ("card-names", column_bytes(pd.Series(card_names, dtype="str"))),
               ("deck-at", _narrowest(deck_codes)), ("card-at", _narrowest(card_codes))]
     for c in _column_order(frame, CARD_ROW_COLUMNS):
         if c not in ("deck_id", "card"):
             column = frame[c] if order is None else frame[c].iloc[order]
-            pieces.append((f"column-{c}", _column_bytes(column)))
+            pieces.append((f"column-{c}", column_bytes(column)))
     return pieces
 
 
@@ -201,10 +201,7 @@ def _narrowest(values: np.ndarray) -> list:
     the bytes follow from the values, not from the dtype they came in)."""
     values = np.asarray(values)
     low, high = (int(values.min()), int(values.max())) if values.size else (0, 0)
-    for kind in ("<i1", "<i2", "<i4", "<i8"):
-        limits = np.iinfo(np.dtype(kind))
-        if limits.min <= low and high <= limits.max:
-            break
+    kind = f"<i{(narrowest_int(low, high) or np.dtype(np.int64)).itemsize}"
     return [kind.encode("ascii"), np.ascontiguousarray(values.astype(kind, copy=False))]
 
 
@@ -226,7 +223,7 @@ def _text(column: pd.Series) -> pa.Array | None:
         return None
 
 
-def _column_bytes(column: pd.Series) -> list[bytes]:
+def column_bytes(column: pd.Series) -> list[bytes]:
     """One column's values as bytes that depend on the values only: text as its missing-value
     mask, lengths and UTF-8 bytes; numbers as a mask and the values (whole or 64-bit float)."""
     missing = column.isna().to_numpy(dtype=bool)

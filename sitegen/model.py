@@ -84,6 +84,17 @@ def in_row_order(rows: np.ndarray, columns: np.ndarray, column_rank: np.ndarray 
     return True
 
 
+def narrowest_int(low: int, high: int) -> np.dtype | None:
+    """The narrowest signed integer type holding every whole number from ``low`` to ``high``
+    (int8 to int64), or None beyond int64: so stored or hashed numbers follow from their values,
+    not from the type they came in."""
+    for kind in (np.int8, np.int16, np.int32, np.int64):
+        limits = np.iinfo(kind)
+        if limits.min <= low and high <= limits.max:
+            return np.dtype(kind)
+    return None
+
+
 def coded(codes: np.ndarray, categories: pd.Index) -> pd.Categorical:
     """A categorical from codes and categories already known to be distinct.
 

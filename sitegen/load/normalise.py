@@ -23,7 +23,7 @@ import pyarrow.compute as pc
 
 from ..config import Config
 from ..errors import ConfigError, DataError, DataErrors
-from ..model import DECK_COLUMNS, DeckData, Finding, coded, in_row_order
+from ..model import DECK_COLUMNS, DeckData, Finding, coded, in_row_order, narrowest_int
 from .tables import CSV_SUFFIXES, Table, _arrow_text
 
 #: Individual errors listed per problem before the rest are counted in one line.
@@ -760,11 +760,7 @@ def narrow_counts(values: np.ndarray) -> np.ndarray:
     """Copies (whole numbers of 1 or more) in the narrowest signed integer type that holds the
     largest: int8 for the usual 1 to 127. Tens of millions of rows are an eighth of int64's size
     wherever they are cut, copied or gathered later."""
-    top = int(values.max()) if values.size else 0
-    for kind in (np.int8, np.int16, np.int32):
-        if top <= np.iinfo(kind).max:
-            return values.astype(kind, copy=False)
-    return values.astype(np.int64, copy=False)
+    return values.astype(narrowest_int(0, int(values.max()) if values.size else 0) or np.int64, copy=False)
 
 
 def _counts(codes: np.ndarray, size: int) -> np.ndarray:

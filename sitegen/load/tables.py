@@ -24,7 +24,7 @@ import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 
 from ..errors import DataError, DataErrors
-from ..model import coded
+from ..model import coded, narrowest_int
 from .origin import Origin, TableOrigin
 
 CSV_SUFFIXES = (".csv",)
@@ -421,12 +421,8 @@ def _numbers(column: pa.ChunkedArray) -> pd.Series:
     kind = column.type
     if not pa.types.is_integer(kind) or column.null_count or len(column) == 0:
         return column.to_pandas()
-    low, high = (v.as_py() for v in pc.min_max(column).values())
-    for narrow in (np.int8, np.int16, np.int32, np.int64):
-        limits = np.iinfo(narrow)
-        if limits.min <= low and high <= limits.max:
-            break
-    else:
+    narrow = narrowest_int(*(v.as_py() for v in pc.min_max(column).values()))
+    if narrow is None:
         return column.to_pandas()  # unsigned beyond int64
     values = np.empty(len(column), dtype=narrow)
     at = 0

@@ -28,6 +28,7 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from ..cache import column_bytes
 from ..model import OTHER_KEY, Archetype, DeckData, PartitionResult
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -406,17 +407,12 @@ class ExportBlocks:
 
 
 def _feed(h, column: pd.Series) -> None:
-    """A column's values into the digest ``h``, by Arrow's buffers (no Python object per value)."""
-    values = pa.array(column, from_pandas=True)
-    if isinstance(values, pa.ChunkedArray):
-        values = values.combine_chunks()
-    if pa.types.is_dictionary(values.type):
-        values = values.cast(values.type.value_type)
-    # A slice shares its parent's buffers: its offset and length say which part of them it is.
-    h.update(f"\0{values.type}\0{values.offset}\0{len(values)}\0".encode())
-    for buffer in values.buffers():
-        if buffer is not None:
-            h.update(buffer)
+    """A column's values into the digest ``h``, by value whatever their dtype (the bytes partition
+    fingerprints digest, :func:`sitegen.cache.column_bytes`), each piece length-prefixed."""
+    for piece in column_bytes(column):
+        view = memoryview(piece).cast("B")
+        h.update(f"{view.nbytes}:".encode("ascii"))
+        h.update(view)
 
 
 def _block_key(season: str, decks: pd.DataFrame, results: Sequence[PartitionResult],
