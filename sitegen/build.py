@@ -159,6 +159,7 @@ def build(
             last = _last_build(cache_dir)
             blocks = _previous_blocks(last, out) if cache_dir is not None else None
             pages = _previous_pages(last, out, templates_dirs(cfg)) if cache_dir is not None else None
+            check_salt = _trust_chart_checks(last, pages.salt) if pages is not None else None
             # The workers are idle while pages render: they check the charts meanwhile.
             with progress.stage("rendering pages"), checked_by(runs.idle_pool()):
                 files, render_findings = render_site(SiteInput(
@@ -186,7 +187,7 @@ def build(
             copied_blocks=blocks.reused if blocks is not None else 0,
             reused_pages=pages.reused if pages is not None else 0,
         )
-        _write_stamp(cache_dir, stamp, report, blocks.new_index if blocks is not None else [], pages)
+        _write_stamp(cache_dir, stamp, report, blocks.new_index if blocks is not None else [], pages, check_salt)
     return report
 
 
@@ -347,11 +348,27 @@ def _previous_pages(record: dict | None, out: Path, template_dirs: tuple[Path, .
         return PageMemo(salt)
 
 
-def _write_stamp(cache_dir: Path | None, stamp: str, report: BuildReport, blocks: list, pages=None) -> None:
+def _trust_chart_checks(record: dict | None, code_salt: str) -> str:
+    """Count the charts the last build checked as checked, when what a check depends on is
+    unchanged (site/charts.py :func:`check_salt`); the salt, to keep with this build's."""
+    from .site.charts import check_salt, trust_checks
+
+    salt = check_salt(code_salt)
+    kept = record.get("charts") if record else None
+    if isinstance(kept, dict) and kept.get("salt") == salt:
+        trust_checks(kept.get("passed"))
+    return salt
+
+
+def _write_stamp(cache_dir: Path | None, stamp: str, report: BuildReport, blocks: list, pages=None,
+                 check_salt: str | None = None) -> None:
     if cache_dir is None:
         return
+    from .site.charts import passed_checks
+
     record = {"stamp": stamp, "output": _output_listing(report.output), "export_blocks": blocks,
-              "pages": {"salt": pages.salt, "keys": pages.keys} if pages is not None else None, "report": {
+              "pages": {"salt": pages.salt, "keys": pages.keys} if pages is not None else None,
+              "charts": {"salt": check_salt, "passed": passed_checks()} if check_salt is not None else None, "report": {
         "decks": report.decks, "seasons": report.seasons, "leaders": report.leaders,
         "archetypes": report.archetypes, "partitions": report.partitions,
         "partition_keys": [list(k) for k in report.run.analysed + report.run.cached],

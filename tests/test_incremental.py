@@ -166,3 +166,43 @@ def test_a_changed_template_renders_every_page_again(project, tmp_path):
     assert report.reused_pages == 0
     assert "Printed in the harbour." in (project.parent / "site" / "index.html").read_text(encoding="utf-8")
     assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")
+
+
+def test_a_rebuild_checks_only_the_charts_the_last_build_did_not(project, tmp_path, monkeypatch):
+    # Charts are checked against the Vega-Lite schema and compiled in every build (test_charts.py);
+    # what passed is kept beside the last build's stamp, under a salt of the code, the schema file
+    # and the compiler's release. Each build below starts with nothing known, as a new process does.
+    import json
+
+    from sitegen.site import charts
+
+    def checks_in_a_new_process():
+        monkeypatch.setattr(charts, "_checked", set())
+        before = charts.checks_started
+        build(project, quiet=True)
+        return charts.checks_started - before
+
+    first = checks_in_a_new_process()
+    assert first > 0
+    change_one_deck(project.parent)
+    assert checks_in_a_new_process() < first  # only charts whose spec skeleton is new
+    assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")
+
+    # Kept under another salt (another vl-convert, another schema, other code): nothing is trusted.
+    stamp = project.parent / ".sitegen-cache" / "last-build.json"
+    record = json.loads(stamp.read_text(encoding="utf-8"))
+    record["charts"]["salt"] = "0" * 64
+    stamp.write_text(json.dumps(record), encoding="utf-8")
+    change_one_deck(project.parent)
+    assert checks_in_a_new_process() == first
+
+
+def test_only_digests_are_trusted_from_a_kept_record(monkeypatch):
+    from sitegen.site import charts
+
+    monkeypatch.setattr(charts, "_checked", set())
+    good = "a" * 64
+    charts.trust_checks([good, "A" * 64, "not a digest", 7, None, good[:-1]])
+    assert charts.passed_checks() == [good]
+    charts.trust_checks({"passed": [good]})  # not a list: ignored
+    assert charts.passed_checks() == [good]

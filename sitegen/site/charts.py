@@ -150,7 +150,45 @@ def vl_version() -> str:
     return max(same_major, key=lambda v: tuple(int(p) for p in v.split(".")))
 
 
+#: Digests of the spec skeletons that passed both checks (in this process, or in an earlier
+#: build whose :func:`check_salt` was the same, see :func:`trust_checks`).
 _checked: set[str] = set()
+#: How many checks this process has run or sent off (one per skeleton not known to pass).
+checks_started = 0
+
+
+def check_salt(code_salt: str) -> str:
+    """What a check's verdict depends on besides the spec: sitegen's code and templates
+    (``code_salt``), the schema file and the vl-convert release that compiles."""
+    from importlib.metadata import PackageNotFoundError, version
+
+    path, schema_version = _schema_file()
+    try:
+        compiler = version("vl-convert-python")
+    except PackageNotFoundError:  # pragma: no cover - a dependency
+        compiler = "?"
+    try:
+        st = path.stat()
+        where = f"{path}\0{st.st_size}\0{st.st_mtime_ns}"
+    except OSError:
+        where = str(path)
+    text = f"chart-checks\0{code_salt}\0{where}\0{schema_version}\0{compiler}"
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def passed_checks() -> list[str]:
+    """The digests of every spec skeleton that passed, to keep for the next build."""
+    return sorted(_checked)
+
+
+def trust_checks(digests: Any) -> None:
+    """Count skeletons an earlier build checked (under the same :func:`check_salt`) as passed,
+    so a rebuild does not check its unchanged charts again. Anything but digests is ignored."""
+    if isinstance(digests, list):
+        _checked.update(d for d in digests if isinstance(d, str) and _DIGEST.fullmatch(d))
+
+
+_DIGEST = re.compile(r"[0-9a-f]{64}")
 
 
 def _all_objects(values: Any) -> bool:
@@ -182,8 +220,9 @@ def validate_spec(spec: dict, chart_id: str = "chart") -> None:
 
     Raises :class:`RenderError` naming the chart and, for a schema error,
     the place in the spec and the schema path that refused it. Specs already
-    checked in this process (same JSON text once inline data is cut to its
-    first row, see :func:`_skeleton`) are not checked again; a spec that
+    checked in this process or trusted from the last build (same JSON text once
+    inline data is cut to its first row, see :func:`_skeleton`) are not checked
+    again; a spec that
     fails is checked whole, so the error is the one the whole spec gives.
     Inside :func:`checked_by`, the check runs in another process and its
     error, if any, is raised when the block ends.
@@ -196,11 +235,14 @@ def validate_spec(spec: dict, chart_id: str = "chart") -> None:
     digest = hashlib.sha256(json.dumps(skeleton, sort_keys=True).encode("utf-8")).hexdigest()
     if digest in _checked:
         return
+    global checks_started
     if _elsewhere is not None:
         executor, pending = _elsewhere
         if digest not in pending:
             pending[digest] = executor.submit(check_skeleton, skeleton, spec, chart_id)
+            checks_started += 1
         return
+    checks_started += 1
     check_skeleton(skeleton, spec, chart_id)
     _checked.add(digest)
 
