@@ -234,7 +234,10 @@ class PartitionResult:
     drawn decks, columns deck_id, archetype, x, y, cards (a short text of
     its top cards for a tooltip). The analysis leaves x and y NaN and
     ``map_sample`` set; the map stage draws the map (started from the
-    leader's previous map) and fills them in.
+    leader's previous map) and fills them in. ``rows_key`` names what the
+    ``assignments`` rows follow from: the partition's fingerprint, or the key
+    of the map placed into them, and any relabelling by notes (see
+    :func:`sitegen.site.exports.export_files`); empty when not known.
     """
 
     season: str
@@ -252,6 +255,7 @@ class PartitionResult:
     inclusion: tuple[CardLine, ...]
     fingerprint: str = ""
     map_sample: MapSample | None = None
+    rows_key: str = ""
 
     @property
     def groups(self) -> tuple[Archetype, ...]:

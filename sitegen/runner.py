@@ -16,6 +16,8 @@ from dataclasses import replace
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, ThreadPoolExecutor, wait
 from typing import Sequence
 
+import numpy as np
+
 from . import __version__
 from .analysis.params import AnalysisParams
 from .analysis.embed import place_map
@@ -289,7 +291,10 @@ class Analyses:
         out = []
         for r in results:
             i = index.get((r.season, r.leader))
-            out.append(place_map(r, self._layouts[i]) if i in self._layouts else r)
+            if i in self._layouts:
+                out.append(replace(place_map(r, self._layouts[i]), rows_key=_placed_key(r, self._layouts[i])))
+            else:
+                out.append(replace(r, rows_key=f"analysis:{r.fingerprint}") if r.fingerprint else r)
         return out
 
     def _advance_maps(self) -> None:
@@ -400,6 +405,16 @@ def _fingerprints(parts: Sequence[PartitionInput], params: AnalysisParams, versi
         return [fingerprint(p, params, version) for p in parts]
     with ThreadPoolExecutor(max_workers=threads_wanted) as threads:
         return list(threads.map(lambda p: fingerprint(p, params, version), parts))
+
+
+def _placed_key(result: PartitionResult, layout: MapLayout) -> str:
+    """``rows_key`` of a result with a map placed into it: its fingerprint and the map's points
+    (a map drawn again from another start may come out the same, and so the same rows)."""
+    if not result.fingerprint:
+        return ""
+    h = hashlib.sha256(f"placed\0{result.fingerprint}\0".encode("ascii"))
+    h.update(np.ascontiguousarray(layout.coords, dtype="<f8"))
+    return h.hexdigest()
 
 
 def _with_fingerprint(result: PartitionResult, fp: str) -> PartitionResult:

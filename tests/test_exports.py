@@ -93,7 +93,8 @@ def _by_season(seed: int):
         for season in sorted(set(data.decks["season"])):
             frame = r.assignments[[season_of.get(d) == season for d in r.assignments["deck_id"]]]
             per_season.append(types.SimpleNamespace(assignments=frame.reset_index(drop=True), archetypes=r.archetypes,
-                                                    season=season, leader=f"L{i}", fingerprint=f"fp{i}"))
+                                                    season=season, leader=f"L{i}", fingerprint=f"fp{i}",
+                                                    n_decks=len(frame), rows_key=""))
     return data, per_season, slugs
 
 
@@ -133,6 +134,77 @@ def test_unchanged_seasons_are_copied_and_the_bytes_stay_the_same(seed):
     csv_file, json_file = exports._assignment_files(data, results, slugs, blocks)
     _same_as_whole(csv_file, json_file, data, results, slugs)
     assert blocks.reused == len(first.new_index) - 1
+
+
+def _partitioned(excluded: frozenset = frozenset()):
+    """Planted: two seasons x two leaders, each result holding exactly its partition's decks, as a
+    build's results do; ``excluded`` decks are in no partition."""
+    decks = pd.DataFrame({"deck_id": [f"d{i}" for i in range(12)],
+                          "season": ["S1"] * 6 + ["S2"] * 6,
+                          "leader": ["L1", "L2"] * 6})
+    data = DeckData(decks=decks, cards=pd.DataFrame(), card_info=None, seasons=("S1", "S2"), excluded=excluded)
+    results = []
+    for (season, leader), part in decks[~decks["deck_id"].isin(excluded)].groupby(["season", "leader"]):
+        frame = pd.DataFrame({"deck_id": part["deck_id"].tolist(), "archetype": ["a1"] * len(part),
+                              "distance": [0.25] * len(part), "x": [1.0] * len(part), "y": [-1.0] * len(part)})
+        results.append(types.SimpleNamespace(assignments=frame, archetypes=(), season=season, leader=leader,
+                                             fingerprint=f"fp-{season}-{leader}", n_decks=len(part),
+                                             rows_key=f"rows-{season}-{leader}"))
+    return data, results
+
+
+def _export_again(first: exports.ExportBlocks, old: tuple[bytes, bytes], data, results):
+    blocks = exports.ExportBlocks.from_files(old[0], old[1], first.new_index)
+    files = exports._assignment_files(data, results, {}, blocks)
+    return blocks, files
+
+
+def test_a_block_whose_partitions_rows_come_from_the_same_place_is_copied():
+    # Planted: when every partition of a season names where its rows come from (rows_key: its
+    # fingerprint and its map), the block is keyed by that and not by the rows; the bytes of a
+    # block made again still equal what the whole-table writers give.
+    data, results = _partitioned()
+    first = exports.ExportBlocks()
+    old = exports._assignment_files(data, results, {}, first)
+    _same_as_whole(*old, data, results, {})
+
+    blocks, files = _export_again(first, old, data, results)
+    assert blocks.reused == 2 and files == old
+
+    # A partition of S2 whose rows come from elsewhere (another map, say): that block alone is made again.
+    results[3].assignments = results[3].assignments.assign(x=[2.0] * len(results[3].assignments))
+    results[3].rows_key = "rows-elsewhere"
+    blocks, files = _export_again(first, old, data, results)
+    assert blocks.reused == 1
+    _same_as_whole(*files, data, results, {})
+
+
+def test_a_deck_left_out_changes_its_seasons_block():
+    # Planted: d0 (S1) breaks a rule and is left out of its partition; the partitions' keys are
+    # left as they were, so only the left-out decks can tell the blocks apart.
+    data, results = _partitioned()
+    first = exports.ExportBlocks()
+    old = exports._assignment_files(data, results, {}, first)
+    left_data, left_results = _partitioned(frozenset({"d0"}))
+    for r in left_results:
+        r.rows_key = f"rows-{r.season}-{r.leader}"
+    blocks, files = _export_again(first, old, left_data, left_results)
+    assert blocks.reused == 1  # S2's block
+    _same_as_whole(*files, left_data, left_results, {})
+    assert b'"d0"' in files[1] and b'"archetype": ""' in files[1]
+
+
+def test_blocks_are_keyed_by_their_rows_when_the_counts_do_not_add_up():
+    # Planted: a partition missing one of its decks (d1); the season's block then digests the rows
+    # themselves, so a change of distances with the same rows_key is not copied over.
+    data, results = _partitioned()
+    results[1].n_decks -= 1
+    first = exports.ExportBlocks()
+    old = exports._assignment_files(data, results, {}, first)
+    results[1].assignments = results[1].assignments.assign(distance=[0.5] * len(results[1].assignments))
+    blocks, files = _export_again(first, old, data, results)
+    assert blocks.reused == 1  # S2's block only
+    _same_as_whole(*files, data, results, {})
 
 
 @pytest.mark.parametrize("doc", [

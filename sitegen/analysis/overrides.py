@@ -27,6 +27,8 @@ Other keys are left to the notes reader.
 from __future__ import annotations
 
 import dataclasses
+import hashlib
+import json
 from collections.abc import Sequence
 
 import pandas as pd
@@ -87,6 +89,14 @@ def _relabel(frame: pd.DataFrame, mapping: dict[str, str]) -> pd.DataFrame:
     out = frame.copy()
     out["archetype"] = out["archetype"].replace(mapping)
     return out
+
+
+def _relabelled_key(rows_key: str, mapping: dict[str, str]) -> str:
+    """A result's ``rows_key`` once its assignments are relabelled by ``mapping``."""
+    if not rows_key:
+        return ""
+    text = json.dumps([rows_key, sorted(mapping.items())], ensure_ascii=True)
+    return "relabelled:" + hashlib.sha256(text.encode("ascii")).hexdigest()
 
 
 def _blank_other(like: Archetype) -> Archetype:
@@ -190,6 +200,7 @@ def apply_overrides(
         out.append(dataclasses.replace(
             r, archetypes=tuple(kept), other=other,
             assignments=_relabel(r.assignments, dest), map_points=_relabel(r.map_points, dest),
+            rows_key=_relabelled_key(r.rows_key, dest),
         ))
 
     for slug in sorted(set(chains) - ever_together):

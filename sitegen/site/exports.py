@@ -29,7 +29,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from ..cache import column_bytes
-from ..model import OTHER_KEY, Archetype, DeckData, PartitionResult
+from ..model import ALL_LEADERS, OTHER_KEY, Archetype, DeckData, PartitionResult
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
@@ -415,18 +415,44 @@ def _feed(h, column: pd.Series) -> None:
         h.update(view)
 
 
-def _block_key(season: str, decks: pd.DataFrame, results: Sequence[PartitionResult],
-               page_slugs: dict[tuple[str, str, str], str]) -> str:
+def _block_key(season: str, rows: np.ndarray, decks: pd.DataFrame, results: Sequence[PartitionResult],
+               page_slugs: dict[tuple[str, str, str], str], left_out: list[tuple[str, str]]) -> str:
+    """A digest of everything one season's block of rows is made from.
+
+    The season's decks are its partitions' decks and the decks left out of them (``left_out``,
+    (deck id, leader) sorted), and each partition's rows follow from its ``rows_key`` (the
+    partition's fingerprint, which covers its decks, and the map placed into them): those are
+    digested when every partition has one and the counts add up. Otherwise the decks' ids and
+    leaders and the rows themselves are."""
     h = hashlib.sha256(f"assignments\0{BLOCK_FORMAT}\0{season}\0".encode())
-    for column in ("deck_id", "leader"):
-        _feed(h, decks[column])
+    by_origin = bool(results) and all(r.rows_key and r.leader != ALL_LEADERS for r in results) \
+        and sum(int(r.n_decks) for r in results) + len(left_out) == len(rows)
+    if by_origin:
+        h.update(b"by-origin\0" + json.dumps(left_out, ensure_ascii=True).encode("ascii"))
+    else:
+        for column in ("deck_id", "leader"):
+            _feed(h, decks[column].iloc[rows])
     for r in results:
         h.update(f"\0{r.leader}\0{r.fingerprint}\0".encode())
         h.update(json.dumps(sorted(_slug_of(r, page_slugs).items())).encode())
-        if r.assignments is not None and len(r.assignments):
+        if by_origin:
+            h.update(f"\0{r.rows_key}\0".encode())
+        elif r.assignments is not None and len(r.assignments):
             for column in ("deck_id", "archetype", "distance", "x", "y"):
                 _feed(h, r.assignments[column])
     return h.hexdigest()
+
+
+def _left_out_by_season(data: DeckData) -> dict[str, list[tuple[str, str]]]:
+    """The decks in no partition (rule breakers left out), as sorted (deck id, leader) per season."""
+    out: dict[str, list[tuple[str, str]]] = {}
+    if not data.excluded:
+        return out
+    d = data.decks
+    d = d.loc[d["deck_id"].isin(data.excluded), ["deck_id", "season", "leader"]]
+    for deck_id, season, leader in zip(d["deck_id"].tolist(), d["season"].tolist(), d["leader"].tolist()):
+        out.setdefault(str(season), []).append((str(deck_id), str(leader)))
+    return {season: sorted(rows) for season, rows in out.items()}
 
 
 def _assignment_files(data: DeckData, results: Sequence[PartitionResult],
@@ -443,17 +469,18 @@ def _assignment_files(data: DeckData, results: Sequence[PartitionResult],
         by_season.setdefault(r.season, []).append(r)
     season_codes, season_names = pd.factorize(decks["season"])
     rows_of = {name: np.flatnonzero(season_codes == i) for i, name in enumerate(season_names)}
+    left_out = _left_out_by_season(data)
     csv_parts, json_parts = [csv_bytes(ASSIGNMENT_COLUMNS, ())], []
     csv_at, json_at = len(csv_parts[0]), 0
     for season in seasons:
-        part = decks.iloc[rows_of[season]]
         mine = by_season.get(season, [])
-        key = _block_key(season, part, mine, page_slugs)
+        key = _block_key(season, rows_of[season], decks, mine, page_slugs, left_out.get(str(season), []))
         copied = blocks.copy(key)
         if copied is not None:
             csv_block, json_block = copied
         else:
-            table = assignment_table(replace(data, decks=part.reset_index(drop=True)), mine, page_slugs)
+            part = decks.iloc[rows_of[season]].reset_index(drop=True)
+            table = assignment_table(replace(data, decks=part), mine, page_slugs)
             csv_block = memoryview(assignments_csv(table))[len(csv_parts[0]):]
             json_block = _json_rows(table)
         blocks.new_index.append((key, csv_at, csv_at + len(csv_block), json_at, json_at + len(json_block)))
