@@ -198,13 +198,47 @@ def _analyse_tables(data, cfg: Config, runs, progress: Progress):
 
     with progress.stage("checking deck-building rules"):
         data = check_rules(data, cfg)
-    parts = split(data, cfg)
-    with progress.stage(f"analysing {len(parts)} partition(s)"):
+    keys, known = _known_seasons(data, cfg, runs)
+    parts = split(data, cfg, skip=known)
+    total = len(parts) + sum(len(p) for p in known.values())
+    with progress.stage(f"analysing {total} partition(s)"):
         runs.plan_maps(data.seasons)  # a map starts as soon as its partition is analysed
+        if known:
+            progress.say(f"  {len(known)} season(s) with the same rows as last time: not split again")
         runs.add(parts)
+        if runs.cache is not None:
+            from .model import SeasonSplit
+
+            mine: dict[str, list[tuple[str, str, str]]] = {season: [] for season in keys if season not in known}
+            for p, fp in zip(parts, runs.fingerprints(len(parts))):
+                if p.season in mine:
+                    mine[p.season].append((p.season, p.leader, fp))
+            for season, partitions in mine.items():
+                runs.cache.put(keys[season], SeasonSplit(partitions=tuple(partitions)))
         del parts
         results, run = runs.finish()
-    return data, results, run
+    rank = {s: i for i, s in enumerate(data.seasons)}
+    results.sort(key=lambda r: (rank[r.season], r.leader))  # the seasons known came first
+    return data, results, replace(run, seasons_known=tuple(s for s in data.seasons if s in known))
+
+
+def _known_seasons(data, cfg: Config, runs) -> tuple[dict[str, str], dict[str, tuple]]:
+    """Each season's key (see partitions.season_keys), and the seasons whose rows are as at a
+    build the cache remembers, with their partitions, handed to the runner (their results are
+    all in the cache). Without a cache, none."""
+    from .model import SeasonSplit
+    from .partitions import season_keys
+
+    if runs.cache is None:
+        return {}, {}
+    keys = season_keys(data, _split_salt(cfg, runs))
+    runs.other_keys |= set(keys.values())
+    known = {}
+    for season, key in keys.items():
+        found = runs.cache.get(key, SeasonSplit)
+        if found is not None and runs.add_known(found.partitions):
+            known[season] = found.partitions
+    return keys, known
 
 
 def _analyse_folder(folder, cfg: Config, runs, cache, progress: Progress):
@@ -243,6 +277,16 @@ def _analyse_folder(folder, cfg: Config, runs, cache, progress: Progress):
     rank = {s: i for i, s in enumerate(data.seasons)}
     results.sort(key=lambda r: (rank[r.season], r.leader))
     return data, results, run
+
+
+def _split_salt(cfg: Config, runs) -> str:
+    """What cutting a season into partitions and their fingerprints depend on besides its rows
+    (which :func:`sitegen.partitions.season_keys` digests): the analysis settings and code, and
+    the splitting code. Not the data's file names or times: a copy of the same rows elsewhere
+    is still the same season."""
+    h = hashlib.sha256(f"split\0{runs.version}\0{runs.params!r}\0{cfg['analysis.by_leader']}\0".encode())
+    h.update((Path(__file__).resolve().parent / "partitions.py").read_bytes())
+    return h.hexdigest()
 
 
 def _record_salt(cfg: Config, analysis_version: str) -> str:

@@ -296,6 +296,15 @@ class History:
 
 
 @dataclass(frozen=True)
+class SeasonSplit:
+    """The partitions one season of flat tables was cut into, as (season, leader, fingerprint),
+    kept in the cache under the key of the season's rows (:func:`sitegen.partitions.season_keys`):
+    while a later build finds the same rows, it takes their results without cutting them again."""
+
+    partitions: tuple[tuple[str, str, str], ...]
+
+
+@dataclass(frozen=True)
 class SeasonRecord:
     """What one season of a season folder gave a build, kept so that the next build, while
     the season's files are unchanged, need not read its card rows again.
@@ -341,3 +350,5 @@ class RunReport:
     mapped: tuple[tuple[str, str], ...] = ()
     #: Seasons of a season folder whose card rows were not read: their files had not changed.
     seasons_unread: tuple[str, ...] = ()
+    #: Seasons of flat tables whose rows were as at an earlier build: not split into partitions again.
+    seasons_known: tuple[str, ...] = ()

@@ -7,14 +7,21 @@ whose leader is :data:`sitegen.model.ALL_LEADERS`.
 """
 from __future__ import annotations
 
+import hashlib
+import json
+from collections.abc import Collection
 from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 import pandas as pd
 
+from .cache import column_bytes
 from .config import Config
 from .model import ALL_LEADERS, DeckData, PartitionInput, coded
 from .resources import usable_cores
+
+#: Bumped when what :func:`season_keys` digests changes.
+SEASON_KEY_FORMAT = 1
 
 
 def card_types(data: DeckData) -> dict[str, str]:
@@ -25,8 +32,9 @@ def card_types(data: DeckData) -> dict[str, str]:
     return dict(zip(info["card"].astype(str), info["type"].fillna("").astype(str)))
 
 
-def split(data: DeckData, cfg: Config) -> list[PartitionInput]:
-    """The partitions of ``data`` in publication order (season, then leader name).
+def split(data: DeckData, cfg: Config, skip: Collection[str] = ()) -> list[PartitionInput]:
+    """The partitions of ``data`` in publication order (season, then leader name), leaving out
+    those of the seasons in ``skip`` (known unchanged, see :func:`season_keys`).
 
     Decks in ``data.excluded`` (rule breakers, when the config leaves them
     out) are not in any partition. Rows are taken by their decks' runs of
@@ -99,12 +107,73 @@ def split(data: DeckData, cfg: Config) -> list[PartitionInput]:
         return PartitionInput(season=season, leader=leader, decks=part_decks, cards=part_cards,
                               card_types={c: types[c] for c in present if c in types})
 
-    threads = min(usable_cores(), len(order))
+    wanted = [i for i, (season, _) in enumerate(order) if season not in skip]
+    threads = min(usable_cores(), len(wanted))
     if threads < 2 or (by_part is not None and deck_row is not None):  # that way shares ``local``: one at a time
-        return [cut(i) for i in range(len(order))]
+        return [cut(i) for i in wanted]
     # Gathering rows releases the GIL, so partitions are cut side by side, one thread per core.
     with ThreadPoolExecutor(max_workers=threads) as pool:
-        return list(pool.map(cut, range(len(order))))
+        return list(pool.map(cut, wanted))
+
+
+def season_keys(data: DeckData, salt: str) -> dict[str, str]:
+    """A digest of everything each season's partitions are cut from: its decks' rows (every
+    column), their card rows, which of them are left out, and the card names and types.
+
+    The same key means :func:`split` cuts the season into the same partitions, when ``salt``
+    covers the rest (the settings, and the code that reads, checks and splits). Made only
+    where the loader's order holds (each season's decks one run of rows, card rows grouped by
+    deck in deck order, cards as a categorical): then a season's rows are slices, hashed as
+    they lie. Otherwise, or with one season, no keys: every season is cut."""
+    decks, cards = data.decks, data.cards
+    deck_row = _deck_rows(data)
+    if deck_row is None or not isinstance(cards["card"].dtype, pd.CategoricalDtype) or not _ascending(deck_row):
+        return {}
+    season_codes, seasons = pd.factorize(decks["season"])
+    if len(seasons) < 2 or int(np.count_nonzero(np.diff(season_codes))) != len(seasons) - 1:
+        return {}
+    starts = np.flatnonzero(np.diff(season_codes, prepend=-1)).tolist() + [len(decks)]
+    run_start = np.searchsorted(deck_row, np.arange(len(decks) + 1, dtype=deck_row.dtype))
+    card_codes, quantity = cards["card"].array.codes, cards["quantity"].to_numpy()
+    left_out = decks["deck_id"].isin(data.excluded).to_numpy() if data.excluded else None
+
+    shared = hashlib.sha256(f"season-rows\0{SEASON_KEY_FORMAT}\0{salt}\0".encode())
+    _feed(shared, "card-names", column_bytes(pd.Series(cards["card"].cat.categories)))
+    _feed(shared, "deck-columns", [json.dumps([str(c) for c in decks.columns]).encode("utf-8")])
+    if data.card_info is not None:
+        for column in data.card_info.columns:
+            _feed(shared, f"card-table-{column}", column_bytes(data.card_info[column]))
+    _feed(shared, "card-codes", [str(card_codes.dtype).encode("ascii")])
+    _feed(shared, "quantity", [str(quantity.dtype).encode("ascii")])
+
+    def key(i: int) -> tuple[str, str]:
+        a, b = starts[i], starts[i + 1]
+        h = shared.copy()
+        _feed(h, "season", [str(seasons[i]).encode("utf-8")])
+        for column in decks.columns:
+            _feed(h, f"column-{column}", column_bytes(decks[column].iloc[a:b]))
+        rows = slice(int(run_start[a]), int(run_start[b]))
+        _feed(h, "rows-per-deck", [np.diff(run_start[a:b + 1]).astype("<i8")])
+        _feed(h, "card-codes", [np.ascontiguousarray(card_codes[rows])])
+        _feed(h, "quantity", [np.ascontiguousarray(quantity[rows])])
+        if left_out is not None and left_out[a:b].any():
+            _feed(h, "left-out", [np.packbits(left_out[a:b])])
+        return str(seasons[i]), h.hexdigest()
+
+    threads = min(usable_cores(), len(seasons))
+    if threads < 2:
+        return dict(key(i) for i in range(len(seasons)))
+    # Hashing releases the GIL: seasons are digested side by side, one thread per core.
+    with ThreadPoolExecutor(max_workers=threads) as pool:
+        return dict(pool.map(key, range(len(seasons))))
+
+
+def _feed(h, label: str, pieces: list) -> None:
+    """Length-prefixed pieces into the digest ``h``, so no two inputs run together alike."""
+    views = [memoryview(p).cast("B") for p in pieces]
+    h.update(f"{label}:{sum(v.nbytes for v in views)}:".encode("utf-8"))
+    for view in views:
+        h.update(view)
 
 
 def _deck_rows(data: DeckData) -> np.ndarray | None:

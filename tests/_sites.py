@@ -42,6 +42,18 @@ def drop_season(project: Path, season: str) -> None:
     write_rows(data / "deck_cards.csv", header, [r for r in cards if r[0] not in gone])
 
 
+def interleave_seasons(project: Path) -> None:
+    """Rename the deck ids so that the two seasons' decks alternate in id order (the loader's)."""
+    data = project / "data"
+    header, rows = read_rows(data / "decks.csv")
+    seasons = sorted({r[1] for r in rows})
+    by_season = [[r for r in rows if r[1] == s] for s in seasons]
+    new_id = {r[0]: f"x{i:05d}" for i, r in enumerate(r for group in zip(*by_season) for r in group)}
+    write_rows(data / "decks.csv", header, [[new_id[r[0]], *r[1:]] for r in rows])
+    card_header, card_rows = read_rows(data / "deck_cards.csv")
+    write_rows(data / "deck_cards.csv", card_header, [[new_id[r[0]], *r[1:]] for r in card_rows])
+
+
 def change_one_deck(project: Path) -> tuple[str, str]:
     """Take one copy out of the first card of the first deck; returns that deck's (season, leader)."""
     data = project / "data"

@@ -10,7 +10,7 @@ import pytest
 
 from sitegen.build import build
 
-from _sites import change_one_deck, copy_project, drop_season, make_project, tree
+from _sites import change_one_deck, copy_project, drop_season, interleave_seasons, make_project, tree
 
 
 def _clean(project_cfg, tmp_path, name):
@@ -63,12 +63,43 @@ def test_changing_one_deck_reanalyses_only_its_partition(project, tmp_path):
     where = change_one_deck(project.parent)
     report = build(project, quiet=True)
     assert report.run.analysed == (where,)
+    # The other season's rows are as last time: it is not split again, its partitions come from the cache.
+    assert report.run.seasons_known == tuple(s for s in ("First Tide", "Second Tide") if s != where[0])
     # The other season's rows of the assignments files are copied from the last build's files.
     assert report.copied_blocks == 1
     # Its map is redrawn, and so are the later maps of its leader (each starts from the one before).
     assert where in report.run.mapped and all(leader == where[1] for _, leader in report.run.mapped)
     # Pages whose context did not change are taken from the last build, and the site is still a clean build's.
     assert 0 < report.reused_pages < report.written.files
+    assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")
+
+
+def test_seasons_that_are_not_slices_of_the_tables_are_all_split_again(project, tmp_path):
+    # Planted: the seasons' decks alternate in the tables, so no season is known by its rows;
+    # the changed partition is still the only one analysed, and the site is a clean build's.
+    interleave_seasons(project.parent)
+    build(project, quiet=True)
+    where = change_one_deck(project.parent)
+    report = build(project, quiet=True)
+    assert report.run.seasons_known == () and report.run.analysed == (where,)
+    assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")
+
+
+def test_the_same_rows_read_from_elsewhere_are_known_and_a_new_setting_is_not(project, tmp_path):
+    # Planted: the tables copied to another folder (as a data refresh does) keep both seasons known
+    # by their rows; another analysis setting makes every partition new, so no season is known.
+    import shutil
+
+    build(project, quiet=True)
+    shutil.copytree(project.parent / "data", project.parent / "refreshed")
+    text = project.read_text(encoding="utf-8").replace('"data/', '"refreshed/')
+    project.write_text(text, encoding="utf-8")
+    report = build(project, quiet=True)
+    assert report.run.seasons_known == ("First Tide", "Second Tide") and report.run.analysed == ()
+
+    project.write_text(text.replace("# seed = 0", "seed = 1"), encoding="utf-8")
+    report = build(project, quiet=True)
+    assert report.run.seasons_known == () and report.run.cached == ()
     assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")
 
 
