@@ -121,7 +121,7 @@ def season_keys(data: DeckData, salt: str) -> dict[str, str]:
     column), their card rows, which of them are left out, and the card names and types.
 
     The same key means :func:`split` cuts the season into the same partitions, when ``salt``
-    covers the rest (the settings, and the code that reads, checks and splits). Made only
+    covers the rest (the analysis settings and code, and this module's code). Made only
     where the loader's order holds (each season's decks one run of rows, card rows grouped by
     deck in deck order, cards as a categorical): then a season's rows are slices, hashed as
     they lie. Otherwise, or with one season, no keys: every season is cut."""

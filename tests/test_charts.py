@@ -385,3 +385,29 @@ def test_schema_found_without_importing_altair_is_altairs_own():
     assert path.resolve() == (Path(altair.__file__).resolve().parent / "vegalite" / version.split(".")[0]
                               / "schema" / "vega-lite-schema.json")
     assert charts.schema_url() == altair.SCHEMA_URL
+
+
+def test_a_lazy_chart_is_made_once_when_read_and_pickles_as_its_key():
+    # Planted: a page memo key (site/memo.py) pickles the context; a lazy chart must stand there for
+    # its key alone, and be made at most once, only when a page reads it.
+    import pickle
+
+    made = []
+
+    def make():
+        made.append(1)
+        return charts.map_chart(partition(), {}, "map-lazy")
+
+    lazy = charts.LazyChart("rows-1", make)
+    other_maker = charts.LazyChart("rows-1", lambda: charts.map_chart(partition(seed=1), {}, "map-lazy"))
+    assert pickle.dumps({"map": lazy}) == pickle.dumps({"map": other_maker})  # the key, not the chart
+    assert pickle.dumps({"map": lazy}) != pickle.dumps({"map": charts.LazyChart("rows-2", make)})
+    assert pickle.loads(pickle.dumps(lazy)) == "lazy-chart\0rows-1"
+    assert made == [] and bool(lazy)
+    eager = charts.map_chart(partition(), {}, "map-lazy")
+    assert (lazy.id, lazy.spec, lazy.caption, lazy.rows) == (eager.id, eager.spec, eager.caption, eager.rows)
+    assert made == [1]
+    # Rendered through the chart template, the same page as the eager chart's.
+    urls = {"vega": "v.js", "charts_js": "c.js", "charts_css": "c.css"}
+    assert render_page([lazy], urls) == render_page([eager], urls)
+    assert made == [1]

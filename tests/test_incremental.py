@@ -103,11 +103,24 @@ def test_the_same_rows_read_from_elsewhere_are_known_and_a_new_setting_is_not(pr
     assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")
 
 
+def _entries_holding(folder: Path, kinds: tuple[type, ...]) -> list[Path]:
+    import pickle
+
+    out = []
+    for path in sorted(folder.rglob("*.entry")):
+        payload = path.read_bytes().split(b"\n", 1)[1]
+        if isinstance(pickle.loads(payload), kinds):
+            out.append(path)
+    return out
+
+
 @pytest.mark.parametrize("damage", ["truncate", "edit", "garbage"])
 def test_damaged_cache_entry_is_recomputed(project, tmp_path, damage):
+    from sitegen.model import MapLayout, PartitionResult
+
     build(project, quiet=True)
     good = tree(project.parent / "site")
-    entries = sorted((project.parent / ".sitegen-cache").rglob("*.entry"))
+    entries = _entries_holding(project.parent / ".sitegen-cache", (PartitionResult, MapLayout))
     assert entries, "the build stored its analyses"
     victim = entries[0]
     data = victim.read_bytes()
@@ -122,6 +135,22 @@ def test_damaged_cache_entry_is_recomputed(project, tmp_path, damage):
     report = build(project, quiet=True)
     # The entry is a partition's analysis or a map: that one is made again, nothing else.
     assert len(report.run.analysed) + len(report.run.mapped) == 1
+    assert tree(project.parent / "site") == good
+
+
+def test_a_damaged_season_entry_splits_that_season_again(project):
+    # The entry that lists a season's partitions (model.SeasonSplit): without it the season is cut and
+    # fingerprinted again, finds every result in the cache, and the site is the same.
+    from sitegen.model import SeasonSplit
+
+    build(project, quiet=True)
+    good = tree(project.parent / "site")
+    entries = _entries_holding(project.parent / ".sitegen-cache", (SeasonSplit,))
+    assert len(entries) == 2, "one entry per season"
+    entries[0].write_bytes(entries[0].read_bytes()[:-5])
+    os.utime(project.parent / "data" / "decks.csv")
+    report = build(project, quiet=True)
+    assert len(report.run.seasons_known) == 1 and report.run.analysed == () and report.run.mapped == ()
     assert tree(project.parent / "site") == good
 
 
@@ -219,10 +248,12 @@ def test_a_rebuild_checks_only_the_charts_the_last_build_did_not(project, tmp_pa
     assert checks_in_a_new_process() < first  # only charts whose spec skeleton is new
     assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")
 
-    # Kept under another salt (another vl-convert, another schema, other code): nothing is trusted.
+    # Kept under another salt (another vl-convert, another schema, other code): nothing is trusted,
+    # and with every page rendered anew (no page keys kept) every chart is checked again.
     stamp = project.parent / ".sitegen-cache" / "last-build.json"
     record = json.loads(stamp.read_text(encoding="utf-8"))
     record["charts"]["salt"] = "0" * 64
+    record["pages"] = None
     stamp.write_text(json.dumps(record), encoding="utf-8")
     change_one_deck(project.parent)
     assert checks_in_a_new_process() == first
@@ -237,3 +268,20 @@ def test_only_digests_are_trusted_from_a_kept_record(monkeypatch):
     assert charts.passed_checks() == [good]
     charts.trust_checks({"passed": [good]})  # not a list: ignored
     assert charts.passed_checks() == [good]
+
+
+def test_maps_of_pages_taken_from_the_last_build_are_not_made(project, tmp_path, monkeypatch):
+    # A season page whose context is unchanged is reused; its map charts (thousands of points at
+    # scale) are not even made. Planted: one deck changed, so one season's page is rendered again.
+    from sitegen.site import charts
+
+    made = []
+    real = charts.map_chart
+    monkeypatch.setattr(charts, "map_chart", lambda result, *a, **k: made.append(result.season) or real(result, *a, **k))
+    build(project, quiet=True)
+    assert sorted(set(made)) == ["First Tide", "Second Tide"]
+    made.clear()
+    where = change_one_deck(project.parent)
+    build(project, quiet=True)
+    assert made and set(made) == {where[0]}
+    assert tree(project.parent / "site") == _clean(project, tmp_path, "clean")

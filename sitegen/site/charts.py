@@ -19,7 +19,7 @@ from collections import Counter
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Iterable, Iterator, Mapping, Sequence
+from typing import Any, Callable, Iterable, Iterator, Mapping, Sequence
 
 import numpy as np
 
@@ -75,6 +75,30 @@ class Chart:
     caption: str
     columns: tuple[str, ...]
     rows: tuple[tuple, ...]
+
+
+class LazyChart:
+    """A :class:`Chart` made when a page first reads it, for charts costly to make (a map
+    holds thousands of points). In a page's memo key (site/memo.py) it stands for itself by
+    ``key``, which must name everything the chart is made from: a page whose context is
+    unchanged is then reused without making its charts at all."""
+
+    __slots__ = ("key", "_make", "_chart")
+
+    def __init__(self, key: str, make: Callable[[], Chart]) -> None:
+        self.key = key
+        self._make = make
+        self._chart: Chart | None = None
+
+    def __getattr__(self, name: str) -> Any:
+        if name.startswith("_"):
+            raise AttributeError(name)
+        if self._chart is None:
+            self._chart = self._make()
+        return getattr(self._chart, name)
+
+    def __reduce__(self):
+        return (str, (f"lazy-chart\0{self.key}",))
 
 
 # -- checking -----------------------------------------------------------------

@@ -12,6 +12,7 @@ from __future__ import annotations
 import base64
 import dataclasses
 import hashlib
+import json
 import math
 from collections import defaultdict
 from dataclasses import dataclass, fields
@@ -385,6 +386,19 @@ class Renderer:
         keep = stratified_sample(points["archetype"].astype(str).tolist(), budget, int(self.site.cfg["analysis.seed"]))
         return dataclasses.replace(r, map_points=points.iloc[keep].reset_index(drop=True))
 
+    def _map(self, r: PartitionResult, names: dict[str, str], chart_id: str, budget: int | None) -> Any:
+        """The partition's map chart; made only if its page is rendered, when the rows it is drawn
+        from are named by ``rows_key`` (the chart's key then names all it is made from)."""
+        def make() -> ch.Chart:
+            return ch.map_chart(self._thin_map(r, budget) if budget is not None else r, names, chart_id)
+
+        if not r.rows_key:
+            return make()
+        key = json.dumps([r.rows_key, r.season, r.leader, int(r.n_decks), chart_id, budget,
+                          int(self.site.cfg["analysis.seed"]), sorted(names.items()),
+                          [(g.key, g.name, bool(g.is_other)) for g in r.groups]], ensure_ascii=True)
+        return ch.LazyChart(key, make)
+
     def _block(self, r: PartitionResult, *, with_charts: bool, with_shares: bool = False,
                map_budget: int | None = None) -> P.LeaderBlock:
         s = self.s
@@ -401,8 +415,7 @@ class Renderer:
         if with_charts and clustered:
             names = {a.key: s.name_of(a) for a in r.groups}
             if r.map_points is not None and len(r.map_points):
-                drawn = self._thin_map(r, map_budget) if map_budget is not None else r
-                map_c = ch.map_chart(drawn, names, f"map-{lslug}")
+                map_c = self._map(r, names, f"map-{lslug}", map_budget)
             if r.silhouette:
                 sil_c = ch.silhouette_chart(r, f"silhouette-{lslug}")
         return P.LeaderBlock(name=s.leader_name(r.leader), href=s.leader_link(r.leader).href, anchor=f"leader-{lslug}",
