@@ -295,3 +295,23 @@ def test_renamed_long_form_columns_are_read_as_categories(tmp_path, fmt):
     expected = _reference_rows(decks, cards)
     assert data.cards["card"].astype(str).tolist() == expected["card"].tolist()
     assert data.cards["quantity"].tolist() == expected["quantity"].tolist()
+
+
+@pytest.mark.parametrize("statistics, quantities", [
+    (True, (1, 4)),          # copies of a card: int8
+    (True, (-40_000, 40_000)),  # wider: int32
+    (False, (1, 4)),         # no statistics: read whole
+])
+def test_whole_numbers_read_by_row_group_equal_pyarrow(tmp_path, statistics, quantities):
+    # Reference: pyarrow reading the whole column; the dtype must be the narrowest holding the values
+    # (numpy's own np.min_scalar_type of the extremes, signed), over 16 row groups.
+    _, cards = _planted(8)
+    cards["quantity"] = np.random.default_rng(8).integers(*quantities, len(cards))
+    path = tmp_path / "deck_cards.parquet"
+    pq.write_table(pa.Table.from_pandas(cards, preserve_index=False), path, row_group_size=9_999,
+                   write_statistics=statistics)
+    got = _read_cards(path)["quantity"]
+    expected = pq.read_table(path).column("quantity").to_numpy()
+    assert got.to_numpy().tolist() == expected.tolist()
+    widest = np.promote_types(np.min_scalar_type(-int(np.abs(expected).max()) - 1), np.int8)
+    assert got.dtype == widest

@@ -386,7 +386,8 @@ def _read_parquet(path: Path, wanted: dict[str, str], numeric: frozenset[str],
     raw_names = list(dict.fromkeys(wanted.values()))
     as_category = categorical  # the file's own column names, as read_table passes them
     try:
-        schema = pq.ParquetFile(path).schema_arrow
+        parquet = pq.ParquetFile(path)
+        schema = parquet.schema_arrow
     except Exception as exc:  # pyarrow raises several types for a corrupt file
         raise _not_parquet(path, exc) from None
     out: dict[str, pd.Series] = {}
@@ -395,6 +396,15 @@ def _read_parquet(path: Path, wanted: dict[str, str], numeric: frozenset[str],
     # beside its converted copy (fresh memory is what costs most on a virtual machine).
     for raw in raw_names:
         kind = schema.field(raw).type
+        logicals = [name for name, r in wanted.items() if r == raw]
+        if pa.types.is_integer(kind) and all(name in numeric for name in logicals):
+            try:
+                streamed = _numbers_by_row_group(parquet, raw)
+            except Exception as exc:  # pyarrow raises several types for a corrupt file
+                raise _not_parquet(path, exc) from None
+            if streamed is not None:
+                out.update((name, streamed) for name in logicals)
+                continue
         # Only text columns can be read dictionary-encoded; others are turned into text below.
         dictionary = raw in as_category and (pa.types.is_string(kind) or pa.types.is_large_string(kind))
         try:
@@ -413,6 +423,49 @@ def _read_parquet(path: Path, wanted: dict[str, str], numeric: frozenset[str],
     del out
     pa.default_memory_pool().release_unused()  # Arrow's allocator keeps freed memory otherwise
     return frame
+
+
+def _numbers_by_row_group(parquet: pq.ParquetFile, raw: str) -> pd.Series | None:
+    """A whole-number column read one row group at a time into the narrowest type that the row
+    groups' statistics allow, so it is never held whole as the 64-bit numbers a writer stores
+    (230 MB at 28.8M rows, against 29 MB for copies of a card as int8). None when a row group
+    has no statistics, or nulls, or values its statistics did not say: then the column is read
+    whole (:func:`_numbers`)."""
+    meta = parquet.metadata
+    leaves = [j for j in range(meta.num_columns) if meta.schema.column(j).path == raw]
+    if len(leaves) != 1 or meta.num_row_groups == 0:
+        return None
+    lows, highs = [], []
+    for i in range(meta.num_row_groups):
+        stats = meta.row_group(i).column(leaves[0]).statistics
+        if stats is None or not stats.has_min_max or stats.null_count != 0:
+            return None
+        lows.append(int(stats.min))
+        highs.append(int(stats.max))
+    narrow = narrowest_int(min(lows), max(highs))
+    if narrow is None:
+        return None
+    values = np.empty(meta.num_rows, dtype=narrow)
+    at, seen_low, seen_high = 0, max(highs), min(lows)
+    for i in range(meta.num_row_groups):
+        column = parquet.read_row_group(i, columns=[raw]).column(0)
+        for chunk in column.chunks:
+            if chunk.null_count:
+                return None
+            if len(chunk) == 0:
+                continue
+            low, high = (v.as_py() for v in pc.min_max(chunk).values())
+            if low < lows[i] or high > highs[i] or at + len(chunk) > len(values):
+                return None  # statistics that do not hold: trust the values
+            values[at:at + len(chunk)] = chunk.to_numpy(zero_copy_only=False)
+            at += len(chunk)
+            seen_low, seen_high = min(seen_low, low), max(seen_high, high)
+    if at != len(values):
+        return None
+    tighter = narrowest_int(seen_low, seen_high) if at else narrow
+    if tighter is not None and np.dtype(tighter).itemsize < values.itemsize:  # statistics wider than the values
+        values = values.astype(tighter)
+    return pd.Series(values, copy=False)
 
 
 def _numbers(column: pa.ChunkedArray) -> pd.Series:
