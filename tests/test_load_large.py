@@ -315,3 +315,16 @@ def test_whole_numbers_read_by_row_group_equal_pyarrow(tmp_path, statistics, qua
     assert got.to_numpy().tolist() == expected.tolist()
     widest = np.promote_types(np.min_scalar_type(-int(np.abs(expected).max()) - 1), np.int8)
     assert got.dtype == widest
+
+
+@pytest.mark.parametrize("statistics", [True, False])
+def test_deck_ids_read_row_group_by_row_group_equal_pyarrow(tmp_path, statistics):
+    # Reference: pyarrow reading the whole file. With statistics (no nulls), the deck ids are read a row
+    # group at a time; without, whole; some decks' runs are cut by a row group's end (7 001 rows each).
+    decks, cards = _planted(9)
+    path = tmp_path / "deck_cards.parquet"
+    pq.write_table(pa.Table.from_pandas(cards, preserve_index=False), path, row_group_size=7_001,
+                   write_statistics=statistics)
+    frame = _read_cards(path, pd.Series(decks["deck_id"], dtype="str"))
+    assert frame["deck_id"].astype(str).tolist() == pq.read_table(path).column("deck_id").to_pylist()
+    assert frame["deck_id"].cat.categories.tolist() == decks["deck_id"].tolist()
