@@ -235,9 +235,10 @@ class PartitionResult:
     its top cards for a tooltip). The analysis leaves x and y NaN and
     ``map_sample`` set; the map stage draws the map (started from the
     leader's previous map) and fills them in. ``rows_key`` names what the
-    ``assignments`` rows follow from: the partition's fingerprint, or the key
-    of the map placed into them, and any relabelling by notes (see
-    :func:`sitegen.site.exports.export_files`); empty when not known.
+    ``assignments`` and ``map_points`` rows follow from: the partition's
+    fingerprint, the points of the map placed into them and any relabelling
+    by notes (the assignments files and the season pages' maps are keyed by
+    it); empty when not known.
     """
 
     season: str

@@ -246,8 +246,8 @@ def validate_spec(spec: dict, chart_id: str = "chart") -> None:
     the place in the spec and the schema path that refused it. Specs already
     checked in this process or trusted from the last build (same JSON text once
     inline data is cut to its first row, see :func:`_skeleton`) are not checked
-    again; a spec that
-    fails is checked whole, so the error is the one the whole spec gives.
+    again; a spec that fails is checked whole, so the error is the one the
+    whole spec gives.
     Inside :func:`checked_by`, the check runs in another process and its
     error, if any, is raised when the block ends.
     """
