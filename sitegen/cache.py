@@ -84,6 +84,15 @@ def _json_fallback(value: Any) -> Any:
     return repr(value)
 
 
+def feed_labelled(h, label: str, data: bytes | list) -> None:
+    """``data`` into the digest ``h`` under ``label``, length-prefixed, so no two different inputs
+    concatenate alike; a list of buffers is hashed piece by piece, as if joined (no copy of them)."""
+    pieces = [memoryview(d).cast("B") for d in data] if isinstance(data, list) else [memoryview(data).cast("B")]
+    h.update(label.encode("utf-8") + b":" + str(sum(p.nbytes for p in pieces)).encode("ascii") + b":")
+    for piece in pieces:
+        h.update(piece)
+
+
 def fingerprint(part: PartitionInput, params: Any, version: str = __version__) -> str:
     """A sha256 hex digest of a partition's rows, the analysis settings and the tool version.
 
@@ -102,12 +111,7 @@ def fingerprint(part: PartitionInput, params: Any, version: str = __version__) -
     h = hashlib.sha256()
 
     def feed(label: str, data: bytes | list) -> None:
-        # Length-prefixed, so no two different inputs concatenate alike; a list of buffers is
-        # hashed piece by piece, as if joined (no copy of a partition's rows).
-        pieces = [memoryview(d).cast("B") for d in data] if isinstance(data, list) else [memoryview(data).cast("B")]
-        h.update(label.encode("ascii") + b":" + str(sum(p.nbytes for p in pieces)).encode("ascii") + b":")
-        for piece in pieces:
-            h.update(piece)
+        feed_labelled(h, label, data)
 
     feed("format", str(FORMAT).encode("ascii"))
     feed("rows", b"canonical-1")  # how rows are digested (below)

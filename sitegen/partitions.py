@@ -15,7 +15,7 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 import pandas as pd
 
-from .cache import column_bytes
+from .cache import column_bytes, feed_labelled
 from .config import Config
 from .model import ALL_LEADERS, DeckData, PartitionInput, coded
 from .resources import usable_cores
@@ -138,26 +138,26 @@ def season_keys(data: DeckData, salt: str) -> dict[str, str]:
     left_out = decks["deck_id"].isin(data.excluded).to_numpy() if data.excluded else None
 
     shared = hashlib.sha256(f"season-rows\0{SEASON_KEY_FORMAT}\0{salt}\0".encode())
-    _feed(shared, "card-names", column_bytes(pd.Series(cards["card"].cat.categories)))
-    _feed(shared, "deck-columns", [json.dumps([str(c) for c in decks.columns]).encode("utf-8")])
+    feed_labelled(shared, "card-names", column_bytes(pd.Series(cards["card"].cat.categories)))
+    feed_labelled(shared, "deck-columns", [json.dumps([str(c) for c in decks.columns]).encode("utf-8")])
     if data.card_info is not None:
         for column in data.card_info.columns:
-            _feed(shared, f"card-table-{column}", column_bytes(data.card_info[column]))
-    _feed(shared, "card-codes", [str(card_codes.dtype).encode("ascii")])
-    _feed(shared, "quantity", [str(quantity.dtype).encode("ascii")])
+            feed_labelled(shared, f"card-table-{column}", column_bytes(data.card_info[column]))
+    feed_labelled(shared, "card-codes", [str(card_codes.dtype).encode("ascii")])
+    feed_labelled(shared, "quantity", [str(quantity.dtype).encode("ascii")])
 
     def key(i: int) -> tuple[str, str]:
         a, b = starts[i], starts[i + 1]
         h = shared.copy()
-        _feed(h, "season", [str(seasons[i]).encode("utf-8")])
+        feed_labelled(h, "season", [str(seasons[i]).encode("utf-8")])
         for column in decks.columns:
-            _feed(h, f"column-{column}", column_bytes(decks[column].iloc[a:b]))
+            feed_labelled(h, f"column-{column}", column_bytes(decks[column].iloc[a:b]))
         rows = slice(int(run_start[a]), int(run_start[b]))
-        _feed(h, "rows-per-deck", [np.diff(run_start[a:b + 1]).astype("<i8")])
-        _feed(h, "card-codes", [np.ascontiguousarray(card_codes[rows])])
-        _feed(h, "quantity", [np.ascontiguousarray(quantity[rows])])
+        feed_labelled(h, "rows-per-deck", [np.diff(run_start[a:b + 1]).astype("<i8")])
+        feed_labelled(h, "card-codes", [np.ascontiguousarray(card_codes[rows])])
+        feed_labelled(h, "quantity", [np.ascontiguousarray(quantity[rows])])
         if left_out is not None and left_out[a:b].any():
-            _feed(h, "left-out", [np.packbits(left_out[a:b])])
+            feed_labelled(h, "left-out", [np.packbits(left_out[a:b])])
         return str(seasons[i]), h.hexdigest()
 
     threads = min(usable_cores(), len(seasons))
@@ -166,14 +166,6 @@ def season_keys(data: DeckData, salt: str) -> dict[str, str]:
     # Hashing releases the GIL: seasons are digested side by side, one thread per core.
     with ThreadPoolExecutor(max_workers=threads) as pool:
         return dict(pool.map(key, range(len(seasons))))
-
-
-def _feed(h, label: str, pieces: list) -> None:
-    """Length-prefixed pieces into the digest ``h``, so no two inputs run together alike."""
-    views = [memoryview(p).cast("B") for p in pieces]
-    h.update(f"{label}:{sum(v.nbytes for v in views)}:".encode("utf-8"))
-    for view in views:
-        h.update(view)
 
 
 def _deck_rows(data: DeckData) -> np.ndarray | None:
