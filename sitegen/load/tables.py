@@ -433,6 +433,13 @@ def _read_parquet(path: Path, wanted: dict[str, str], numeric: frozenset[str],
     return frame
 
 
+def _leaf(meta: pq.FileMetaData, raw: str) -> int | None:
+    """The Parquet column (leaf) holding the top-level column ``raw``, whose row-group
+    statistics describe it; None when there is not exactly one (a nested column)."""
+    leaves = [j for j in range(meta.num_columns) if meta.schema.column(j).path == raw]
+    return leaves[0] if len(leaves) == 1 else None
+
+
 class _RowGroups:
     """One text column of a Parquet file as :func:`_runs_as_categories` reads it: its chunks
     read dictionary-encoded one row group at a time as they are iterated, so no more than one
@@ -442,10 +449,10 @@ class _RowGroups:
 
     def __init__(self, path: Path, raw: str, parquet: pq.ParquetFile) -> None:
         self.path, self.raw, self.meta = path, raw, parquet.metadata
-        leaves = [j for j in range(self.meta.num_columns) if self.meta.schema.column(j).path == raw]
+        leaf = _leaf(self.meta, raw)
         counts = []
-        for i in range(self.meta.num_row_groups if len(leaves) == 1 else 0):
-            stats = self.meta.row_group(i).column(leaves[0]).statistics
+        for i in range(self.meta.num_row_groups if leaf is not None else 0):
+            stats = self.meta.row_group(i).column(leaf).statistics
             counts.append(stats.null_count if stats is not None and stats.has_null_count else None)
         self.null_count = sum(counts) if counts and None not in counts else -1
 
@@ -466,12 +473,12 @@ def _numbers_by_row_group(parquet: pq.ParquetFile, raw: str) -> pd.Series | None
     has no statistics, or nulls, or values its statistics did not say: then the column is read
     whole (:func:`_numbers`)."""
     meta = parquet.metadata
-    leaves = [j for j in range(meta.num_columns) if meta.schema.column(j).path == raw]
-    if len(leaves) != 1 or meta.num_row_groups == 0:
+    leaf = _leaf(meta, raw)
+    if leaf is None or meta.num_row_groups == 0:
         return None
     lows, highs = [], []
     for i in range(meta.num_row_groups):
-        stats = meta.row_group(i).column(leaves[0]).statistics
+        stats = meta.row_group(i).column(leaf).statistics
         if stats is None or not stats.has_min_max or stats.null_count != 0:
             return None
         lows.append(int(stats.min))
