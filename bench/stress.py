@@ -118,7 +118,8 @@ class StressSettings:
         """One line of the settings, for the printed grid."""
         tail = f" ({self.n_tail} tail)" if self.shape == "power" and self.n_tail else ""
         tiny = f" +{self.n_tiny} tiny" if self.n_tiny else ""
-        return (f"{self.shape:5s} k={self.n_archetypes}{tail}{tiny} var={self.n_variants}@{self.variant_keep:.2f} "
+        var = f"var={self.n_variants}@{self.variant_keep:.2f}" if self.n_variants else "var=0"
+        return (f"{self.shape:5s} k={self.n_archetypes}{tail}{tiny} {var} "
                 f"rate={self.play_rate[0]:.2f}-{self.play_rate[1]:.2f} core={self.core_size[0]}-{self.core_size[1]} "
                 f"neutral={self.neutral_core:.2f} brew={self.brew_share:.2f}/{self.brew_kind} "
                 f"partial={self.partial_share:.2f} sizes={','.join(map(str, self.sizes))} seed={self.seed}")
@@ -461,14 +462,15 @@ class PlantedSeasons:
 
 
 def planted_seasons(settings: StressSettings, n_seasons: int = 4, *, n_decks: int | None = None,
-                    leader_index: int = 0, drift: float = 0.1, retire: float = 0.15, new: float = 0.6,
-                    split: float = 0.35, merge: float = 0.35, size_jitter: float = 0.3) -> PlantedSeasons:
+                    leader_index: int = 0, drift: float = 0.1, retire: float = 0.25, new: float = 0.4,
+                    split: float = 0.25, merge: float = 0.2, size_jitter: float = 0.3) -> PlantedSeasons:
     """Several seasons of one leader. Between seasons: each core card of a continuing archetype is
     swapped for a fresh card with probability ``drift`` (rates move a little, flex cards swap at
-    twice that); each archetype retires with probability ``retire`` (at least two are left); with
+    twice that); with probability ``retire`` one archetype retires; with
     probability ``new`` a new archetype appears, with probability ``split`` one splits in two
     (new ids, each keeping 70-80 % of its core) and with probability ``merge`` two merge into one
-    (a new id, half of each core). Shares move (log-normal, sd 0.3) and the deck count by up to
+    (a new id, half of each core); at most one of each per season, and retirements and merges
+    leave at least three archetypes. Shares move (log-normal, sd 0.3) and the deck count by up to
     ``size_jitter``. All from the settings' seed."""
     n = settings.sizes[0] if n_decks is None else n_decks
     rng = np.random.default_rng([settings.seed, leader_index, 1])
@@ -505,20 +507,22 @@ def _evolve(archs: list[_Arch], leader: _Leader, s: StressSettings, season: str,
         flex = [leader.take(1, s.neutral_core)[0] if rng.random() < 2 * drift else c for c in a.flex]
         share = a.share * float(rng.lognormal(0, 0.3))
         out.append(replace(a, core=core, rates=rates, flex=flex, share=share))
-    # retirements: never fewer than two archetypes
-    for a in list(out):
-        if len(out) > 2 and rng.random() < retire:
-            out.remove(a)
-            events.append(SeasonEvent(season, "retired", (a.id,), ()))
+    # at most one retirement, split and merge a season; never fewer than three archetypes
+    if len(out) > 3 and rng.random() < retire:
+        a = out.pop(int(rng.integers(len(out))))
+        events.append(SeasonEvent(season, "retired", (a.id,), ()))
+    fresh_ids: set[str] = set()
     if rng.random() < split and out:
         a = out[int(rng.integers(len(out)))]
         kids = [_new_arch(leader, next_id(), s, parent=a, keep=float(rng.uniform(0.7, 0.8))) for _ in range(2)]
         for kid in kids:
             kid.share, kid.parent = a.share / 2, None
         out[out.index(a):out.index(a) + 1] = kids
+        fresh_ids.update(k.id for k in kids)
         events.append(SeasonEvent(season, "split", (a.id,), tuple(k.id for k in kids)))
-    if rng.random() < merge and len(out) >= 3:
-        i, j = sorted(rng.choice(len(out), size=2, replace=False).tolist())
+    old = [k for k, x in enumerate(out) if x.id not in fresh_ids]
+    if rng.random() < merge and len(out) > 3 and len(old) >= 2:
+        i, j = sorted(rng.choice(old, size=2, replace=False).tolist())
         a, b = out[i], out[j]
         half_a = [a.core[k] for k in sorted(rng.choice(len(a.core), size=len(a.core) // 2 + 1, replace=False))]
         half_b = [b.core[k] for k in sorted(rng.choice(len(b.core), size=len(b.core) // 2, replace=False))]
@@ -531,7 +535,7 @@ def _evolve(archs: list[_Arch], leader: _Leader, s: StressSettings, season: str,
                        share=a.share + b.share)
         out = [x for k, x in enumerate(out) if k not in (i, j)] + [merged]
         events.append(SeasonEvent(season, "merge", (a.id, b.id), (merged.id,)))
-    if rng.random() < new:
+    if rng.random() < new or len(out) < 3:
         fresh = _new_arch(leader, next_id(), s)
         fresh.share = float(rng.uniform(0.04, 0.15))
         out.append(fresh)
@@ -808,10 +812,12 @@ EVAL_SIZES = ((70, 600, 4000), (300, 2500), (1500, 12000), (150, 900, 3000), (50
 SMALL_SIZES = ((300, 1200), (500, 900), (400, 1500), (350, 800))
 
 
-def _draw_settings(rng: np.random.Generator, sizes: tuple[int, ...], seed: int) -> StressSettings:
-    shape = ("even", "power")[int(rng.integers(2))]
+def _draw_settings(rng: np.random.Generator, sizes: tuple[int, ...], seed: int,
+                   shape: str | None = None) -> StressSettings:
+    drawn = ("even", "power")[int(rng.integers(2))]
+    shape = shape or drawn
     k = int(rng.integers(3, 10))
-    n_tail = int(rng.integers(1, min(4, k - 1) + 1)) if shape == "power" else 0
+    n_tail = int(rng.integers(1, max(1, min(4, k // 2)) + 1)) if shape == "power" else 0
     lo = float(rng.uniform(0.55, 0.8))
     hi = float(rng.uniform(max(lo + 0.1, 0.85), 0.98))
     return StressSettings(
@@ -826,10 +832,11 @@ def _draw_settings(rng: np.random.Generator, sizes: tuple[int, ...], seed: int) 
 
 def eval_grid(small: bool = False) -> tuple[Cell, ...]:
     """The evaluation grid: settings drawn once from fixed seeds (never the development ones).
-    ``small``: four cells of the same kind of draw with two partitions of 300-1500 decks each."""
+    ``small``: four cells of the same kind of draw (shapes alternating) with two partitions of
+    300-1500 decks each."""
     rng = np.random.default_rng(EVAL_DRAW_SEED + (1 if small else 0))
     if small:
-        return tuple(Cell(f"small-{i + 1:02d}", _draw_settings(rng, SMALL_SIZES[i], 5000 + i))
+        return tuple(Cell(f"small-{i + 1:02d}", _draw_settings(rng, SMALL_SIZES[i], 5000 + i, ("even", "power")[i % 2]))
                      for i in range(len(SMALL_SIZES)))
     return tuple(Cell(f"eval-{i + 1:02d}", _draw_settings(rng, EVAL_SIZES[i % len(EVAL_SIZES)], 1000 + i))
                  for i in range(EVAL_CELLS))

@@ -1,0 +1,298 @@
+"""The stress benchmark (bench/stress.py): its metrics, its planted data, its grids and runner.
+
+The quality targets of the archetype method on the small evaluation grid are
+written here too, marked xfail until the method is rewritten.
+"""
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from scipy.stats import binom
+from sklearn.metrics import adjusted_rand_score
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "bench"))
+
+import stress  # noqa: E402
+from stress import BREW, StressSettings  # noqa: E402
+
+OTHER = "other"
+
+
+# ---------------------------------------------------------------- metrics
+
+def _singletons_by_hand(labels, alone):
+    """Each ``alone`` entry gets a label of its own (written apart from stress.as_singletons)."""
+    return [f"{alone} #{i}" if x == alone else x for i, x in enumerate(labels)]
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_ari_agrees_with_scikit_learn(seed):
+    rng = np.random.default_rng(seed)
+    n = int(rng.integers(20, 400))
+    truth = rng.choice(["P01", "P02", "P03", "P04", BREW], size=n, p=[0.4, 0.3, 0.15, 0.1, 0.05]).tolist()
+    found = [t if rng.random() < 0.8 else str(rng.choice(["a1", "a2", "a3", OTHER])) for t in truth]
+    found = [{"P01": "a1", "P02": "a2", "P03": "a3"}.get(f, f) for f in found]
+    # Source: scikit-learn's adjusted_rand_score on the same labels, other decks and brews as singletons.
+    expected = adjusted_rand_score(_singletons_by_hand(truth, BREW), _singletons_by_hand(found, OTHER))
+    assert stress.ari_other_singletons(truth, found) == pytest.approx(expected, abs=1e-12)
+    # and the plain index, on labels without singletons
+    assert stress.adjusted_rand(truth, found) == pytest.approx(adjusted_rand_score(truth, found), abs=1e-12)
+
+
+@pytest.mark.parametrize("truth,found", [
+    (["x", "x", "x"], ["a", "a", "a"]),          # one group each
+    (["x", "y", "z"], ["a", "b", "c"]),          # all alone each
+    (["x", "x", "y", "y"], ["a", "b", "c", "d"]),  # one side all alone
+    (["x", "y"], ["a", "a"]),
+    (["x"], ["a"]),
+])
+def test_ari_edge_cases_agree_with_scikit_learn(truth, found):
+    # Source: scikit-learn's adjusted_rand_score, including its special cases.
+    assert stress.adjusted_rand(truth, found) == pytest.approx(adjusted_rand_score(truth, found), abs=1e-12)
+
+
+def test_hiding_an_archetype_in_other_costs_ari():
+    truth = ["P01"] * 6 + ["P02"] * 4
+    assert stress.ari_other_singletons(truth, ["a1"] * 6 + ["a2"] * 4) == 1.0
+    hidden = stress.ari_other_singletons(truth, ["a1"] * 6 + [OTHER] * 4)
+    # Worked by hand: truth pairs 15 + 6 = 21, found pairs 15, agreeing pairs 15, 45 pairs in all:
+    # expected 21 * 15 / 45 = 7, ARI = (15 - 7) / ((21 + 15) / 2 - 7) = 8 / 11.
+    assert hidden == pytest.approx(8 / 11)
+
+
+def test_coverage_brews_and_k_by_hand():
+    # 50 decks: P01 30, P02 12, P03 1 (2 % of 50 is 1 deck: it counts), brews 7.
+    truth = ["P01"] * 30 + ["P02"] * 12 + ["P03"] + [BREW] * 7
+    found = (["a1"] * 28 + [OTHER] * 2        # P01: 28 of 30 in an archetype
+             + ["a2"] * 12                    # P02: all
+             + [OTHER]                        # P03: in other
+             + [OTHER] * 5 + ["a1", "a2"])    # brews: 5 of 7 in other
+    # Worked by hand: coverage (28 + 12 + 0) / (30 + 12 + 1) = 40 / 43.
+    assert stress.coverage_counts(truth, found, 0.02) == (40, 43)
+    assert stress.brew_counts(truth, found) == (5, 7)
+    assert stress.planted_k(truth, 0.02) == 3 and stress.found_k(found) == 2
+    # At min_share 0.05 (2.5 decks) P03 no longer counts: coverage 40 / 42, planted k 2.
+    assert stress.coverage_counts(truth, found, 0.05) == (40, 42)
+    assert stress.planted_k(truth, 0.05) == 2
+
+
+def test_signature_by_hand():
+    truth = ["P01"] * 5 + ["P02"] * 4 + [BREW] * 3
+    found = ["a1"] * 5 + ["a2"] * 3 + ["a1"] + ["a3"] * 3
+    cores = {"P01": ("c1", "c2", "c3", "c4"), "P02": ("d1", "d2", "d3")}
+    signatures = {
+        "a1": ["c2", "c1", "c4", "x9"],   # top 3 all P01 core (a1 is mostly P01): counts
+        "a2": ["d1", "c1", "d2"],         # c1 is not P02 core: fails
+        "a3": ["d1", "d2", "d3"],         # mostly brews: fails
+    }
+    # Worked by hand: 1 of 3 found archetypes.
+    assert stress.signature_counts(truth, found, signatures, cores) == (1, 3)
+    assert stress.signature_counts(truth, found, {"a1": ["c1", "c2"]}, cores) == (0, 1)  # fewer than 3 cards
+
+
+def test_cell_score_pools_as_defined():
+    p1 = stress.PartitionScore("p1", 100, 0.9, 80, 90, 4, 5, 3, 3, 3, 3)
+    p2 = stress.PartitionScore("p2", 300, 0.5, 200, 300, 0, 0, 2, 4, 1, 2)
+    cell = stress.CellScore("c", (p1, p2))
+    # Worked by hand: ARI weighted by decks (0.9 * 100 + 0.5 * 300) / 400 = 0.6.
+    assert cell.ari == pytest.approx(0.6)
+    assert cell.coverage == pytest.approx(280 / 390)
+    assert cell.brews_in_other == pytest.approx(4 / 5)
+    assert cell.k_exact == pytest.approx(0.5)
+    assert cell.signature == pytest.approx(4 / 5)
+    assert stress.CellScore("c", (p2,)).brews_in_other is None
+
+
+# ---------------------------------------------------------------- planted data
+
+HARD = StressSettings("power", 6, n_tail=2, n_tiny=1, n_variants=2, variant_keep=0.6, play_rate=(0.55, 0.98),
+                      neutral_core=0.2, brew_share=0.1, brew_kind="mixed", partial_share=0.2, sizes=(3000,),
+                      seed=77)
+
+
+@pytest.fixture(scope="module")
+def hard():
+    return stress.planted_partition(HARD)
+
+
+def _deck_table(planted):
+    cards = planted.part.cards
+    return cards.groupby("deck_id")["quantity"].agg(["sum", "max", "min", "count"])
+
+
+def test_planted_shares_brews_and_counts(hard):
+    truth = hard.truth
+    assert len(truth) == 3000 and truth.index.is_unique
+    assert set(hard.part.decks["deck_id"]) == set(truth.index)
+    assert (truth == BREW).sum() == round(0.1 * 3000)
+    kinds = pd.Series(hard.brew_kinds)
+    assert set(kinds.index) == set(truth.index[truth == BREW])
+    assert abs((kinds == "random").sum() - (kinds == "staples").sum()) <= 1  # mixed: half each
+    counts = truth.value_counts() / 3000
+    for arch, share in hard.shares.items():
+        assert counts.get(arch, 0.0) == pytest.approx(share, abs=1e-12)
+    real = sorted((v for k, v in hard.shares.items() if k != BREW), reverse=True)
+    assert len(real) == 7
+    assert 0.005 <= real[-1] < 0.02                     # the tiny one
+    assert all(0.02 <= s <= 0.05 for s in real[-3:-1])  # the power tail
+    assert hard.planted_k(0.02) == 6
+
+
+def test_planted_decks_follow_the_deck_rules(hard):
+    table = _deck_table(hard)
+    full = table.loc[~table.index.isin(hard.partial)]
+    part = table.loc[table.index.isin(hard.partial)]
+    # Common practice, no source: decks of 40-50 cards, at most 3 copies of a card.
+    assert full["sum"].between(40, 50).all()
+    assert part["sum"].between(25, 39).all()
+    assert table["max"].max() <= 3 and table["min"].min() >= 1
+    # No card twice in a deck.
+    assert not hard.part.cards.duplicated(["deck_id", "card"]).any()
+    # About 20 % partial lists: inside a binomial 99.99 % interval (source: scipy.stats.binom).
+    lo, hi = binom.interval(0.9999, 3000, 0.2)
+    assert lo <= len(hard.partial) <= hi
+
+
+def test_core_cards_played_at_their_planted_rates(hard):
+    cards = hard.part.cards
+    full_ids = hard.truth.index[~hard.truth.index.isin(hard.partial)]
+    checked = 0
+    for arch, rates in hard.core_rates.items():
+        members = hard.truth.loc[full_ids]
+        members = members.index[members == arch]
+        if len(members) < 150:
+            continue
+        played = cards[cards["deck_id"].isin(members)].groupby("card")["deck_id"].nunique()
+        for card, rate in rates.items():
+            got = int(played.get(card, 0))
+            # Planted rate, plus a few % from the same card drawn as a random filler; the count lies
+            # in a binomial 99.99 % interval (source: scipy.stats.binom) widened by that filler chance.
+            lo, _ = binom.interval(0.9999, len(members), rate)
+            _, hi = binom.interval(0.9999, len(members), min(rate + 0.05 * (1 - rate), 1.0))
+            assert lo <= got <= hi, (arch, card, rate, got, len(members))
+            checked += 1
+    assert checked >= 40
+
+
+def test_variants_keep_their_share_of_the_parent_core(hard):
+    assert len(hard.parents) == 2
+    for child, parent in hard.parents.items():
+        kept = len(set(hard.cores[child]) & set(hard.cores[parent]))
+        assert kept == round(0.6 * len(hard.cores[parent]))
+    roots = [a for a in hard.cores if a not in hard.parents]
+    for i, a in enumerate(roots):
+        for b in roots[i + 1:]:
+            assert not set(hard.cores[a]) & set(hard.cores[b])
+
+
+def test_even_shape_and_the_same_seed_gives_the_same_data():
+    s = StressSettings("even", 4, n_variants=0, brew_share=0.0, sizes=(400, 90), seed=5)
+    a, b = stress.planted_cell(s), stress.planted_cell(s)
+    assert [p.n_decks for p in a] == [400, 90]
+    assert a[0].part.leader != a[1].part.leader
+    for x, y in zip(a, b):
+        pd.testing.assert_frame_equal(x.part.cards, y.part.cards)
+        pd.testing.assert_series_equal(x.truth, y.truth)
+    assert sorted(a[0].truth.value_counts().tolist()) == [100, 100, 100, 100]
+    other_seed = stress.planted_partition(StressSettings("even", 4, n_variants=0, brew_share=0.0, seed=6), 400)
+    assert not other_seed.part.cards.equals(a[0].part.cards)
+
+
+def test_several_seasons_keep_ids_and_record_events():
+    s = StressSettings("even", 5, n_variants=1, variant_keep=0.7, brew_share=0.04, sizes=(800,), seed=11)
+    ps = stress.planted_seasons(s, 6, split=0.6, merge=0.5)
+    assert len(ps.partitions) == 6 and ps.seasons == tuple(p.part.season for p in ps.partitions)
+    assert len({p.part.leader for p in ps.partitions}) == 1
+    ids = [set(p.cores) for p in ps.partitions]
+    kinds = {e.kind for e in ps.events}
+    assert {"split", "merge"} <= kinds
+    for e in ps.events:
+        t = ps.seasons.index(e.season)
+        assert set(e.sources) <= ids[t - 1] and not set(e.sources) & ids[t]
+        assert set(e.targets) <= ids[t] and not set(e.targets) & ids[t - 1]
+    for t in range(1, 6):
+        assert set(ps.continuing[ps.seasons[t]]) == ids[t] & ids[t - 1]
+        # every archetype of a season is continuing or a target of an event
+        targets = {x for e in ps.events if e.season == ps.seasons[t] for x in e.targets}
+        assert ids[t] == set(ps.continuing[ps.seasons[t]]) | targets
+    # a continuing archetype drifts a little, keeping most of its core
+    t = next(t for t in range(1, 6) if ps.continuing[ps.seasons[t]])
+    a = ps.continuing[ps.seasons[t]][0]
+    before, after = set(ps.partitions[t - 1].cores[a]), set(ps.partitions[t].cores[a])
+    assert len(before & after) >= len(before) // 2
+    # deck ids are unique across seasons
+    all_ids = pd.concat([p.truth for p in ps.partitions]).index
+    assert all_ids.is_unique
+
+
+# ---------------------------------------------------------------- grids and runner
+
+def test_grids_are_fixed_and_apart():
+    dev, ev, small = stress.grid("dev"), stress.grid("eval"), stress.grid("small")
+    assert ev == stress.grid("eval") and small == stress.grid("small")  # drawn from fixed seeds
+    seeds = [{c.settings.seed for c in g} for g in (dev, ev, small)]
+    assert not seeds[0] & seeds[1] and not seeds[0] & seeds[2] and not seeds[1] & seeds[2]
+    no_size = lambda c: stress.replace(c.settings, sizes=(), seed=0)  # noqa: E731
+    assert not {no_size(c) for c in dev} & {no_size(c) for c in ev + small}
+    assert all(300 <= n <= 3000 for c in small for n in c.settings.sizes)
+    everything = [n for c in ev for n in c.settings.sizes]
+    assert min(everything) < 100 and max(everything) >= 10000
+    assert {c.settings.shape for c in ev} == {c.settings.shape for c in small} == {"even", "power"}
+    with pytest.raises(ValueError):
+        stress.grid("nope")
+
+
+def test_runner_scores_sitegens_analysis():
+    planted = stress.planted_partition(StressSettings("even", 3, n_variants=0, brew_share=0.05, sizes=(300,), seed=3))
+    result, score = stress.run_partition(planted)
+    assert result.status == "clustered" and score.n_decks == 300
+    found = result.assignments.set_index("deck_id")["archetype"].loc[planted.truth.index]
+    # the runner's ARI is scikit-learn's on the same labels (source: scikit-learn)
+    assert score.ari == pytest.approx(adjusted_rand_score(_singletons_by_hand(planted.truth.tolist(), BREW),
+                                                          _singletons_by_hand(found.tolist(), OTHER)))
+    assert score.k_found == len(result.archetypes) and score.k_planted == 3
+    assert score.signature_total == len(result.archetypes)
+    table = stress.format_table([stress.CellScore("one", (score,))])
+    assert "worst" in table and "mean" in table and "one" in table
+
+
+def test_runner_takes_a_candidate_method():
+    planted = stress.planted_partition(StressSettings("even", 3, n_variants=0, brew_share=0.0, sizes=(120,), seed=4))
+    [cell] = stress.run_cells([stress.Cell("c", planted.settings)], analyse_fn=_all_other)
+    [p] = cell.parts
+    assert p.k_found == 0 and p.covered == 0 and p.coverable == 120 and cell.coverage == 0.0
+
+
+def _all_other(part, params):
+    """A candidate method that finds nothing: every deck in the other group."""
+    from sitegen.analysis.partition import analyse_partition
+    return analyse_partition(part, stress.replace(params, min_decks=10**6))
+
+
+# ---------------------------------------------------------------- quality targets
+
+@pytest.fixture(scope="module")
+def small_grid_scores():
+    return stress.run_cells(stress.grid("small"))
+
+
+@pytest.mark.xfail(strict=False, reason="method rewrite pending")
+def test_quality_targets_on_the_small_evaluation_grid(small_grid_scores):
+    scores = small_grid_scores
+    assert scores and all(c.parts for c in scores)
+    big = [p for c in scores for p in c.parts if p.n_decks >= 300]
+    assert big
+    for c in scores:
+        assert c.coverage >= 0.98, (c.name, c.coverage)
+        assert c.brews_in_other is None or c.brews_in_other >= 0.85, (c.name, c.brews_in_other)
+        for p in c.parts:
+            if p.n_decks >= 300:
+                assert p.ari >= 0.97, (c.name, p.label, p.ari)
+    assert np.mean([p.k_exact for p in big]) >= 0.8
+    ok = sum(p.signature_ok for c in scores for p in c.parts)
+    total = sum(p.signature_total for c in scores for p in c.parts)
+    assert total and ok / total >= 0.95
