@@ -761,6 +761,25 @@ def run_partition(planted: PlantedPartition, params=None, analyse_fn: Callable |
     return result, score_result(planted, result, params.min_share, seconds)
 
 
+def run_seasons(seasons: PlantedSeasons, params=None, analyse_fn: Callable | None = None
+                ) -> tuple[list[PartitionResult], list[PartitionScore]]:
+    """Analyse and score each season of a leader's planted seasons, in season order. The results
+    can go on to ``sitegen.analysis.seasons.link_seasons(results, seasons.seasons, threshold)``."""
+    pairs = [run_partition(p, params, analyse_fn) for p in seasons.partitions]
+    return [r for r, _ in pairs], [s for _, s in pairs]
+
+
+def majority_truth(planted: PlantedPartition, result: PartitionResult) -> dict[str, str]:
+    """Found archetype key -> the planted archetype id (or :data:`BREW`) holding most of its decks
+    (ties: the smallest id); to follow planted archetypes through season links."""
+    found = result.assignments.set_index("deck_id")["archetype"].reindex(planted.truth.index)
+    out = {}
+    for a in result.archetypes:
+        counts = planted.truth[(found == a.key).to_numpy()].value_counts()
+        out[a.key] = sorted(counts.index[counts == counts.max()])[0] if len(counts) else BREW
+    return out
+
+
 def _run_one(job: tuple[StressSettings, int, object, Callable | None]) -> PartitionScore:
     settings, i, params, analyse_fn = job
     planted = planted_partition(settings, settings.sizes[i], leader_index=i)
@@ -807,7 +826,7 @@ DEV_GRID: tuple[Cell, ...] = (
 
 #: Seed of the draw of the evaluation grid's settings, and its number of cells.
 EVAL_DRAW_SEED = 2718
-EVAL_CELLS = 16
+EVAL_CELLS = 24
 EVAL_SIZES = ((70, 600, 4000), (300, 2500), (1500, 12000), (150, 900, 3000), (500, 30000), (250, 2000, 6000))
 SMALL_SIZES = ((300, 1200), (500, 900), (400, 1500), (350, 800))
 

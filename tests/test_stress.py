@@ -296,3 +296,20 @@ def test_quality_targets_on_the_small_evaluation_grid(small_grid_scores):
     ok = sum(p.signature_ok for c in scores for p in c.parts)
     total = sum(p.signature_total for c in scores for p in c.parts)
     assert total and ok / total >= 0.95
+
+
+def test_seasons_runner_and_majority_truth():
+    s = StressSettings("even", 3, n_variants=0, brew_share=0.03, sizes=(300,), seed=21)
+    ps = stress.planted_seasons(s, 2)
+    results, scores = stress.run_seasons(ps)
+    assert [r.season for r in results] == list(ps.seasons) and len(scores) == 2
+    for planted, result in zip(ps.partitions, results):
+        major = stress.majority_truth(planted, result)
+        assert set(major) == {a.key for a in result.archetypes}
+        assert set(major.values()) <= set(planted.cores) | {BREW}
+
+
+def test_command_line_lists_a_grid(capsys):
+    assert stress.main(["--grid", "dev", "--list"]) == 0
+    out = capsys.readouterr().out
+    assert out.count("dev-") == len(stress.DEV_GRID) and "seed=101" in out
