@@ -298,6 +298,20 @@ def test_quality_targets_on_the_small_evaluation_grid(small_grid_scores):
     assert total and ok / total >= 0.95
 
 
+def test_target_figures_as_the_targets_are_stated():
+    # Worked by hand: two cells; one partition under 300 decks is left out of ARI and k exact.
+    a = stress.PartitionScore("a", 100, 0.5, 9, 10, 1, 2, 2, 3, 2, 2)
+    b = stress.PartitionScore("b", 400, 0.98, 40, 40, 0, 0, 3, 3, 3, 4)
+    c = stress.PartitionScore("c", 500, 0.9, 45, 50, 3, 3, 4, 3, 4, 4)
+    figures = stress.target_figures([stress.CellScore("x", (a, b)), stress.CellScore("y", (c,))])
+    assert figures["coverage"] == pytest.approx(min(49 / 50, 45 / 50))
+    assert figures["brews_in_other"] == pytest.approx(min(1 / 2, 3 / 3))
+    assert figures["ari_300"] == pytest.approx(0.9)
+    assert figures["k_exact_300"] == pytest.approx(0.5)
+    assert figures["signature"] == pytest.approx(9 / 10)
+    text = stress.format_targets([stress.CellScore("x", (a, b))])
+    assert "MISSED" in text and "met" in text
+
 def test_seasons_runner_and_majority_truth():
     s = StressSettings("even", 3, n_variants=0, brew_share=0.03, sizes=(300,), seed=21)
     ps = stress.planted_seasons(s, 2)
