@@ -40,7 +40,6 @@ The settings are split once: :data:`DEV_GRID` is for developing the method,
 from __future__ import annotations
 
 import argparse
-import math
 import sys
 import time
 from collections.abc import Callable, Sequence
