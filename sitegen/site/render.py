@@ -291,7 +291,7 @@ class Renderer:
 
     def _assets(self) -> tuple[dict[str, bytes], dict[str, str]]:
         """The shared static files (content-hashed) and their paths by logical name."""
-        files = assets.static_assets(list(self.site.templates_dirs))
+        files = assets.static_assets(list(self.site.templates_dirs), self.site.cfg.path("cache.folder"))
         return files, assets.asset_urls(files)
 
     def _base(self, path: str, title: str, description: str, *, charts: bool = False,
