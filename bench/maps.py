@@ -1,7 +1,7 @@
 """Benchmark of the partition map: which t-SNE settings keep the map's meaning at least cost.
 
     python bench/maps.py                       # the demo data, every leader, seasons 1 and 2
-    python bench/maps.py --write-results demo  # ... and put the table in DEVELOPERS.md
+    python bench/maps.py --write-results demo  # ... and put the table in docs/method.md
     python bench/maps.py --config bench/out/1m/site-parquet.toml --leaders 2
 
 For each leader it takes the map sample of two consecutive seasons (the same
@@ -149,7 +149,7 @@ def main(argv=None) -> int:
     p.add_argument("--config", default=str(ROOT / "site.toml"))
     p.add_argument("--leaders", type=int, default=5)
     p.add_argument("--write-results", metavar="NAME", default=None,
-                   help="also put the table between the maps:NAME markers of DEVELOPERS.md")
+                   help="also put the table between the maps:NAME markers of docs/method.md")
     args = p.parse_args(argv)
     pairs, params = _maps_input(Path(args.config), args.leaders)
     totals: dict[str, list] = {}
@@ -180,7 +180,7 @@ def main(argv=None) -> int:
     print("\n" + "\n".join(lines))
     print(f"\nmean over {len(pairs)} leader(s); maps of at most {params.map_points} decks")
     if args.write_results:
-        guide = ROOT / "DEVELOPERS.md"
+        guide = ROOT / "docs" / "method.md"
         text = guide.read_text(encoding="utf-8")
         start, end = f"<!-- maps:{args.write_results}:start -->", f"<!-- maps:{args.write_results}:end -->"
         before, rest = text.split(start, 1)

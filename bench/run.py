@@ -3,7 +3,7 @@
     python bench/run.py --size demo            # the committed demo data
     python bench/run.py --size 1m              # 10 seasons x 100k decks, 7 leaders
     python bench/run.py --size smoke           # tiny; what CI runs
-    python bench/run.py --size demo --write-results   # also rewrite the table in DEVELOPERS.md
+    python bench/run.py --size demo --write-results   # also rewrite its table in bench/RESULTS.md
 
 For one data set it measures, each in a fresh child process so peak memory
 is that of the measured work alone: (a) sitegen's full build from an empty
@@ -311,9 +311,9 @@ def main(argv: list[str] | None = None) -> int:
     p.add_argument("--csv", action="store_true", help="also time loading from CSV (writes a CSV copy)")
     p.add_argument("--folder", action="store_true",
                    help="also build from the same data as a season folder, from an empty cache (writes a copy)")
-    p.add_argument("--write-results", action="store_true", help="rewrite the results table in DEVELOPERS.md")
+    p.add_argument("--write-results", action="store_true", help="rewrite this size's table in bench/RESULTS.md")
     p.add_argument("--publish-last", action="store_true",
-                   help="write the last run's figures of --size into DEVELOPERS.md without running again")
+                   help="write the last run's figures of --size into bench/RESULTS.md without running again")
     p.add_argument("--child", nargs=argparse.REMAINDER, help=argparse.SUPPRESS)
     args = p.parse_args(argv)
     if args.publish_last:
@@ -445,9 +445,13 @@ def main(argv: list[str] | None = None) -> int:
     return 0
 
 
+#: Where the published figures live, one block per size between its bench:SIZE markers.
+RESULTS = HERE / "RESULTS.md"
+
+
 def _write_results(size: str, rows: list[tuple[str, str]]) -> None:
-    """Rewrite this size's block of the results table in DEVELOPERS.md."""
-    guide = ROOT / "DEVELOPERS.md"
+    """Rewrite this size's block of the results tables in bench/RESULTS.md (:data:`RESULTS`)."""
+    guide = RESULTS
     text = guide.read_text(encoding="utf-8")
     start, end = f"<!-- bench:{size}:start -->", f"<!-- bench:{size}:end -->"
     stamp = time.strftime("%Y-%m-%d", time.gmtime())

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import os
 import re
+import shutil
 import subprocess
 import sys
 import zipfile
@@ -112,8 +113,9 @@ def test_wheel_scaffold_and_build_outside_the_clone(tmp_path):
     assert (site / "index.html").is_file() and list((site / "assets").glob("*.js"))
 
 
-def test_dev_sh_demo_builds_and_serves_the_demo_config():
-    # The README's demo command must name a config that exists: it once named demo_data/site.toml, which does not.
+def test_dev_sh_demo_names_the_demo_config():
+    # Reads dev.sh, runs nothing: the README's demo command must name a config that exists (it once
+    # named demo_data/site.toml, which does not), whose data files exist too.
     root = Path(__file__).resolve().parent.parent
     script = (root / "dev.sh").read_text(encoding="utf-8")
     demo = script.split("\n  demo)", 1)[1].split(";;", 1)[0]
@@ -121,4 +123,22 @@ def test_dev_sh_demo_builds_and_serves_the_demo_config():
     assert [verb for verb, _ in named] == ["build", "serve"]
     for _, path in named:
         assert (root / path).is_file(), path
-        assert config.load(root / path).path("data.decks") == root / "demo_data" / "decks.csv"
+        cfg = config.load(root / path)
+        assert cfg.path("data.decks") == root / "demo_data" / "decks.csv"
+        assert all(cfg.path(f"data.{name}").is_file() for name in ("decks", "deck_cards", "cards"))
+
+
+@pytest.mark.parametrize("command", ["demo", "test"])
+def test_dev_sh_stops_at_once_on_a_python_older_than_3_11(tmp_path, command):
+    # A stand-in "python" that says it is 3.10: dev.sh must stop before making .venv, naming the version.
+    shutil.copy(Path(ROOT) / "dev.sh", tmp_path / "dev.sh")
+    fake = tmp_path / "python3.10"
+    fake.write_text('#!/bin/sh\ncase "$*" in *"< (3, 11)"*) exit 1;; *) echo 3.10.2;; esac\n', encoding="utf-8")
+    fake.chmod(0o755)
+    proc = subprocess.run(["bash", str(tmp_path / "dev.sh"), command], capture_output=True, text=True,
+                          env=dict(os.environ, PYTHON=str(fake)), timeout=60)
+    assert proc.returncode == 1
+    assert proc.stderr.strip().splitlines() == [
+        f"dev.sh: '{fake}' is Python 3.10.2; sitegen needs 3.11 or newer: install it, or point PYTHON at one"
+        " (PYTHON=python3.12 ./dev.sh ...)"]
+    assert not (tmp_path / ".venv").exists()

@@ -5,7 +5,8 @@ Every asset is written under a name that carries a digest of its bytes
 changed file always gets a new name. The Vega bundle (Vega, Vega-Lite,
 Vega-Embed and its tooltip handler, no CDN) comes from
 ``vl_convert.javascript_bundle()``; making it takes a second or two, so it is
-kept on disk keyed by the vl-convert and Vega-Lite versions.
+kept in the site's cache folder (``cache.folder``), named by the vl-convert and
+Vega-Lite versions. A site without a cache folder makes it afresh each build.
 """
 from __future__ import annotations
 
@@ -25,39 +26,36 @@ _HASH_LEN = 10
 _HASHED = re.compile(r"^assets/(?P<stem>.+)\.(?P<digest>[0-9a-f]{%d})(?P<ext>\.[^./]+)$" % _HASH_LEN)
 
 
-def default_cache_dir() -> Path:
-    """``$XDG_CACHE_HOME/sitegen`` (``~/.cache/sitegen`` when unset)."""
-    base = os.environ.get("XDG_CACHE_HOME") or str(Path.home() / ".cache")
-    return Path(base) / "sitegen"
-
-
-def bundle_cache_path(cache_dir: Path | None = None) -> Path:
-    """Where the bundle is kept: one file per vl-convert and Vega-Lite version."""
+def bundle_cache_path(cache_dir: Path) -> Path:
+    """Where the bundle is kept in a cache folder: one file per vl-convert and Vega-Lite version."""
     import vl_convert
 
-    folder = cache_dir if cache_dir is not None else default_cache_dir()
-    return folder / f"vega-bundle-vlc{vl_convert.__version__}-vl{vl_version()}.js"
+    return cache_dir / f"vega-bundle-vlc{vl_convert.__version__}-vl{vl_version()}.js"
 
 
 def vega_bundle(cache_dir: Path | None = None) -> bytes:
-    """The Vega + Vega-Lite + Vega-Embed bundle, from the disk cache or made afresh.
+    """The Vega + Vega-Lite + Vega-Embed bundle, from the cache folder or made afresh.
 
     The bundle's default snippet sets ``window.vegaEmbed``, ``window.vega``
     and ``window.vegaLite``; Vega-Embed carries the expression interpreter
-    its ``ast`` option uses, so charts run without eval.
+    its ``ast`` option uses, so charts run without eval. With no
+    ``cache_dir`` (a site without ``cache.folder``) nothing is kept on disk.
     """
     import vl_convert
 
-    path = bundle_cache_path(cache_dir)
-    folder = path.parent
-    try:
-        return path.read_bytes()
-    except OSError:
-        pass
+    path = bundle_cache_path(cache_dir) if cache_dir is not None else None
+    if path is not None:
+        try:
+            return path.read_bytes()
+        except OSError:
+            pass
     try:
         data = vl_convert.javascript_bundle(vl_version=vl_version()).encode("utf-8")
     except Exception as exc:
         raise RenderError(f"could not make the Vega bundle with vl-convert {vl_convert.__version__}: {exc}") from exc
+    if path is None:
+        return data
+    folder = path.parent
     try:
         folder.mkdir(parents=True, exist_ok=True)
         # written to a temporary file then renamed, so a concurrent build never reads half a bundle

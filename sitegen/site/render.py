@@ -78,9 +78,22 @@ def _pct(value: float | None, digits: int = 1) -> str:
     return f"{value * 100:.{digits}f}%"
 
 
+#: A site template reaches the packaged template of the same name as ``sitegen:NAME``
+#: (``{% extends "sitegen:base.html" %}``), so it can extend it and change one block.
+PACKAGED_PREFIX = "sitegen"
+
+
 def make_environment(templates_dirs: Sequence[Path]) -> jinja2.Environment:
-    """A strict, autoescaping environment over the template folders, first wins."""
-    loader = jinja2.ChoiceLoader([jinja2.FileSystemLoader(str(d)) for d in templates_dirs])
+    """A strict, autoescaping environment over the template folders, first wins.
+
+    The packaged templates are also reachable under :data:`PACKAGED_PREFIX`
+    (``sitegen:base.html``), whatever the site's own folder holds.
+    """
+    from ..resources import default_templates_dir
+
+    packaged = jinja2.PrefixLoader({PACKAGED_PREFIX: jinja2.FileSystemLoader(str(default_templates_dir()))},
+                                   delimiter=":")
+    loader = jinja2.ChoiceLoader([jinja2.FileSystemLoader(str(d)) for d in templates_dirs] + [packaged])
     # auto_reload off: one environment serves one build, so templates need not be checked for changes per page.
     env = jinja2.Environment(loader=loader, autoescape=True, undefined=jinja2.StrictUndefined,
                              trim_blocks=True, lstrip_blocks=True, keep_trailing_newline=True, auto_reload=False)
@@ -278,7 +291,7 @@ class Renderer:
 
     def _assets(self) -> tuple[dict[str, bytes], dict[str, str]]:
         """The shared static files (content-hashed) and their paths by logical name."""
-        files = assets.static_assets(list(self.site.templates_dirs))
+        files = assets.static_assets(list(self.site.templates_dirs), self.site.cfg.path("cache.folder"))
         return files, assets.asset_urls(files)
 
     def _base(self, path: str, title: str, description: str, *, charts: bool = False,
