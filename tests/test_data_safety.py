@@ -14,6 +14,7 @@ import sys
 import unicodedata
 from pathlib import Path
 
+import html5lib
 import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
@@ -29,6 +30,15 @@ ROOT = Path(__file__).resolve().parents[1]
 
 def _run(*args, cwd=ROOT):
     return subprocess.run([sys.executable, "-m", "sitegen", *args], capture_output=True, text=True, cwd=cwd)
+
+
+def _doc(path: Path):
+    """A built page parsed as browsers parse HTML (html5lib follows the WHATWG parsing algorithm)."""
+    return html5lib.parse(path.read_bytes(), namespaceHTMLElements=False)
+
+
+def _text(el) -> str:
+    return "".join(el.itertext())
 
 
 def _messages(exc: SitegenError) -> str:
@@ -104,3 +114,93 @@ def test_huge_quantity_fails_the_build_and_publishes_nothing(tmp_path):
     assert proc.returncode == 1 and "Traceback" not in proc.stderr
     assert re.search(r"deck_cards\.csv, row 2, column 'quantity': quantity is more than 1,000", proc.stderr)
     assert not (project.parent / "site").exists()
+
+
+# -- 6. tracebacks that became clear errors or results ---------------------------------------------
+
+def test_seed_beyond_range_is_a_config_error_naming_the_range(tmp_path):
+    from sitegen.config import from_dict
+
+    with pytest.raises(ConfigError, match=r"analysis\.seed'.*4294967296 is above the largest allowed value "
+                                          r"2147483647; allowed: 0 to 2147483647"):
+        from_dict({"analysis": {"seed": 4294967296}}, root=tmp_path)
+    from_dict({"analysis": {"seed": 2**31 - 1}}, root=tmp_path)  # the top of the range is accepted
+
+
+def test_seed_beyond_range_fails_the_build_in_one_line(tmp_path):
+    from _sites import make_project
+
+    project = make_project(tmp_path / "guide")
+    text = project.read_text(encoding="utf-8").replace("[analysis]\n", "[analysis]\nseed = 4294967296\n", 1)
+    project.write_text(text, encoding="utf-8")
+    proc = _run("build", "--quiet", str(project))
+    assert proc.returncode == 1 and "Traceback" not in proc.stderr
+    assert re.fullmatch(r"error: .*analysis\.seed.*allowed: 0 to 2147483647.*\n", proc.stderr)
+
+
+def test_two_calendar_entries_of_one_name_are_a_config_error(tmp_path):
+    from sitegen.config import from_dict
+
+    calendar = [{"name": "Frost", "start": "2025-01-01", "end": "2025-01-31"},
+                {"name": "Frost", "start": "2025-03-01", "end": "2025-03-31"}]
+    with pytest.raises(ConfigError, match=r"seasons\.calendar'.*entries 1 and 2 are both named 'Frost'"):
+        from_dict({"seasons": {"source": "calendar", "calendar": calendar}}, root=tmp_path)
+
+
+def test_partition_of_one_single_card_skips_its_map_with_a_reason():
+    # Forty decks of one leader, each holding the one card "Lone Ember": the map had failed.
+    import pandas as pd
+
+    from sitegen.analysis.embed import NO_MAP
+    from sitegen.analysis.params import AnalysisParams
+    from sitegen.analysis.partition import analyse_partition
+    from sitegen.model import PartitionInput
+
+    ids = [f"d{i:02d}" for i in range(40)]
+    decks = pd.DataFrame({"deck_id": ids, "season": "S", "leader": "L",
+                          "wins": pd.array([pd.NA] * 40, dtype="Int64"), "losses": pd.array([pd.NA] * 40, dtype="Int64")})
+    part = PartitionInput("S", "L", decks, pd.DataFrame([(i, "Lone Ember", 1 + n % 3) for n, i in enumerate(ids)],
+                                                        columns=["deck_id", "card", "quantity"]))
+    result = analyse_partition(part, AnalysisParams(map_points=200, map_iterations=100))
+    assert result.status == "clustered" and result.map_sample is None and result.map_points.empty
+    assert NO_MAP in result.k_reason
+
+
+def test_site_with_a_single_card_partition_builds_and_says_why_it_has_no_map(tmp_path):
+    from _sites import make_project
+
+    project = make_project(tmp_path / "guide")
+    data = project.parent / "data"
+    with open(data / "decks.csv", "a", encoding="utf-8") as f:
+        f.writelines(f"z{i:03d},First Tide,Ilsa Lonewick,1,1\n" for i in range(40))
+    with open(data / "deck_cards.csv", "a", encoding="utf-8") as f:
+        f.writelines(f"z{i:03d},Quiet Oath,1\n" for i in range(40))
+    proc = _run("build", "--quiet", str(project))
+    assert proc.returncode == 0, proc.stderr
+    page = _doc(project.parent / "site" / "seasons" / "first-tide" / "index.html")
+    block = next(s for s in page.iter("section") if "leader-block" in (s.get("class") or "")
+                 and "Ilsa Lonewick" in _text(s.find("h2")))
+    assert "no map is drawn" in _text(block) and "Map of the decks" not in _text(block)
+
+
+# -- 7. dates with a time zone ---------------------------------------------------------------------
+
+def test_zoned_dates_count_in_the_season_of_the_date_as_written(tmp_path):
+    # 2025-04-10T01:00+05:00 is 10 April where it was written (ISO 8601); in UTC it is 9 April, 20:00.
+    import datetime as dt
+
+    assert dt.datetime.fromisoformat("2025-04-10T01:00+05:00").date() == dt.date(2025, 4, 10)  # stdlib reference
+    calendar = [{"name": "Mud", "start": "2025-04-01", "end": "2025-04-09"},
+                {"name": "Thaw", "start": "2025-04-10", "end": "2025-04-30"}]
+    decks = ("deck_id,date,leader\n"
+             "d1,2025-04-10T01:00+05:00,Orm\n"
+             "d2,2025-04-09T23:30-07:00,Orm\n"
+             "d3,2025-04-10T00:15Z,Vessa\n"
+             "d4,2025-04-09,Vessa\n")
+    cfg = tables(tmp_path, decks=decks, cards="deck_id,card,quantity\nd1,A,1\nd2,A,1\nd3,A,1\nd4,A,1\n",
+                 seasons={"source": "calendar", "calendar": calendar})
+    data = load_data(cfg)
+    season = dict(zip(data.decks["deck_id"], data.decks["season"]))
+    expected = {i: ("Thaw" if dt.datetime.fromisoformat(t).date() >= dt.date(2025, 4, 10) else "Mud")
+                for i, t in (line.split(",")[:2] for line in decks.splitlines()[1:])}
+    assert season == expected == {"d1": "Thaw", "d2": "Mud", "d3": "Thaw", "d4": "Mud"}

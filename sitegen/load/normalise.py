@@ -374,7 +374,8 @@ def _calendar(cfg: Config) -> list[tuple[str, dt.date, dt.date]]:
 def _parse_dates(series: pd.Series) -> tuple[pd.Series, np.ndarray, np.ndarray]:
     """Dates (NaT where empty or bad), positions of bad values, positions of empty ones.
 
-    Times with an offset are read in UTC, so mixed offsets never fail the parse.
+    A time with an offset (or Z) keeps its own calendar date: the offset is dropped, not applied
+    (2025-04-10T01:00+05:00 is 10 April), so mixed offsets never fail the parse either.
     A season's decks share a few hundred dates: each distinct text is parsed once.
     """
     values = _arrow_text(series)
@@ -389,10 +390,17 @@ def _parse_dates(series: pd.Series) -> tuple[pd.Series, np.ndarray, np.ndarray]:
             np.flatnonzero(is_empty[codes]))
 
 
+#: A date and time with a zone designator (Z or an offset): group 1 is the date and time as written.
+_ZONED = r"^(\d{4}-?\d{2}-?\d{2}[Tt ]\d{2}(?::?\d{2}(?::?\d{2}(?:[.,]\d+)?)?)?)\s*(?:[Zz]|[+-]\d{2}(?::?\d{2})?)$"
+
+
 def _parse_each_date(series: pd.Series) -> tuple[pd.Series, np.ndarray, np.ndarray]:
     """:func:`_parse_dates` of every row on its own."""
     text = pd.Series(series.to_numpy(dtype=object), dtype="str").fillna("").str.strip()
     empty = (text == "").to_numpy(dtype=bool)
+    # The calendar date as written counts, local to its own offset: 2025-04-10T01:00+05:00 is
+    # 10 April (in UTC it is still 9 April), so the offset is dropped, not applied.
+    text = text.str.replace(_ZONED, r"\1", regex=True)
     try:
         dates = pd.to_datetime(text.where(~empty), format="ISO8601", errors="coerce", utc=True).dt.tz_localize(None)
     except (ValueError, TypeError, OverflowError):
