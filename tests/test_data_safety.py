@@ -204,3 +204,74 @@ def test_zoned_dates_count_in_the_season_of_the_date_as_written(tmp_path):
     expected = {i: ("Thaw" if dt.datetime.fromisoformat(t).date() >= dt.date(2025, 4, 10) else "Mud")
                 for i, t in (line.split(",")[:2] for line in decks.splitlines()[1:])}
     assert season == expected == {"d1": "Thaw", "d2": "Mud", "d3": "Thaw", "d4": "Mud"}
+
+
+# -- 9. decklists: sideboards; CSV separators ----------------------------------------------------
+
+_HEAD = "Leader: Orm\nSeason: Frost\n\n3 Ember Fox\n2 Tide Call\n"
+
+
+@pytest.mark.parametrize("marker", ["# Sideboard", "Sideboard:", "Sideboard", "SIDEBOARD", "## sideboard :"])
+def test_a_marked_sideboard_is_kept_out_of_the_main_deck(tmp_path, marker):
+    # The case as seen: "# Sideboard" was a comment and its cards joined the main deck.
+    write(tmp_path / "lists", "d1.txt", _HEAD + f"{marker}\n4 Stone Wall\n\n1 Ember Fox\n")
+    data = load_data(config(tmp_path, data={"decklists": "lists"}))
+    rows = sorted(zip(data.cards["card"].astype(str), data.cards["quantity"].astype(int)))
+    assert rows == [("Ember Fox", 3), ("Tide Call", 2)]  # Stone Wall and the 4th fox are sideboard only
+    assert not any(f.kind == "sideboard" for f in data.findings)  # marked: nothing to warn about
+
+
+def test_a_blank_line_then_cards_is_a_sideboard_and_says_so(tmp_path):
+    write(tmp_path / "lists", "d1.txt", _HEAD + "\n4 Stone Wall\n1 Ember Fox\n")
+    data = load_data(config(tmp_path, data={"decklists": "lists"}))
+    assert sorted(data.cards["card"].astype(str)) == ["Ember Fox", "Tide Call"]
+    assert int(data.cards["quantity"].astype(int).sum()) == 5
+    (note,) = [f.message for f in data.findings if f.kind == "sideboard"]
+    assert "d1.txt (2 card line(s) after the blank line 6)" in note and "'Sideboard' line" in note
+
+
+def test_a_second_unmarked_block_or_sideboard_is_an_error(tmp_path):
+    write(tmp_path / "lists", "d1.txt", _HEAD + "\n4 Stone Wall\n\n1 Bell Tower\n")
+    write(tmp_path / "lists", "d2.txt", _HEAD + "Sideboard\n4 Stone Wall\nSideboard:\n1 Bell Tower\n")
+    with pytest.raises((DataError, DataErrors)) as info:
+        load_data(config(tmp_path, data={"decklists": "lists"}))
+    text = _messages(info.value)
+    assert re.search(r"d1\.txt, row 9.*card lines after a second blank line below the main cards", text)
+    assert re.search(r"d2\.txt, row 8.*a second sideboard \(the first starts on line 6\)", text)
+    assert "move header lines" not in text
+
+
+def test_sideboard_before_the_main_cards_is_an_error_with_the_right_advice(tmp_path):
+    write(tmp_path / "lists", "d1.txt", "Leader: Orm\nSeason: Frost\nSideboard:\n4 Stone Wall\n")
+    with pytest.raises((DataError, DataErrors)) as info:
+        load_data(config(tmp_path, data={"decklists": "lists"}))
+    text = _messages(info.value)
+    assert "d1.txt, row 3" in text and "sideboard line before any card of the main deck" in text
+    assert "move header lines" not in text
+
+
+@pytest.mark.parametrize("sep", [";", "\t"])
+def test_semicolon_and_tab_separated_tables_are_read(tmp_path, sep):
+    # What a spreadsheet saves as "CSV" where the decimal mark is a comma; the csv module (stdlib)
+    # writes the reference files with that delimiter.
+    import csv
+    import io
+
+    def table(rows):
+        out = io.StringIO()
+        csv.writer(out, delimiter=sep, lineterminator="\n").writerows(rows)
+        return out.getvalue()
+
+    decks = table([["deck_id", "season", "leader", "title"], ["d1", "S1", "Orm", "Fox; or not"], ["d2", "S1", "Vessa", ""]])
+    cards = table([["deck_id", "card", "quantity"], ["d1", "Ash, the Elder", "2"], ["d2", "Bell", "1"]])
+    data = load_data(tables(tmp_path, decks=decks, cards=cards))
+    assert data.decks["title"].tolist()[0] == "Fox; or not"
+    assert sorted(zip(data.cards["card"].astype(str), data.cards["quantity"].astype(int))) == [("Ash, the Elder", 2), ("Bell", 1)]
+
+
+def test_an_unknown_separator_is_named_in_the_error(tmp_path):
+    cfg = tables(tmp_path, decks="deck_id|season|leader\nd1|S1|Orm\n")
+    with pytest.raises((DataError, DataErrors)) as info:
+        load_data(cfg)
+    assert re.search(r"decks\.csv, row 1.*missing column 'deck_id'.*holding '\|'.*commas, semicolons or tabs",
+                     _messages(info.value))
