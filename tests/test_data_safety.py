@@ -275,3 +275,98 @@ def test_an_unknown_separator_is_named_in_the_error(tmp_path):
         load_data(cfg)
     assert re.search(r"decks\.csv, row 1.*missing column 'deck_id'.*holding '\|'.*commas, semicolons or tabs",
                      _messages(info.value))
+
+
+# -- 5. look-alike names -----------------------------------------------------------------------------
+
+def _one_form(text: str) -> str:
+    """The reference form of a name (README: names), from Python's unicodedata: format characters
+    (category Cf) removed, Unicode NFC, surrounding whitespace trimmed."""
+    text = "".join(c for c in text if unicodedata.category(c) != "Cf")
+    return unicodedata.normalize("NFC", text).strip()
+
+
+COMPOSED = "Ash\u00e9n Oracle"          # é as one code point
+DECOMPOSED = "Ashe\u0301n Oracle"       # e + COMBINING ACUTE ACCENT
+ZERO_WIDTH = "Ash\u00e9n\u200b Oracle"  # a zero-width space inside
+RTL_MARK = "Ash\u00e9n Oracle\u200f"    # a trailing right-to-left mark
+
+
+def test_look_alike_card_and_leader_spellings_are_one_name_with_a_warning(tmp_path):
+    assert len({COMPOSED, DECOMPOSED, ZERO_WIDTH, RTL_MARK}) == 4  # four different strings...
+    assert len({_one_form(n) for n in (COMPOSED, DECOMPOSED, ZERO_WIDTH, RTL_MARK)}) == 1  # ...one name (stdlib)
+    cards = "deck_id,card,quantity\n" + "".join(
+        f"d{i},{n},{i}\n" for i, n in enumerate((COMPOSED, DECOMPOSED, ZERO_WIDTH, RTL_MARK), start=1))
+    decks = "deck_id,season,leader\nd1,Fr\u00f8st,Orm\u00e9\nd2,Fr\u00f8st,Orme\u0301\nd3,Fr\u00f8st,Orm\u00e9\u200b\nd4,Fr\u00f8st,Vessa\n"
+    data = load_data(tables(tmp_path, decks=decks, cards=cards))
+    assert set(data.cards["card"].astype(str)) == {_one_form(COMPOSED)}
+    assert sorted(set(data.decks["leader"])) == sorted({_one_form("Orm\u00e9"), "Vessa"})
+    messages = [f.message for f in data.findings if f.kind == "name-variants"]
+    card_note = next(m for m in messages if m.startswith("card name written 4 ways that look alike"))
+    # The spellings as a reader can tell them apart: escapes for the invisible and combining characters.
+    for written in ("'Ashe\\u0301n Oracle' (1 rows)", "'Ashén Oracle' (1 rows)", "'Ashén\\u200b Oracle' (1 rows)",
+                    "'Ashén Oracle\\u200f' (1 rows)"):
+        assert written in card_note
+    assert any(m.startswith("leader written 3 ways that look alike") for m in messages)
+
+
+def test_a_look_alike_card_table_name_is_matched_and_a_foreign_letter_is_named(tmp_path):
+    write(tmp_path, "cards.csv", f"card,type\n{COMPOSED},Omen\n")
+    cfg = tables(tmp_path, decks="deck_id,season,leader\nd1,S1,Orm\n",
+                 cards=f"deck_id,card,quantity\nd1,{DECOMPOSED},2\nd1,\u0410sh\u00e9n Oracle,1\n", data={"cards": "cards.csv"})
+    with pytest.raises((DataError, DataErrors)) as info:
+        load_data(cfg)
+    text = _messages(info.value)
+    assert "row 2" not in text  # the decomposed spelling is the card table's card
+    # The Cyrillic А (U+0410) looks like the Latin A: the message names both code points (unicodedata.name).
+    assert re.search(rf"row 3.*did you mean 'Ashén Oracle'\?; character 1 differs: U\+0410 {unicodedata.name(chr(0x410))} "
+                     rf"here, U\+0041 {unicodedata.name('A')} there", text)
+
+
+def test_card_table_listing_one_card_in_two_look_alike_spellings_shows_both(tmp_path):
+    write(tmp_path, "cards.csv", f"card,type\n{COMPOSED},Omen\n{DECOMPOSED},Omen\n")
+    cfg = tables(tmp_path, decks="deck_id,season,leader\nd1,S1,Orm\n",
+                 cards=f"deck_id,card,quantity\nd1,{COMPOSED},2\n", data={"cards": "cards.csv"})
+    with pytest.raises((DataError, DataErrors)) as info:
+        load_data(cfg)
+    assert re.search(r"cards\.csv, row 3.*card listed twice.*\(also row 2: 'Ashén Oracle'\).*value 'Ashe\\u0301n Oracle'",
+                     _messages(info.value))
+
+
+def test_look_alike_names_make_one_page_and_right_to_left_names_are_isolated(tmp_path):
+    from _sites import make_project, read_rows, write_rows
+
+    from sitegen.site.render import isolate
+
+    project = make_project(tmp_path / "guide")
+    data = project.parent / "data"
+    header, rows = read_rows(data / "deck_cards.csv")
+    spellings = ["Quiet \u00d3ath", "Quiet O\u0301ath", "Quiet \u00d3ath\u200b", "\u200fQuiet \u00d3ath"]
+    seen = 0
+    for row in rows:
+        if row[1] == "Quiet Oath":
+            row[1] = spellings[seen % 4]
+            seen += 1
+    assert seen >= 4
+    write_rows(data / "deck_cards.csv", header, rows)
+    header, cards = read_rows(data / "cards.csv")
+    write_rows(data / "cards.csv", header, [[("Quiet \u00d3ath" if r[0] == "Quiet Oath" else r[0]), *r[1:]] for r in cards])
+    # A leader whose name is written in a right-to-left script (invented: "Dalet of the Marsh" in Hebrew letters).
+    rtl_leader = "\u05d3\u05dc\u05ea Marsh"
+    header, decks = read_rows(data / "decks.csv")
+    old_leader = decks[0][2]
+    write_rows(data / "decks.csv", header, [[*r[:2], rtl_leader if r[2] == old_leader else r[2], *r[3:]] for r in decks])
+    proc = _run("build", "--quiet", str(project))
+    assert proc.returncode == 0, proc.stderr
+    site = project.parent / "site"
+    pages = sorted(p.name for p in (site / "cards").glob("quiet-*ath*.html"))
+    assert len(pages) == 1 and not any(p.endswith("-2.html") for p in pages), pages
+    page = _doc(site / "cards" / pages[0])
+    assert _text(page.find(".//h1")) == _one_form("Quiet O\u0301ath")
+    # The right-to-left name: <bdi> in the heading, FIRST STRONG ISOLATE ... POP DIRECTIONAL ISOLATE
+    # (U+2068, U+2069; Unicode UAX #9) in the title, where no markup can go.
+    leader_page = next(p for p in (site / "leaders").glob("*.html") if rtl_leader in p.read_text("utf-8"))
+    doc = _doc(leader_page)
+    assert doc.find(".//h1/bdi") is not None and _text(doc.find(".//h1/bdi")) == rtl_leader
+    assert _text(doc.find(".//title")).startswith("\u2068" + rtl_leader + "\u2069")
+    assert isolate("\u202eevil") == "\u2068\u202eevil\u2069" and isolate("Quiet Oath") == "Quiet Oath"

@@ -12,6 +12,7 @@ from __future__ import annotations
 import datetime as dt
 import difflib
 import re
+import unicodedata
 from collections import defaultdict
 from dataclasses import dataclass
 from pathlib import Path
@@ -22,7 +23,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from ..config import Config
-from ..errors import ConfigError, DataError, DataErrors
+from ..errors import ConfigError, DataError, DataErrors, visible
 from ..model import DECK_COLUMNS, DeckData, Finding, coded, in_row_order, narrowest_int
 from .tables import CSV_SUFFIXES, Table, _arrow_text
 
@@ -38,9 +39,32 @@ def clean_text(text: str) -> str:
     return text.strip().strip(_EDGE).strip()
 
 
+def clean_name(text: str) -> str:
+    """A name (card, leader, season) in the one form names are compared in: invisible format
+    characters (Unicode category Cf: zero-width space, joiners, direction marks and overrides,
+    byte-order mark) removed, Unicode NFC (composed accents), trimmed as :func:`clean_text`."""
+    text = clean_text(text)
+    if text.isascii():
+        return text
+    text = "".join(c for c in text if unicodedata.category(c) != "Cf")
+    return clean_text(unicodedata.normalize("NFC", text))
+
+
 def variant_key(name: str) -> str:
-    """Names equal under this key differ only by case or spacing."""
-    return " ".join(name.split()).casefold()
+    """Names equal under this key differ only by case or spacing (or look alike: see :func:`clean_name`)."""
+    return unicodedata.normalize("NFC", " ".join(clean_name(name).split()).casefold())
+
+
+def told_apart(value: str, other: str) -> str:
+    """Words telling two names apart at their first differing character, when either character
+    there is not ASCII (so a look-alike letter of another script is named); '' otherwise."""
+    for i, (a, b) in enumerate(zip(value, other), start=1):
+        if a != b:
+            if a.isascii() and b.isascii():
+                return ""
+            return (f"; character {i} differs: U+{ord(a):04X} {unicodedata.name(a, 'unnamed')} here, "
+                    f"U+{ord(b):04X} {unicodedata.name(b, 'unnamed')} there")
+    return ""
 
 
 def natural_key(text: str) -> tuple:
@@ -136,31 +160,88 @@ _EDGE_CLASS = "[\\x00-\\x20\\x7f\\x85\\xa0\\x{1680}\\x{2000}-\\x{200a}\\x{2028}\
 _NEEDS_TRIM = f"^{_EDGE_CLASS}|{_EDGE_CLASS}$"
 
 
-def _codes(series: pd.Series) -> tuple[np.ndarray, list[str]]:
-    """Integer codes of the cleaned values and the cleaned distinct values."""
+def _codes(series: pd.Series, *, names: bool = False,
+           merged: list[tuple[str, list[tuple[str, int]]]] | None = None) -> tuple[np.ndarray, list[str]]:
+    """Integer codes of the cleaned values and the cleaned distinct values.
+
+    ``names``: the values are names, cleaned by :func:`clean_name` (one form for look-alike
+    spellings) rather than only trimmed; spellings that became one are appended to ``merged``
+    as (name, [(spelling as written, rows)...]).
+    """
     codes, uniques = _factorize(series)
-    names = uniques if all(type(u) is str for u in uniques) else [str(u) for u in uniques]
+    values = uniques if all(type(u) is str for u in uniques) else [str(u) for u in uniques]
+    pattern = _NEEDS_TRIM + ("|[^\\x00-\\x7f]" if names else "")  # any non-ASCII text may need NFC or hide a Cf
     try:
-        flagged = np.flatnonzero(pc.match_substring_regex(pa.array(names, pa.string()), _NEEDS_TRIM)
+        flagged = np.flatnonzero(pc.match_substring_regex(pa.array(values, pa.string()), pattern)
                                  .to_numpy(zero_copy_only=False))
     except (pa.ArrowException, ValueError):
-        flagged = np.arange(len(names))
+        flagged = np.arange(len(values))
+    clean = clean_name if names else clean_text
     changed = False
+    written = list(values) if names and merged is not None else None
     for i in flagged:
-        cleaned = clean_text(names[i])
-        if cleaned != names[i]:
-            names[i] = cleaned
+        cleaned = clean(values[i])
+        if cleaned != values[i]:
+            values[i] = cleaned
             changed = True
     if codes.dtype not in _NARROW_CODES:
         codes = codes.astype(_CODE)  # a categorical's own codes stay as narrow as they are (no copy)
     if not changed:
-        return codes, names
-    codes2, uniq2 = pd.factorize(pd.Series(names, dtype=object), sort=False)
+        return codes, values
+    codes2, uniq2 = pd.factorize(pd.Series(values, dtype=object), sort=False)
+    if written is not None and len(uniq2) < len(values):
+        _look_alikes(written, values, codes, merged)
     return np.asarray(codes2, dtype=_CODE)[codes], [str(u) for u in uniq2]
 
 
-def _cleaned(series: pd.Series) -> pd.Series:
-    codes, uniques = _codes(series)
+def _look_alikes(written: list[str], cleaned: list[str], codes: np.ndarray,
+                 merged: list[tuple[str, list[tuple[str, int]]]]) -> None:
+    """Append to ``merged`` each name that two or more spellings (trimmed, as written) became."""
+    groups: dict[str, dict[str, list[int]]] = defaultdict(lambda: defaultdict(list))
+    for i, (w, c) in enumerate(zip(written, cleaned)):
+        groups[c][clean_text(w)].append(i)
+    rows = None
+    for name in sorted(groups):
+        spellings = groups[name]
+        if len(spellings) < 2:
+            continue
+        if rows is None:
+            rows = np.bincount(np.asarray(codes, dtype=np.int64), minlength=len(written))
+        merged.append((name, [(w, int(rows[idx].sum())) for w, idx in sorted(spellings.items())]))
+
+
+def _spelt(column: pd.Series, row: int, other: int) -> str:
+    """Words showing how two rows spell one name, when they spell it differently (look-alikes)."""
+    a, b = clean_text(str(column.iloc[row])), clean_text(str(column.iloc[other]))
+    return f"; written {visible(a)} here, {visible(b)} there" if a != b else ""
+
+
+def look_alike_findings(merged: list[tuple[str, list[tuple[str, int]]]], what: str) -> list[Finding]:
+    """One ``name-variants`` finding per name that look-alike spellings became, each shown by
+    :func:`visible` so that the spellings look different in the message."""
+    return [Finding("name-variants", f"{what} written {len(spellings)} ways that look alike: "
+                    + ", ".join(f"{visible(w)} ({n} rows)" for w, n in spellings)
+                    + f"; all read as {visible(name)} (Unicode NFC, invisible format characters removed)")
+            for name, spellings in merged]
+
+
+def merge_look_alikes(counts: dict[str, int], what: str) -> tuple[dict[str, int], list[Finding]]:
+    """Row counts by name (as written) added up by :func:`clean_name`, and the findings of
+    :func:`look_alike_findings` for the names that several spellings became."""
+    out: dict[str, int] = {}
+    spellings: dict[str, dict[str, int]] = defaultdict(dict)
+    for name, n in counts.items():
+        key = clean_name(name)
+        out[key] = out.get(key, 0) + n
+        trimmed = clean_text(name)
+        spellings[key][trimmed] = spellings[key].get(trimmed, 0) + n
+    merged = [(name, sorted(s.items())) for name, s in sorted(spellings.items()) if len(s) > 1]
+    return out, look_alike_findings(merged, what)
+
+
+def _cleaned(series: pd.Series, *, names: bool = False,
+             merged: list[tuple[str, list[tuple[str, int]]]] | None = None) -> pd.Series:
+    codes, uniques = _codes(series, names=names, merged=merged)
     out = _text(uniques, codes)
     out.index = series.index
     return out
@@ -359,7 +440,7 @@ def _calendar(cfg: Config) -> list[tuple[str, dt.date, dt.date]]:
         if bounds[0] > bounds[1]:
             raise ConfigError(source, "seasons.calendar", f"entry {i} ({entry['name']!r}) ends before it starts",
                               "swap start and end")
-        out.append((str(entry["name"]), bounds[0], bounds[1]))
+        out.append((clean_name(str(entry["name"])), bounds[0], bounds[1]))
     if not out:
         raise ConfigError(source, "seasons.calendar", "is empty but seasons.source is 'calendar'",
                           'add [[seasons.calendar]] entries with name, start and end, or set seasons.source = "column"')
@@ -417,7 +498,7 @@ def _one_date(text: str):
 
 
 def _season_order(present: set[str], cfg: Config, calendar, first_date: dict[str, pd.Timestamp]) -> tuple[str, ...]:
-    order = list(cfg["seasons.order"])
+    order = [clean_name(s) for s in cfg["seasons.order"]]
     if order:
         missing = sorted(present - set(order), key=natural_key)
         if missing:
@@ -458,10 +539,10 @@ def _name_variants(names: list[str], counts: np.ndarray, known: dict[str, str] |
         for i in members:
             canonical[i] = winner
         if len(spellings) > 1:
-            listed = ", ".join(f"{s!r}" + (f" ({int(counts[names.index(s)])} rows)" if s in names else "")
+            listed = ", ".join(visible(s) + (f" ({int(counts[names.index(s)])} rows)" if s in names else "")
                                for s in spellings)
             findings.append(Finding("name-variants",
-                                    f"{what} written {len(spellings)} ways: {listed}; all read as {winner!r}"))
+                                    f"{what} written {len(spellings)} ways: {listed}; all read as {visible(winner)}"))
     return canonical, findings, unknown
 
 
@@ -538,7 +619,8 @@ def check_decks(decks: Table, cfg: Config, spellings: Spellings | None = None) -
     else:
         deck_id = _text(deck_names, deck_codes)
 
-    leader = _cleaned(frame["leader"])
+    merged_leaders: list = []
+    leader = _cleaned(frame["leader"], names=True, merged=merged_leaders)
     problems.flag(decks, np.flatnonzero((leader == "").to_numpy()), "deck has no leader", column="leader",
                   fix="fill in the deck's leader")
 
@@ -570,7 +652,9 @@ def check_decks(decks: Table, cfg: Config, spellings: Spellings | None = None) -
         if "season" not in frame:
             raise DataError(decks.file, f"missing column '{cfg['columns.season']}'", row=1, column=cfg["columns.season"],
                             fix="add a season column, set columns.season to its name, or use seasons.source = \"calendar\"")
-        season = _cleaned(frame["season"])
+        merged_seasons: list = []
+        season = _cleaned(frame["season"], names=True, merged=merged_seasons)
+        look_alike_seasons = look_alike_findings(merged_seasons, "season")
         problems.flag(decks, np.flatnonzero((season == "").to_numpy()), "deck has no season", column="season",
                       fix="fill in the deck's season")
 
@@ -600,6 +684,9 @@ def check_decks(decks: Table, cfg: Config, spellings: Spellings | None = None) -
     leader_codes, leader_names = _codes(leader)
     leader_canon, leader_findings, _ = _name_variants(
         leader_names, np.bincount(leader_codes, minlength=len(leader_names)), None, cfg["site.leader_word"])
+    leader_findings = look_alike_findings(merged_leaders, cfg["site.leader_word"]) + leader_findings
+    if source != "calendar" and spellings is None:
+        leader_findings = look_alike_seasons + leader_findings
     if spellings is not None:
         leader_canon = [spellings.leaders.get(variant_key(n), c) for n, c in zip(leader_names, leader_canon)]
     return DeckChecks(problems, frame, deck_codes, deck_names, deck_rank, deck_id, season, dates, calendar, results,
@@ -627,7 +714,8 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     # -- long-form table
     cframe = cards.frame
     cdeck_codes, cdeck_names, same_decks = _row_deck_codes(cframe["deck_id"], frame["deck_id"], deck_codes, deck_names)
-    card_codes, card_names = _codes(cframe["card"])
+    merged_cards: list = []
+    card_codes, card_names = _codes(cframe["card"], names=True, merged=merged_cards)
     empty_card = [i for i, name in enumerate(card_names) if not name]
     if empty_card:
         problems.flag(cards, np.flatnonzero(np.isin(card_codes, empty_card)), "card name is empty", column="card",
@@ -710,7 +798,8 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         earlier_rows = [r for _, r in cards.where(np.array([earlier[int(p)] for p in shown]), "card")]
         problems.flag(cards, later, "the same deck and card on two rows", column="card",
                       values=[card_names[card_codes[p]] for p in shown],
-                      notes=[f" (deck {cdeck_names[cdeck_codes[p]]!r}, also row {r})" for p, r in zip(shown, earlier_rows)],
+                      notes=[f" (deck {cdeck_names[cdeck_codes[p]]!r}, also row {r}{_spelt(cframe['card'], p, earlier[int(p)])})"
+                             for p, r in zip(shown, earlier_rows)],
                       fix="keep one row per deck and card, with the total quantity")
 
     # Card names: one spelling per card, and known to the card table if there is one.
@@ -722,6 +811,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     counts = _counts(card_codes, len(card_names))
     canonical, name_findings, unknown = _name_variants(card_names, counts, known, "card name")
     if spellings is None:
+        findings.extend(look_alike_findings(merged_cards, "card name"))
         findings.extend(name_findings)
     else:
         canonical = [spellings.cards.get(variant_key(n), c) for n, c in zip(card_names, canonical)]
@@ -732,8 +822,9 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         choices = list(known.values()) if known else []
         values = [card_names[card_codes[p]] for p in pos[:ERRORS_PER_PROBLEM]]
         hints = [difflib.get_close_matches(v, choices, n=1) for v in values]
-        problems.flag(cards, pos, f"card is not in the card table {card_table.file}", column="card", values=values,
-                      notes=[f" (did you mean {h[0]!r}?)" if h else "" for h in hints],
+        problems.flag(cards, pos, f"card is not in the card table {card_table.file}", column="card",
+                      values=values, notes=[f" (did you mean {visible(h[0])}?{told_apart(v, h[0])})" if h else ""
+                                                              for v, h in zip(values, hints)],
                       fix="add the card to the card table, or correct its spelling")
 
     if spellings is None:
@@ -849,7 +940,8 @@ def _text(uniques: list[str], codes: np.ndarray) -> pd.Series:
 def _card_info(table: Table, cfg: Config, problems: _Problems) -> tuple[pd.DataFrame, dict[str, str]]:
     """The card table, card and type first, and its names by variant key."""
     frame = table.frame
-    names = _cleaned(frame["card"])
+    names = _cleaned(frame["card"], names=True)
+    written = frame["card"].reset_index(drop=True)
     empty = np.flatnonzero((names == "").to_numpy())
     problems.flag(table, empty, "card name is empty", column="card", fix="fill in the card's name, or delete the row")
     keys = names.map(variant_key)
@@ -859,9 +951,11 @@ def _card_info(table: Table, cfg: Config, problems: _Problems) -> tuple[pd.DataF
         for i, k in enumerate(keys.tolist()):
             first.setdefault(k, i)
         shown = dup[:ERRORS_PER_PROBLEM]
-        problems.flag(table, dup, "card listed twice (names differ at most by case or spacing)", column="card",
-                      values=[names.iloc[p] for p in shown],
-                      notes=[f" (also row {table.where(np.array([first[keys.iloc[p]]]))[0][1]})" for p in shown],
+        problems.flag(table, dup, "card listed twice (names differ at most by case, spacing or look-alike "
+                      "characters: Unicode NFC, invisible format characters)", column="card",
+                      values=[clean_text(str(written.iloc[p])) for p in shown],
+                      notes=[f" (also row {table.where(np.array([first[keys.iloc[p]]]))[0][1]}: "
+                             f"{visible(clean_text(str(written.iloc[first[keys.iloc[p]]])))})" for p in shown],
                       fix="keep one row per card")
     known = {}
     for name, key in zip(names.tolist(), keys.tolist()):

@@ -14,6 +14,7 @@ import dataclasses
 import hashlib
 import json
 import math
+import unicodedata
 from collections import defaultdict
 from dataclasses import dataclass, fields
 from pathlib import Path
@@ -78,6 +79,21 @@ def _pct(value: float | None, digits: int = 1) -> str:
     return f"{value * 100:.{digits}f}%"
 
 
+#: Bidirectional classes (Unicode UAX #9) that can turn the text around them: right-to-left
+#: letters and digits, embeddings, overrides and isolates.
+_BIDI_TURNING = frozenset({"R", "AL", "AN", "RLE", "RLO", "LRE", "LRO", "PDF", "RLI", "LRI", "FSI", "PDI"})
+
+
+def isolate(text: object) -> str:
+    """Text wrapped in FIRST STRONG ISOLATE ... POP DIRECTIONAL ISOLATE (U+2068, U+2069) when it
+    holds right-to-left letters or direction controls, so that it cannot reorder the text around
+    it (a page's <title>, where no markup can isolate); other text is left as it is."""
+    text = str(text)
+    if any(unicodedata.bidirectional(c) in _BIDI_TURNING for c in text):
+        return f"\u2068{text}\u2069"
+    return text
+
+
 def make_environment(templates_dirs: Sequence[Path]) -> jinja2.Environment:
     """A strict, autoescaping environment over the template folders, first wins."""
     loader = jinja2.ChoiceLoader([jinja2.FileSystemLoader(str(d)) for d in templates_dirs])
@@ -86,6 +102,7 @@ def make_environment(templates_dirs: Sequence[Path]) -> jinja2.Environment:
                              trim_blocks=True, lstrip_blocks=True, keep_trailing_newline=True, auto_reload=False)
     env.filters["pct"] = _pct
     env.filters["fixed"] = exports.fixed
+    env.filters["isolate"] = isolate
     return env
 
 
