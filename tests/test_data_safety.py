@@ -370,3 +370,40 @@ def test_look_alike_names_make_one_page_and_right_to_left_names_are_isolated(tmp
     assert doc.find(".//h1/bdi") is not None and _text(doc.find(".//h1/bdi")) == rtl_leader
     assert _text(doc.find(".//title")).startswith("\u2068" + rtl_leader + "\u2069")
     assert isolate("\u202eevil") == "\u2068\u202eevil\u2069" and isolate("Quiet Oath") == "Quiet Oath"
+
+
+# -- 8. a season whose every deck was left out -----------------------------------------------------
+
+def test_season_of_only_excluded_decks_keeps_its_page_with_its_breakers(tmp_path):
+    from _sites import make_project, read_rows, write_rows
+
+    project = make_project(tmp_path / "guide")
+    data = project.parent / "data"
+    _, decks = read_rows(data / "decks.csv")
+    second = {r[0] for r in decks if r[1] == "Second Tide"}
+    assert second and len(second) < len(decks)
+    header, rows = read_rows(data / "deck_cards.csv")
+    broken: dict[str, str] = {}
+    for row in rows:
+        if row[0] in second and row[0] not in broken:
+            row[2] = "5"  # over rules.max_copies (3): every deck of the season breaks a rule
+            broken[row[0]] = row[1]
+    write_rows(data / "deck_cards.csv", header, rows)
+    text = project.read_text(encoding="utf-8").replace("[rules]\n", "[rules]\nexclude_breakers = true\n", 1)
+    project.write_text(text, encoding="utf-8")
+    proc = _run("build", "--quiet", str(project))
+    assert proc.returncode == 0, proc.stderr
+    site = project.parent / "site"
+    page = _doc(site / "seasons" / "second-tide" / "index.html")
+    notes = [_text(li) for li in page.iter("li")]
+    assert any("Every deck of this season breaks a deck-building rule" in n and "rules.exclude_breakers" in n for n in notes)
+    left_out = next(n for n in notes if "left out of the analysis" in n)
+    assert left_out.startswith(f"{len(second)} decks left out") and sorted(second)[0] in left_out
+    first = sorted(second)[0]
+    assert f"deck {first} plays 5 copies of '{broken[first]}'; the limit is 3 copies of a card" in notes
+    lede = next(p for p in page.iter("p") if "lede" in (p.get("class") or ""))
+    assert _text(lede).startswith("No deck of this season is analysed")
+    # The front page's latest season is the last one analysed.
+    front = _doc(site / "index.html")
+    latest = next(a for a in front.iter("a") if _text(a) == "Latest season")
+    assert latest.get("href").endswith("seasons/first-tide/index.html")
