@@ -205,7 +205,12 @@ def _narrowest(values: np.ndarray) -> list:
     the bytes follow from the values, not from the dtype they came in)."""
     values = np.asarray(values)
     low, high = (int(values.min()), int(values.max())) if values.size else (0, 0)
-    kind = f"<i{(narrowest_int(low, high) or np.dtype(np.int64)).itemsize}"
+    narrow = narrowest_int(low, high)
+    if narrow is None:  # beyond int64: unsigned 64-bit holds it (never wrapped to a negative number)
+        if low < 0:
+            raise OverflowError(f"whole numbers from {low} to {high} fit no 64-bit integer")
+        return [b"<u8", np.ascontiguousarray(values.astype("<u8", copy=False))]
+    kind = f"<i{narrow.itemsize}"
     return [kind.encode("ascii"), np.ascontiguousarray(values.astype(kind, copy=False))]
 
 

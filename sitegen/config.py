@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import difflib
 import tomllib
+import unicodedata
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -87,7 +88,7 @@ SETTINGS: tuple[Setting, ...] = (
     _S("analysis.pinned_k", [], list, "Fixed archetype counts, each {season, leader, k}."),
     _S("analysis.min_decks", 30, int, "Partitions with fewer decks are not clustered.", minimum=2),
     _S("analysis.min_share", 0.02, float, "Clusters below this share of their partition join the other decks.", minimum=0, maximum=1),
-    _S("analysis.seed", 0, int, "Random seed for sampling, k-means and maps.", minimum=0),
+    _S("analysis.seed", 0, int, "Random seed for sampling, k-means and maps, from 0 to 2147483647.", minimum=0, maximum=2**31 - 1),
     _S("analysis.silhouette_sample", 3000, int, "Decks sampled per partition to score each k by silhouette.", minimum=10),
     _S("analysis.inclusion_min_share", 0.05, float, "Cards played by fewer of an archetype's decks are left out of its card table.", minimum=0, maximum=1),
     _S("analysis.name_cards", 2, int, "Signature cards used in an archetype's default name.", minimum=1, maximum=5),
@@ -169,12 +170,17 @@ def _check_value(setting: Setting, value: Any, file: str) -> Any:
     if setting.choices is not None and value not in setting.choices:
         raise ConfigError(file, setting.key, f"{value!r} is not one of {', '.join(map(repr, setting.choices))}",
                           "pick one of those")
+    def shown(bound: float) -> str:  # whole-number settings show their bounds in full (not 2.14748e+09)
+        return str(int(bound)) if kind is int else f"{bound:g}"
+
+    allowed = (f"; allowed: {shown(setting.minimum)} to {shown(setting.maximum)}"
+               if setting.minimum is not None and setting.maximum is not None else "")
     if setting.minimum is not None and value < setting.minimum:
-        raise ConfigError(file, setting.key, f"{value!r} is below the least allowed value {setting.minimum:g}",
-                          f"use {setting.minimum:g} or more")
+        raise ConfigError(file, setting.key, f"{value!r} is below the least allowed value {shown(setting.minimum)}{allowed}",
+                          f"use {shown(setting.minimum)} or more")
     if setting.maximum is not None and value > setting.maximum:
-        raise ConfigError(file, setting.key, f"{value!r} is above the largest allowed value {setting.maximum:g}",
-                          f"use {setting.maximum:g} or less")
+        raise ConfigError(file, setting.key, f"{value!r} is above the largest allowed value {shown(setting.maximum)}{allowed}",
+                          f"use {shown(setting.maximum)} or less")
     return value
 
 
@@ -188,6 +194,17 @@ def _check_structured(values: dict[str, Any], file: str) -> None:
         if not isinstance(entry, dict) or not {"name", "start", "end"} <= set(entry):
             raise ConfigError(file, "seasons.calendar", f"entry {i} must be a table with name, start and end, got {entry!r}",
                               'write [[seasons.calendar]] name = "Spring" start = 2026-03-01 end = 2026-05-31')
+    named: dict[str, int] = {}
+    for i, entry in enumerate(values["seasons.calendar"], start=1):
+        if not isinstance(entry["name"], str) or not entry["name"].strip():
+            raise ConfigError(file, "seasons.calendar", f"entry {i} needs a name as text, got {entry['name']!r}",
+                              'write name = "Spring 2026"')
+        # Compared as names are (Unicode NFC, spacing and letter case aside), so look-alikes clash too.
+        key = unicodedata.normalize("NFC", " ".join(entry["name"].split())).casefold()
+        if key in named:
+            raise ConfigError(file, "seasons.calendar", f"entries {named[key]} and {i} are both named {entry['name']!r}",
+                              "give each entry its own name (one season is one date range)")
+        named[key] = i
     for i, entry in enumerate(values["analysis.pinned_k"], start=1):
         if (not isinstance(entry, dict) or not {"season", "k"} <= set(entry)
                 or not isinstance(entry.get("k"), int) or entry["k"] < 1):

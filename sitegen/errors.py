@@ -6,6 +6,7 @@ non-zero; nothing below the CLI prints or exits.
 """
 from __future__ import annotations
 
+import unicodedata
 from pathlib import Path
 
 
@@ -13,11 +14,36 @@ class SitegenError(Exception):
     """Base of every error sitegen raises on purpose."""
 
 
+def _hidden(c: str) -> bool:
+    """A character a reader cannot tell from others, or cannot see: combining marks, format and
+    control characters, spaces other than the plain space, and characters NFC would change."""
+    kind = unicodedata.category(c)
+    return (kind[0] in "MC" or (kind[0] == "Z" and c != " ")
+            or unicodedata.normalize("NFC", c) != c)
+
+
+def visible(text: str) -> str:
+    """A name quoted for a message so that two look-alike spellings look different: as repr()
+    shows it, but combining marks, invisible and look-alike characters written as escapes
+    ('Ashe\\u0301n Oracle' against 'Ash\u00e9n Oracle' shows as 'Ashén Oracle')."""
+    if not any(_hidden(c) for c in text):
+        return repr(text)
+    out = []
+    for c in text:
+        if c == "\\":
+            out.append("\\\\")
+        elif _hidden(c):
+            out.append(f"\\u{ord(c):04x}" if ord(c) <= 0xFFFF else f"\\U{ord(c):08x}")
+        else:
+            out.append(c)
+    return "'" + "".join(out) + "'"
+
+
 def _show(value: object, limit: int = 60) -> str:
-    """Render a bad value safely for a one-line message."""
+    """Render a bad value safely for a one-line message (text as :func:`visible` shows it)."""
     if hasattr(value, "item") and callable(value.item) and getattr(value, "shape", None) == ():
         value = value.item()  # a numpy number shows as 0, not np.int64(0)
-    text = repr(value)
+    text = visible(value) if isinstance(value, str) else repr(value)
     if len(text) > limit:
         text = text[: limit - 1] + "…"
     return text

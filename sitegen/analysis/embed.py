@@ -62,6 +62,17 @@ WARM_NEIGHBOURS = 10
 START_SPREAD = 1e-4
 
 
+#: Why a partition has no map (see :func:`can_map`), as its season page says it.
+NO_MAP = ("no map is drawn: its decks differ along one direction at most (all of them hold one "
+          "single card between them), which leaves nothing to spread on a plane")
+
+
+def can_map(rows: np.ndarray) -> bool:
+    """Whether a map of these feature rows can be drawn: t-SNE's PCA start needs rows of two
+    dimensions or more (a partition whose decks hold one single card between them has one)."""
+    return rows.ndim == 2 and rows.shape[1] >= 2
+
+
 def warm_steps(iterations: int) -> int:
     """Steps for a map started from the previous season's: two thirds of a fresh map's (it starts
     near its final layout; measured in the method notes), at least 50."""
@@ -80,6 +91,8 @@ def tsne(rows: np.ndarray, seed: int, iterations: int = 250, init: np.ndarray | 
     from openTSNE import TSNE
 
     n = rows.shape[0]
+    if rows.ndim == 2 and rows.shape[1] < 2:  # see can_map: a second, empty dimension keeps PCA working
+        rows = np.column_stack([rows, np.zeros(n)])
     if n < 4:
         return np.column_stack([np.arange(n, dtype=float), np.zeros(n)])
     perplexity = float(min(30.0, (n - 1) / 3.0))

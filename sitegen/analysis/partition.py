@@ -109,6 +109,9 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
     # The map itself is drawn later (draw_map), from the leader's previous map where there is one.
     xy = np.full((n, 2), np.nan)
     drawn = embed.stratified_sample(keys, params.map_points, params.seed)
+    if not embed.can_map(rows):
+        drawn = drawn[:0]
+        reason += f"; {embed.NO_MAP}"
     sample = MapSample(drawn=drawn, rows=np.ascontiguousarray(rows[drawn], dtype=np.float64),
                        presence=present[drawn], cards=tuple(cards)) if len(drawn) else None
     map_points = pd.DataFrame({

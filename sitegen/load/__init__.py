@@ -8,6 +8,8 @@ config names, checks every row, and returns a validated
 """
 from __future__ import annotations
 
+import dataclasses
+
 from concurrent.futures import Future, ThreadPoolExecutor
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -106,9 +108,11 @@ def load_data(cfg: Config) -> DeckData:
     decks_path, cards_path = cfg.path("data.decks"), cfg.path("data.deck_cards")
     folder, parquet_folder = cfg.path("data.decklists"), cfg.path("data.parquet_folder")
     if folder is not None:
-        decks, cards = read_decklists(folder)
+        notes: list = []
+        decks, cards = read_decklists(folder, findings=notes)
         (card_table,) = _read_both([lambda: _read_card_table(cfg)])
-        return build(decks, cards, card_table, cfg)
+        data = build(decks, cards, card_table, cfg)
+        return dataclasses.replace(data, findings=tuple(notes) + data.findings) if notes else data
     if parquet_folder is not None:
         decks, cards = _read_parquet_folder(parquet_folder, cfg)
         (card_table,) = _read_both([lambda: _read_card_table(cfg)])

@@ -3,19 +3,24 @@
 The deck id is the file name without ``.txt``. A file holds, in order:
 optional ``#`` comment lines, header lines ``Key: value`` (keys
 :data:`HEADER_KEYS`, any case), then card lines ``<quantity> <name>`` or
-``<quantity>x <name>``. Blank lines and comments may appear anywhere. Files
+``<quantity>x <name>``, then optionally a sideboard: a ``Sideboard`` line
+(``Sideboard:``, ``# Sideboard`` too), or a blank line, then its card lines,
+which are read and checked but are no part of the deck. Comments may appear
+anywhere, blank lines anywhere before the first card and inside a sideboard. Files
 are streamed line by line with a cap on line length and on card lines, so a
 huge or runaway file costs bounded memory and ends in a clear error.
 """
 from __future__ import annotations
 
 import re
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
 from ..errors import DataError, DataErrors
+from ..model import Finding
 from .origin import ListOrigin
 from .tables import Table
 
@@ -34,11 +39,39 @@ _HEADER_LINE = re.compile(r"([A-Za-z][A-Za-z _-]*?)[ \t]*:[ \t]*(.*)")
 _FIX_CARD = "write card lines as '<quantity> <name>' (for example '3 Ember Fox' or '3x Ember Fox')"
 
 
-def _parse_file(path: Path, errors: list[DataError]):
-    """One decklist: (header values, header lines, card rows as (line, qty, name)), or None on error."""
+#: A line that starts the sideboard: ``Sideboard``, ``Sideboard:``, ``# Sideboard`` (any case, any number of #).
+_SIDEBOARD_LINE = re.compile(r"(?:#+[ \t]*)?sideboard[ \t]*:?", re.IGNORECASE)
+_FIX_SIDEBOARD = ("a decklist holds its main cards, then at most one sideboard: a 'Sideboard' line (or one blank "
+                  "line) and its cards")
+
+
+@dataclass
+class Parsed:
+    """One decklist as read: header values and lines, main card rows as (line, qty, name), the
+    sideboard's card lines (read and checked, kept out of the deck), and the line of the blank
+    line that started the sideboard when no 'Sideboard' line marked it (0 otherwise)."""
+
+    header: dict[str, str]
+    header_line: dict[str, int]
+    cards: list[tuple[int, str, str]]
+    sideboard: list[tuple[int, str, str]]
+    blank_sideboard: int = 0
+
+
+def _parse_file(path: Path, errors: list[DataError]) -> Parsed | None:
+    """One decklist, or None on error (the errors appended to ``errors``).
+
+    After the first card line, a sideboard starts at a ``Sideboard`` line
+    (:data:`_SIDEBOARD_LINE`) or at the first card line that follows a blank
+    line; its cards are read as card lines and kept out of the deck.
+    """
     header: dict[str, str] = {}
     header_line: dict[str, int] = {}
     cards: list[tuple[int, str, str]] = []
+    sideboard: list[tuple[int, str, str]] = []
+    marked = 0  # line of the 'Sideboard' line
+    blank_sideboard = 0  # line of the blank line that started an unmarked sideboard
+    blank_after_cards = 0  # line of the last blank line below a card line, 0 after a card line
     failed = False
     try:
         f = open(path, "rb")
@@ -69,15 +102,42 @@ def _parse_file(path: Path, errors: list[DataError]):
             if number == 1:
                 line = line.lstrip("\ufeff")
             text = line.strip()
-            if not text or text.startswith("#"):
+            if not text:
+                if cards and not blank_after_cards:
+                    blank_after_cards = number
+                continue
+            if _SIDEBOARD_LINE.fullmatch(text):
+                if not cards:
+                    errors.append(DataError(path, "sideboard line before any card of the main deck", row=number,
+                                            value=text, fix="list the main deck's cards first, then the sideboard"))
+                    failed = True
+                elif marked or blank_sideboard:
+                    first = marked or blank_sideboard
+                    errors.append(DataError(path, f"a second sideboard (the first starts on line {first})", row=number,
+                                            value=text, fix=_FIX_SIDEBOARD))
+                    failed = True
+                else:
+                    marked = number
+                continue
+            if text.startswith("#"):
                 continue
             m = _CARD_LINE.fullmatch(text)
             if m:
-                if len(cards) >= MAX_CARD_LINES:
+                if len(cards) + len(sideboard) >= MAX_CARD_LINES:
                     errors.append(DataError(path, f"more than {MAX_CARD_LINES} card lines", row=number,
                                             fix="one file holds one deck; split it or check it is a decklist"))
                     return None
-                cards.append((number, m.group(1), m.group(2)))
+                if blank_after_cards and not marked:
+                    if blank_sideboard:
+                        errors.append(DataError(
+                            path, f"card lines after a second blank line below the main cards (the sideboard "
+                                  f"starts after the blank line {blank_sideboard})", row=number, value=text,
+                            fix="remove blank lines between cards of one part, or mark the sideboard with a 'Sideboard' line"))
+                        failed = True
+                    else:
+                        blank_sideboard = blank_after_cards
+                blank_after_cards = 0
+                (sideboard if marked or blank_sideboard else cards).append((number, m.group(1), m.group(2)))
                 continue
             h = _HEADER_LINE.fullmatch(text)
             if h:
@@ -100,20 +160,23 @@ def _parse_file(path: Path, errors: list[DataError]):
                     header_line[HEADER_KEYS[key]] = number
                 continue
             errors.append(DataError(path, "not a header line nor a card line", row=number, value=text,
-                                    fix=f"{_FIX_CARD}; header lines look like 'Leader: NAME'"))
+                                    fix=f"{_FIX_CARD}; header lines look like 'Leader: NAME'; a sideboard starts at a 'Sideboard' line"))
             failed = True
     if not cards and not failed:
         errors.append(DataError(path, "no card lines (the decklist is empty)", row=max(number, 1), fix=_FIX_CARD))
         return None
-    return None if failed else (header, header_line, cards)
+    return None if failed else Parsed(header, header_line, cards, sideboard, blank_sideboard)
 
 
-def read_decklists(folder: Path, *, setting: str = "data.decklists") -> tuple[Table, Table]:
+def read_decklists(folder: Path, *, setting: str = "data.decklists",
+                   findings: list[Finding] | None = None) -> tuple[Table, Table]:
     """Read every ``*.txt`` in ``folder``: (deck table, long-form card table).
 
     Both tables hold text only; the deck table has every logical deck column
     (empty where a header was not given). Raises DataErrors listing every
-    file's problems, in file and line order.
+    file's problems, in file and line order. Sideboards are left out of the
+    card table; those started by a blank line alone (no 'Sideboard' line)
+    are told in a ``sideboard`` finding appended to ``findings``.
     """
     if not folder.exists():
         raise DataError(folder, "folder not found", fix=f"check the path given in setting '{setting}' (relative to the config file)")
@@ -132,12 +195,15 @@ def read_decklists(folder: Path, *, setting: str = "data.decklists") -> tuple[Ta
     card_deck: list[str] = []
     card_qty: list[str] = []
     card_name: list[str] = []
+    unmarked: list[tuple[str, int, int]] = []
     for path in paths:
         deck_id = path.stem
         parsed = _parse_file(path, errors)
         if parsed is None:
             continue
-        header, header_line, cards = parsed
+        header, header_line, cards = parsed.header, parsed.header_line, parsed.cards
+        if parsed.blank_sideboard:
+            unmarked.append((path.name, parsed.blank_sideboard, len(parsed.sideboard)))
         index = len(files)
         files.append(str(path))
         deck_rows["deck_id"].append(deck_id)
@@ -154,6 +220,13 @@ def read_decklists(folder: Path, *, setting: str = "data.decklists") -> tuple[Ta
             card_name.append(name)
     if errors:
         raise DataErrors(errors)
+    if unmarked and findings is not None:
+        shown = "; ".join(f"{name} ({lines} card line(s) after the blank line {at})" for name, at, lines in unmarked[:10])
+        more = f"; and {len(unmarked) - 10} more" if len(unmarked) > 10 else ""
+        findings.append(Finding("sideboard", f"{len(unmarked)} decklist(s) hold card lines after a blank line below "
+                                f"their main cards, read as a sideboard and left out of the deck: {shown}{more}. "
+                                "Mark a sideboard with a 'Sideboard' line; if those cards belong to the main deck, "
+                                "remove the blank line"))
     n = len(files)
     file_index = np.arange(n)
     decks = Table(

@@ -128,7 +128,7 @@ class SeasonFolder:
         alone (so maps can start while seasons are still read); None when the settings do not fit
         the seasons (the error is raised by :meth:`whole`, after the seasons' own)."""
         try:
-            return normalise._season_order({normalise.clean_text(f.season) for f in self.files}, self.cfg, None,
+            return normalise._season_order({normalise.clean_name(f.season) for f in self.files}, self.cfg, None,
                                            self.first_dates)
         except ConfigError:
             return None
@@ -435,10 +435,10 @@ def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], d
     errors: list[DataError] = []
     by_name: dict[str, SeasonFiles] = {}
     for f in files:
-        other = by_name.setdefault(normalise.clean_text(f.season), f)
+        other = by_name.setdefault(normalise.clean_name(f.season), f)
         if other is not f:
             errors.append(DataError(f.decks.parent, f"names the same season as {other.decks.parent.name!r} "
-                                    "(folder names differ only by spaces)",
+                                    "(folder names differ only by spaces or look-alike characters)",
                                     fix="keep one folder per season: move its files into the other folder"))
     memo = SummaryMemo.for_columns(cache, deck_columns, card_columns) if cache is not None else None
     summaries: list[SeasonSummary] = []
@@ -474,12 +474,14 @@ def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], d
         for name, n in summary.leader_counts.items():
             leader_counts[name] = leader_counts.get(name, 0) + n
         if summary.first_date is not None:
-            first_dates[normalise.clean_text(f.season)] = summary.first_date
+            first_dates[normalise.clean_name(f.season)] = summary.first_date
     known = None
     if card_table is not None:
         problems = normalise._Problems()
         _, known = normalise._card_info(card_table, cfg, problems)
         problems.raise_if_any()
+    card_counts, card_look = normalise.merge_look_alikes(card_counts, "card name")
+    leader_counts, leader_look = normalise.merge_look_alikes(leader_counts, cfg["site.leader_word"])
     card_names = list(card_counts)
     card_spelling, card_findings = normalise.spellings_of(
         card_names, np.array([card_counts[n] for n in card_names], dtype=np.int64), known, "card name")
@@ -488,5 +490,5 @@ def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], d
         leader_names, np.array([leader_counts[n] for n in leader_names], dtype=np.int64), None, cfg["site.leader_word"])
     return SeasonFolder(cfg=cfg, files=files, deck_columns=deck_columns, card_columns=card_columns,
                         card_table=card_table, spellings=normalise.Spellings(card_spelling, leader_spelling),
-                        name_findings=card_findings + leader_findings, first_dates=first_dates,
+                        name_findings=card_look + card_findings + leader_look + leader_findings, first_dates=first_dates,
                         summary_keys=memo.keys if memo is not None else set())

@@ -12,6 +12,7 @@ from __future__ import annotations
 import datetime as dt
 import difflib
 import re
+import unicodedata
 from collections import defaultdict
 from dataclasses import dataclass
 from pathlib import Path
@@ -22,7 +23,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from ..config import Config
-from ..errors import ConfigError, DataError, DataErrors
+from ..errors import ConfigError, DataError, DataErrors, visible
 from ..model import DECK_COLUMNS, DeckData, Finding, coded, in_row_order, narrowest_int
 from .tables import CSV_SUFFIXES, Table, _arrow_text
 
@@ -31,7 +32,6 @@ ERRORS_PER_PROBLEM = 50
 
 # Stripped from both ends of names: whitespace, C0 controls, DEL, byte-order mark.
 _EDGE = "".join(chr(c) for c in range(0x20)) + "\x7f\ufeff"
-_INT = re.compile(r"[+]?\d{1,18}")
 
 
 def clean_text(text: str) -> str:
@@ -39,9 +39,32 @@ def clean_text(text: str) -> str:
     return text.strip().strip(_EDGE).strip()
 
 
+def clean_name(text: str) -> str:
+    """A name (card, leader, season) in the one form names are compared in: invisible format
+    characters (Unicode category Cf: zero-width space, joiners, direction marks and overrides,
+    byte-order mark) removed, Unicode NFC (composed accents), trimmed as :func:`clean_text`."""
+    text = clean_text(text)
+    if text.isascii():
+        return text
+    text = "".join(c for c in text if unicodedata.category(c) != "Cf")
+    return clean_text(unicodedata.normalize("NFC", text))
+
+
 def variant_key(name: str) -> str:
-    """Names equal under this key differ only by case or spacing."""
-    return " ".join(name.split()).casefold()
+    """Names equal under this key differ only by case or spacing (or look alike: see :func:`clean_name`)."""
+    return unicodedata.normalize("NFC", " ".join(clean_name(name).split()).casefold())
+
+
+def told_apart(value: str, other: str) -> str:
+    """Words telling two names apart at their first differing character, when either character
+    there is not ASCII (so a look-alike letter of another script is named); '' otherwise."""
+    for i, (a, b) in enumerate(zip(value, other), start=1):
+        if a != b:
+            if a.isascii() and b.isascii():
+                return ""
+            return (f"; character {i} differs: U+{ord(a):04X} {unicodedata.name(a, 'unnamed')} here, "
+                    f"U+{ord(b):04X} {unicodedata.name(b, 'unnamed')} there")
+    return ""
 
 
 def natural_key(text: str) -> tuple:
@@ -137,38 +160,108 @@ _EDGE_CLASS = "[\\x00-\\x20\\x7f\\x85\\xa0\\x{1680}\\x{2000}-\\x{200a}\\x{2028}\
 _NEEDS_TRIM = f"^{_EDGE_CLASS}|{_EDGE_CLASS}$"
 
 
-def _codes(series: pd.Series) -> tuple[np.ndarray, list[str]]:
-    """Integer codes of the cleaned values and the cleaned distinct values."""
+def _codes(series: pd.Series, *, names: bool = False,
+           merged: list[tuple[str, list[tuple[str, int]]]] | None = None) -> tuple[np.ndarray, list[str]]:
+    """Integer codes of the cleaned values and the cleaned distinct values.
+
+    ``names``: the values are names, cleaned by :func:`clean_name` (one form for look-alike
+    spellings) rather than only trimmed; spellings that became one are appended to ``merged``
+    as (name, [(spelling as written, rows)...]).
+    """
     codes, uniques = _factorize(series)
-    names = uniques if all(type(u) is str for u in uniques) else [str(u) for u in uniques]
+    values = uniques if all(type(u) is str for u in uniques) else [str(u) for u in uniques]
+    pattern = _NEEDS_TRIM + ("|[^\\x00-\\x7f]" if names else "")  # any non-ASCII text may need NFC or hide a Cf
     try:
-        flagged = np.flatnonzero(pc.match_substring_regex(pa.array(names, pa.string()), _NEEDS_TRIM)
+        flagged = np.flatnonzero(pc.match_substring_regex(pa.array(values, pa.string()), pattern)
                                  .to_numpy(zero_copy_only=False))
     except (pa.ArrowException, ValueError):
-        flagged = np.arange(len(names))
+        flagged = np.arange(len(values))
+    clean = clean_name if names else clean_text
     changed = False
+    written = list(values) if names and merged is not None else None
     for i in flagged:
-        cleaned = clean_text(names[i])
-        if cleaned != names[i]:
-            names[i] = cleaned
+        cleaned = clean(values[i])
+        if cleaned != values[i]:
+            values[i] = cleaned
             changed = True
     if codes.dtype not in _NARROW_CODES:
         codes = codes.astype(_CODE)  # a categorical's own codes stay as narrow as they are (no copy)
     if not changed:
-        return codes, names
-    codes2, uniq2 = pd.factorize(pd.Series(names, dtype=object), sort=False)
+        return codes, values
+    codes2, uniq2 = pd.factorize(pd.Series(values, dtype=object), sort=False)
+    if written is not None and len(uniq2) < len(values):
+        _look_alikes(written, values, codes, merged)
     return np.asarray(codes2, dtype=_CODE)[codes], [str(u) for u in uniq2]
 
 
-def _cleaned(series: pd.Series) -> pd.Series:
-    codes, uniques = _codes(series)
+def _look_alikes(written: list[str], cleaned: list[str], codes: np.ndarray,
+                 merged: list[tuple[str, list[tuple[str, int]]]]) -> None:
+    """Append to ``merged`` each name that two or more spellings (trimmed, as written) became."""
+    groups: dict[str, dict[str, list[int]]] = defaultdict(lambda: defaultdict(list))
+    for i, (w, c) in enumerate(zip(written, cleaned)):
+        groups[c][clean_text(w)].append(i)
+    rows = None
+    for name in sorted(groups):
+        spellings = groups[name]
+        if len(spellings) < 2:
+            continue
+        if rows is None:
+            rows = np.bincount(np.asarray(codes, dtype=np.int64), minlength=len(written))
+        merged.append((name, [(w, int(rows[idx].sum())) for w, idx in sorted(spellings.items())]))
+
+
+def _spelt(column: pd.Series, row: int, other: int) -> str:
+    """Words showing how two rows spell one name, when they spell it differently (look-alikes)."""
+    a, b = clean_text(str(column.iloc[row])), clean_text(str(column.iloc[other]))
+    return f"; written {visible(a)} here, {visible(b)} there" if a != b else ""
+
+
+def look_alike_findings(merged: list[tuple[str, list[tuple[str, int]]]], what: str) -> list[Finding]:
+    """One ``name-variants`` finding per name that look-alike spellings became, each shown by
+    :func:`visible` so that the spellings look different in the message."""
+    return [Finding("name-variants", f"{what} written {len(spellings)} ways that look alike: "
+                    + ", ".join(f"{visible(w)} ({n} rows)" for w, n in spellings)
+                    + f"; all read as {visible(name)} (Unicode NFC, invisible format characters removed)")
+            for name, spellings in merged]
+
+
+def merge_look_alikes(counts: dict[str, int], what: str) -> tuple[dict[str, int], list[Finding]]:
+    """Row counts by name (as written) added up by :func:`clean_name`, and the findings of
+    :func:`look_alike_findings` for the names that several spellings became."""
+    out: dict[str, int] = {}
+    spellings: dict[str, dict[str, int]] = defaultdict(dict)
+    for name, n in counts.items():
+        key = clean_name(name)
+        out[key] = out.get(key, 0) + n
+        trimmed = clean_text(name)
+        spellings[key][trimmed] = spellings[key].get(trimmed, 0) + n
+    merged = [(name, sorted(s.items())) for name, s in sorted(spellings.items()) if len(s) > 1]
+    return out, look_alike_findings(merged, what)
+
+
+def _cleaned(series: pd.Series, *, names: bool = False,
+             merged: list[tuple[str, list[tuple[str, int]]]] | None = None) -> pd.Series:
+    codes, uniques = _codes(series, names=names, merged=merged)
     out = _text(uniques, codes)
     out.index = series.index
     return out
 
 
-def parse_counts(series: pd.Series, *, positive: bool) -> tuple[pd.Series, np.ndarray]:
-    """Whole numbers (>= 1 when ``positive``, else >= 0) as Int64, and positions of bad values.
+#: Most copies of one card one deck row may hold. A hard bound, no setting: no deck of any card game
+#: holds a thousand copies of one card (rules.max_copies, a warning, is the game's own rule), so a
+#: larger number is a typo or a misplaced column; and with it, a deck's total of even millions of
+#: rows stays far inside every integer type the numbers pass through (no sum can wrap).
+QUANTITY_MAX = 1000
+#: Most wins, or losses, one deck may record: a million games per deck, so the sums over ten million
+#: decks (10**13) stay exact in int64 and in float64 (exact to 2**53).
+GAMES_MAX = 1_000_000
+_WHOLE = re.compile(r"[+]?\d+")
+
+
+def parse_counts(series: pd.Series, *, positive: bool, most: int) -> tuple[pd.Series, np.ndarray, np.ndarray]:
+    """Whole numbers (>= 1 when ``positive``, else >= 0, and at most ``most``) as Int64, positions
+    of bad values, and positions of whole numbers above ``most`` (missing in the result; no value
+    of any size or integer type wraps on the way).
 
     Empty cells become missing values without being bad (the caller decides
     whether a missing value is allowed).
@@ -178,31 +271,42 @@ def parse_counts(series: pd.Series, *, positive: bool) -> tuple[pd.Series, np.nd
     kind = series.dtype
     bad_format = np.array([], dtype=np.int64)
     if isinstance(kind, np.dtype) and kind.kind in "iu":  # numbers already (Parquet): one pass
-        plain = series.to_numpy().astype(np.int64, copy=False)
-        return (pd.Series(pd.arrays.IntegerArray(plain, np.zeros(n, dtype=bool))),
-                np.flatnonzero(plain < least).astype(np.int64))
+        raw = series.to_numpy()
+        over = raw > most  # compared in the column's own type: uint64 beyond int64 stays itself
+        plain = (np.where(over, 0, raw) if over.any() else raw).astype(np.int64, copy=False)
+        return (pd.Series(pd.arrays.IntegerArray(plain, over.copy())),
+                np.flatnonzero(plain < least).astype(np.int64), np.flatnonzero(over).astype(np.int64))
     if pd.api.types.is_integer_dtype(kind) and not pd.api.types.is_bool_dtype(kind):
-        values = pd.Series(series.to_numpy(), dtype="Int64")
+        raw = series.to_numpy(dtype=object, na_value=None)
+        over_mask = np.array([v is not None and int(v) > most for v in raw], dtype=bool)
+        values = pd.Series(pd.array([None if (v is None or o) else int(v) for v, o in zip(raw, over_mask)],
+                                    dtype="Int64"))
     elif pd.api.types.is_float_dtype(kind):
         arr = series.to_numpy(dtype=float, na_value=np.nan)
-        whole = np.isfinite(arr) & (np.floor(arr) == arr) & (np.abs(arr) < 2.0 ** 62)
-        values = pd.Series(pd.array(np.where(whole, arr, 0).astype(np.int64), dtype="Int64"))
-        values[~whole] = pd.NA
-        bad_format = np.flatnonzero(~whole & ~np.isnan(arr))
+        whole = np.isfinite(arr) & (np.floor(arr) == arr)
+        over_mask = whole & (arr > most)
+        fits = whole & ~over_mask & (arr >= -(2.0 ** 62))
+        values = pd.Series(pd.array(np.where(fits, arr, 0).astype(np.int64), dtype="Int64"))
+        values[~fits] = pd.NA
+        bad_format = np.flatnonzero(~fits & ~over_mask & ~np.isnan(arr))
     else:
         text = pd.Series(series.to_numpy(dtype=object), dtype="str").fillna("")
         try:
             values = pd.Series(text.astype("int64").to_numpy(), dtype="Int64")
+            over_mask = (values > most).to_numpy(dtype=bool, na_value=False)
+            if over_mask.any():
+                values[over_mask] = pd.NA
         except (ValueError, TypeError, OverflowError):
             stripped = text.str.strip()
-            ok = stripped.str.fullmatch(_INT.pattern).fillna(False).to_numpy(dtype=bool)
+            ok = stripped.str.fullmatch(_WHOLE.pattern).fillna(False).to_numpy(dtype=bool)
             empty = (stripped == "").to_numpy(dtype=bool)
-            values = pd.Series(pd.array([pd.NA] * n, dtype="Int64"))
-            if ok.any():
-                values[ok] = stripped[ok].map(int).to_numpy()
+            numbers = [int(v) if k else 0 for v, k in zip(stripped.tolist(), ok.tolist())]  # Python ints: any size
+            over_mask = np.array([k and v > most for v, k in zip(numbers, ok.tolist())], dtype=bool)
+            fits = ok & ~over_mask
+            values = pd.Series(pd.array([v if f else None for v, f in zip(numbers, fits.tolist())], dtype="Int64"))
             bad_format = np.flatnonzero(~ok & ~empty)
     low = np.flatnonzero((values < least).fillna(False).to_numpy(dtype=bool))
-    return values, np.union1d(bad_format, low).astype(np.int64)
+    return values, np.union1d(bad_format, low).astype(np.int64), np.flatnonzero(over_mask).astype(np.int64)
 
 
 def _distinct_codes(series: pd.Series) -> tuple[np.ndarray, list[str], np.ndarray] | None:
@@ -336,7 +440,7 @@ def _calendar(cfg: Config) -> list[tuple[str, dt.date, dt.date]]:
         if bounds[0] > bounds[1]:
             raise ConfigError(source, "seasons.calendar", f"entry {i} ({entry['name']!r}) ends before it starts",
                               "swap start and end")
-        out.append((str(entry["name"]), bounds[0], bounds[1]))
+        out.append((clean_name(str(entry["name"])), bounds[0], bounds[1]))
     if not out:
         raise ConfigError(source, "seasons.calendar", "is empty but seasons.source is 'calendar'",
                           'add [[seasons.calendar]] entries with name, start and end, or set seasons.source = "column"')
@@ -351,7 +455,8 @@ def _calendar(cfg: Config) -> list[tuple[str, dt.date, dt.date]]:
 def _parse_dates(series: pd.Series) -> tuple[pd.Series, np.ndarray, np.ndarray]:
     """Dates (NaT where empty or bad), positions of bad values, positions of empty ones.
 
-    Times with an offset are read in UTC, so mixed offsets never fail the parse.
+    A time with an offset (or Z) keeps its own calendar date: the offset is dropped, not applied
+    (2025-04-10T01:00+05:00 is 10 April), so mixed offsets never fail the parse either.
     A season's decks share a few hundred dates: each distinct text is parsed once.
     """
     values = _arrow_text(series)
@@ -366,10 +471,17 @@ def _parse_dates(series: pd.Series) -> tuple[pd.Series, np.ndarray, np.ndarray]:
             np.flatnonzero(is_empty[codes]))
 
 
+#: A date and time with a zone designator (Z or an offset): group 1 is the date and time as written.
+_ZONED = r"^(\d{4}-?\d{2}-?\d{2}[Tt ]\d{2}(?::?\d{2}(?::?\d{2}(?:[.,]\d+)?)?)?)\s*(?:[Zz]|[+-]\d{2}(?::?\d{2})?)$"
+
+
 def _parse_each_date(series: pd.Series) -> tuple[pd.Series, np.ndarray, np.ndarray]:
     """:func:`_parse_dates` of every row on its own."""
     text = pd.Series(series.to_numpy(dtype=object), dtype="str").fillna("").str.strip()
     empty = (text == "").to_numpy(dtype=bool)
+    # The calendar date as written counts, local to its own offset: 2025-04-10T01:00+05:00 is
+    # 10 April (in UTC it is still 9 April), so the offset is dropped, not applied.
+    text = text.str.replace(_ZONED, r"\1", regex=True)
     try:
         dates = pd.to_datetime(text.where(~empty), format="ISO8601", errors="coerce", utc=True).dt.tz_localize(None)
     except (ValueError, TypeError, OverflowError):
@@ -386,7 +498,7 @@ def _one_date(text: str):
 
 
 def _season_order(present: set[str], cfg: Config, calendar, first_date: dict[str, pd.Timestamp]) -> tuple[str, ...]:
-    order = list(cfg["seasons.order"])
+    order = [clean_name(s) for s in cfg["seasons.order"]]
     if order:
         missing = sorted(present - set(order), key=natural_key)
         if missing:
@@ -427,10 +539,10 @@ def _name_variants(names: list[str], counts: np.ndarray, known: dict[str, str] |
         for i in members:
             canonical[i] = winner
         if len(spellings) > 1:
-            listed = ", ".join(f"{s!r}" + (f" ({int(counts[names.index(s)])} rows)" if s in names else "")
+            listed = ", ".join(visible(s) + (f" ({int(counts[names.index(s)])} rows)" if s in names else "")
                                for s in spellings)
             findings.append(Finding("name-variants",
-                                    f"{what} written {len(spellings)} ways: {listed}; all read as {winner!r}"))
+                                    f"{what} written {len(spellings)} ways: {listed}; all read as {visible(winner)}"))
     return canonical, findings, unknown
 
 
@@ -507,7 +619,8 @@ def check_decks(decks: Table, cfg: Config, spellings: Spellings | None = None) -
     else:
         deck_id = _text(deck_names, deck_codes)
 
-    leader = _cleaned(frame["leader"])
+    merged_leaders: list = []
+    leader = _cleaned(frame["leader"], names=True, merged=merged_leaders)
     problems.flag(decks, np.flatnonzero((leader == "").to_numpy()), "deck has no leader", column="leader",
                   fix="fill in the deck's leader")
 
@@ -539,17 +652,22 @@ def check_decks(decks: Table, cfg: Config, spellings: Spellings | None = None) -
         if "season" not in frame:
             raise DataError(decks.file, f"missing column '{cfg['columns.season']}'", row=1, column=cfg["columns.season"],
                             fix="add a season column, set columns.season to its name, or use seasons.source = \"calendar\"")
-        season = _cleaned(frame["season"])
+        merged_seasons: list = []
+        season = _cleaned(frame["season"], names=True, merged=merged_seasons)
+        look_alike_seasons = look_alike_findings(merged_seasons, "season")
         problems.flag(decks, np.flatnonzero((season == "").to_numpy()), "deck has no season", column="season",
                       fix="fill in the deck's season")
 
     results = {}
     for column in ("wins", "losses"):
         if column in frame:
-            values, bad = parse_counts(frame[column], positive=False)
+            values, bad, over = parse_counts(frame[column], positive=False, most=GAMES_MAX)
             problems.flag(decks, bad, f"{column} is not a whole number of 0 or more", column=column,
                           values=_as_written(decks, frame[column].iloc[bad[:ERRORS_PER_PROBLEM]].to_numpy()),
                           fix="write a count like 3, or leave it empty")
+            problems.flag(decks, over, f"{column} is more than {GAMES_MAX:,} games, the most sitegen reads for one deck",
+                          column=column, values=_as_written(decks, frame[column].iloc[over[:ERRORS_PER_PROBLEM]].to_numpy()),
+                          fix=f"write the deck's {column} (at most {GAMES_MAX:,}); a larger number is a typo or a misplaced column")
             results[column] = values.reset_index(drop=True)
         else:
             results[column] = pd.Series(pd.array([pd.NA] * n_decks, dtype="Int64"))
@@ -566,6 +684,9 @@ def check_decks(decks: Table, cfg: Config, spellings: Spellings | None = None) -
     leader_codes, leader_names = _codes(leader)
     leader_canon, leader_findings, _ = _name_variants(
         leader_names, np.bincount(leader_codes, minlength=len(leader_names)), None, cfg["site.leader_word"])
+    leader_findings = look_alike_findings(merged_leaders, cfg["site.leader_word"]) + leader_findings
+    if source != "calendar" and spellings is None:
+        leader_findings = look_alike_seasons + leader_findings
     if spellings is not None:
         leader_canon = [spellings.leaders.get(variant_key(n), c) for n, c in zip(leader_names, leader_canon)]
     return DeckChecks(problems, frame, deck_codes, deck_names, deck_rank, deck_id, season, dates, calendar, results,
@@ -593,7 +714,8 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     # -- long-form table
     cframe = cards.frame
     cdeck_codes, cdeck_names, same_decks = _row_deck_codes(cframe["deck_id"], frame["deck_id"], deck_codes, deck_names)
-    card_codes, card_names = _codes(cframe["card"])
+    merged_cards: list = []
+    card_codes, card_names = _codes(cframe["card"], names=True, merged=merged_cards)
     empty_card = [i for i, name in enumerate(card_names) if not name]
     if empty_card:
         problems.flag(cards, np.flatnonzero(np.isin(card_codes, empty_card)), "card name is empty", column="card",
@@ -607,14 +729,19 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         # Whole numbers already (Parquet, as narrow as the reader found them): no parsing, no copy.
         quantity = raw_quantity.to_numpy()
         bad = np.flatnonzero(quantity < 1)
+        over = np.flatnonzero(quantity > QUANTITY_MAX)  # compared in the column's type (uint64 too)
     else:
-        parsed, bad = parse_counts(raw_quantity, positive=True)
-        bad = np.union1d(bad, np.flatnonzero(parsed.isna().to_numpy()))
+        parsed, bad, over = parse_counts(raw_quantity, positive=True, most=QUANTITY_MAX)
+        bad = np.setdiff1d(bad, over)
+        bad = np.setdiff1d(np.union1d(bad, np.flatnonzero(parsed.isna().to_numpy())), over)
         quantity = parsed.to_numpy(dtype=np.int64, na_value=0)
         del parsed
     problems.flag(cards, bad, "quantity is not a whole number of 1 or more", column="quantity",
                   values=_as_written(cards, cframe["quantity"].iloc[bad[:ERRORS_PER_PROBLEM]].to_numpy()),
                   fix="write the number of copies, like 2 (delete rows of cards the deck does not play)")
+    problems.flag(cards, over, f"quantity is more than {QUANTITY_MAX:,} copies, the most sitegen reads for one card in one deck",
+                  column="quantity", values=_as_written(cards, cframe["quantity"].iloc[over[:ERRORS_PER_PROBLEM]].to_numpy()),
+                  fix=f"write the copies of the card in this deck (at most {QUANTITY_MAX:,}); a larger number is a typo or a misplaced column")
 
     # Decks known to one table and not the other, both directions.
     if same_decks:
@@ -671,7 +798,8 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         earlier_rows = [r for _, r in cards.where(np.array([earlier[int(p)] for p in shown]), "card")]
         problems.flag(cards, later, "the same deck and card on two rows", column="card",
                       values=[card_names[card_codes[p]] for p in shown],
-                      notes=[f" (deck {cdeck_names[cdeck_codes[p]]!r}, also row {r})" for p, r in zip(shown, earlier_rows)],
+                      notes=[f" (deck {cdeck_names[cdeck_codes[p]]!r}, also row {r}{_spelt(cframe['card'], p, earlier[int(p)])})"
+                             for p, r in zip(shown, earlier_rows)],
                       fix="keep one row per deck and card, with the total quantity")
 
     # Card names: one spelling per card, and known to the card table if there is one.
@@ -683,6 +811,7 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
     counts = _counts(card_codes, len(card_names))
     canonical, name_findings, unknown = _name_variants(card_names, counts, known, "card name")
     if spellings is None:
+        findings.extend(look_alike_findings(merged_cards, "card name"))
         findings.extend(name_findings)
     else:
         canonical = [spellings.cards.get(variant_key(n), c) for n, c in zip(card_names, canonical)]
@@ -693,8 +822,9 @@ def build(decks: Table, cards: Table, card_table: Table | None, cfg: Config,
         choices = list(known.values()) if known else []
         values = [card_names[card_codes[p]] for p in pos[:ERRORS_PER_PROBLEM]]
         hints = [difflib.get_close_matches(v, choices, n=1) for v in values]
-        problems.flag(cards, pos, f"card is not in the card table {card_table.file}", column="card", values=values,
-                      notes=[f" (did you mean {h[0]!r}?)" if h else "" for h in hints],
+        problems.flag(cards, pos, f"card is not in the card table {card_table.file}", column="card",
+                      values=values, notes=[f" (did you mean {visible(h[0])}?{told_apart(v, h[0])})" if h else ""
+                                                              for v, h in zip(values, hints)],
                       fix="add the card to the card table, or correct its spelling")
 
     if spellings is None:
@@ -760,7 +890,11 @@ def narrow_counts(values: np.ndarray) -> np.ndarray:
     """Copies (whole numbers of 1 or more) in the narrowest signed integer type that holds the
     largest: int8 for the usual 1 to 127. Tens of millions of rows are an eighth of int64's size
     wherever they are cut, copied or gathered later."""
-    return values.astype(narrowest_int(0, int(values.max()) if values.size else 0) or np.int64, copy=False)
+    low, high = (int(values.min()), int(values.max())) if values.size else (0, 0)
+    kind = narrowest_int(low, high)
+    if kind is None:  # never from read data (quantities are bounded by QUANTITY_MAX): refuse rather than wrap
+        raise OverflowError(f"copies from {low} to {high} fit no signed 64-bit integer")
+    return values.astype(kind, copy=False)
 
 
 def _counts(codes: np.ndarray, size: int) -> np.ndarray:
@@ -806,7 +940,8 @@ def _text(uniques: list[str], codes: np.ndarray) -> pd.Series:
 def _card_info(table: Table, cfg: Config, problems: _Problems) -> tuple[pd.DataFrame, dict[str, str]]:
     """The card table, card and type first, and its names by variant key."""
     frame = table.frame
-    names = _cleaned(frame["card"])
+    names = _cleaned(frame["card"], names=True)
+    written = frame["card"].reset_index(drop=True)
     empty = np.flatnonzero((names == "").to_numpy())
     problems.flag(table, empty, "card name is empty", column="card", fix="fill in the card's name, or delete the row")
     keys = names.map(variant_key)
@@ -816,9 +951,11 @@ def _card_info(table: Table, cfg: Config, problems: _Problems) -> tuple[pd.DataF
         for i, k in enumerate(keys.tolist()):
             first.setdefault(k, i)
         shown = dup[:ERRORS_PER_PROBLEM]
-        problems.flag(table, dup, "card listed twice (names differ at most by case or spacing)", column="card",
-                      values=[names.iloc[p] for p in shown],
-                      notes=[f" (also row {table.where(np.array([first[keys.iloc[p]]]))[0][1]})" for p in shown],
+        problems.flag(table, dup, "card listed twice (names differ at most by case, spacing or look-alike "
+                      "characters: Unicode NFC, invisible format characters)", column="card",
+                      values=[clean_text(str(written.iloc[p])) for p in shown],
+                      notes=[f" (also row {table.where(np.array([first[keys.iloc[p]]]))[0][1]}: "
+                             f"{visible(clean_text(str(written.iloc[first[keys.iloc[p]]])))})" for p in shown],
                       fix="keep one row per card")
     known = {}
     for name, key in zip(names.tolist(), keys.tolist()):

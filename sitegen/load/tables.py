@@ -14,6 +14,7 @@ import codecs
 import csv
 import mmap
 from dataclasses import dataclass, field
+from functools import partial
 from pathlib import Path
 
 import numpy as np
@@ -105,9 +106,16 @@ def read_table(
     """
     _check_file(path, setting)
     optional = optional or {}
+    separated = ""
     if _suffix(path) in CSV_SUFFIXES:
-        header = _csv_header(path)
-        reader = _read_csv
+        header, delimiter = _csv_header(path)
+        reader = partial(_read_csv, delimiter=delimiter)
+        separated = f"; read as {OTHER_DELIMITERS[delimiter]}-separated" if delimiter != "," else ""
+        if len(header) == 1 and not separated:
+            odd = sorted({c for c in header[0] if c in "|:^~"})
+            if odd:
+                separated = (f"; its header is one column holding {', '.join(repr(c) for c in odd)}: columns are "
+                             "separated by commas, semicolons or tabs only")
     else:
         header = _parquet_header(path)
         reader = _read_parquet
@@ -116,7 +124,7 @@ def read_table(
     if missing:
         shown = ", ".join(f"'{h}'" for h in present) or "none"
         errors = [
-            DataError(path, f"missing column '{col}' (the file has {shown})", row=1, column=col,
+            DataError(path, f"missing column '{col}' (the file has {shown}{separated})", row=1, column=col,
                       fix=f"add the column or set columns.{_setting_of(logical)} to the name the file uses")
             for logical, col in missing
         ]
@@ -217,7 +225,14 @@ def _find_bad_utf8(path: Path) -> DataError | None:
             offset += len(chunk)
 
 
-def _csv_header(path: Path) -> list[str]:
+#: Separators read besides the comma, found from the header row: what spreadsheets save in locales
+#: whose decimal mark is a comma (semicolon), and tab-separated exports.
+OTHER_DELIMITERS = {";": "semicolon", "\t": "tab"}
+
+
+def _csv_header(path: Path) -> tuple[list[str], str]:
+    """The header row's column names and the file's separator: a comma, or a semicolon or tab when
+    the header holds no comma but one of those (the header row alone decides)."""
     head = _sniff(path)
     # The sniffed prefix may end inside a character: not an error yet.
     try:
@@ -225,14 +240,14 @@ def _csv_header(path: Path) -> list[str]:
     except UnicodeDecodeError:
         raise (_find_bad_utf8(path) or DataError(path, "not valid UTF-8 text", fix="save the file as UTF-8")) from None
     csv.field_size_limit(_FIELD_LIMIT)
+    delimiter = ","
     try:
-        with open(path, encoding="utf-8-sig", newline="") as f:
-            reader = csv.reader(f)
-            for record in reader:
-                if record:
-                    break
-            else:
-                record = []
+        record = _first_record(path, delimiter)
+        if len(record) == 1:
+            found = [d for d in OTHER_DELIMITERS if d in record[0]]
+            if found:
+                delimiter = max(found, key=record[0].count)
+                record = _first_record(path, delimiter)
     except UnicodeDecodeError:
         raise (_find_bad_utf8(path) or DataError(path, "not valid UTF-8 text", fix="save the file as UTF-8")) from None
     except csv.Error as exc:
@@ -248,7 +263,16 @@ def _csv_header(path: Path) -> list[str]:
             raise DataError(path, f"column name '{key}' appears twice in the header (columns {seen[key]} and {i})",
                             row=1, column=key, fix="give every column its own name")
         seen[key] = i
-    return record
+    return record, delimiter
+
+
+def _first_record(path: Path, delimiter: str) -> list[str]:
+    """The first non-blank record of a CSV file."""
+    with open(path, encoding="utf-8-sig", newline="") as f:
+        for record in csv.reader(f, delimiter=delimiter):
+            if record:
+                return record
+    return []
 
 
 #: Arrow type of a dictionary-encoded text column.
@@ -256,7 +280,8 @@ _DICTIONARY = pa.dictionary(pa.int32(), pa.string())
 
 
 def _read_csv(path: Path, wanted: dict[str, str], numeric: frozenset[str],
-              categorical: frozenset[str] = frozenset(), guess: dict[str, pd.Series] | None = None) -> pd.DataFrame:
+              categorical: frozenset[str] = frozenset(), guess: dict[str, pd.Series] | None = None,
+              delimiter: str = ",") -> pd.DataFrame:
     raw_names = list(dict.fromkeys(wanted.values()))
     # Numbers are parsed by pyarrow when every cell is a plain whole number or empty; otherwise the
     # file is read again as text, and the rows to blame are found where they can be named.
@@ -267,12 +292,12 @@ def _read_csv(path: Path, wanted: dict[str, str], numeric: frozenset[str],
         # file is most of the parse; a count beyond them (or any other refusal) tries 64-bit, then text.
         for kind in ((pa.int16(), pa.int64()) if whole else ()):
             try:
-                table = _arrow_csv(path, raw_names, categorical, frozenset(whole), kind)
+                table = _arrow_csv(path, raw_names, categorical, frozenset(whole), kind, delimiter)
                 break
             except (pa.ArrowInvalid, pa.ArrowException, ValueError, OSError):
                 continue
         if table is None:
-            table = _arrow_csv(path, raw_names, categorical, frozenset())
+            table = _arrow_csv(path, raw_names, categorical, frozenset(), delimiter=delimiter)
         for name in whole:
             if name in table.column_names and table.column(name).null_count:
                 # Empty cells: back to text, so they are told apart from bad values where rows are checked.
@@ -293,12 +318,12 @@ def _read_csv(path: Path, wanted: dict[str, str], numeric: frozenset[str],
         del table, columns
         pa.default_memory_pool().release_unused()
     except (pa.ArrowInvalid, pa.ArrowException, ValueError, OSError) as exc:
-        frame = _read_csv_slow(path, raw_names, str(exc))
+        frame = _read_csv_slow(path, raw_names, str(exc), delimiter)
     return pd.DataFrame({logical: frame[raw] for logical, raw in wanted.items()}, copy=False)
 
 
 def _arrow_csv(path: Path, raw_names: list[str], categorical: frozenset[str], whole: frozenset[str],
-               number: pa.DataType = pa.int64()) -> pa.Table:
+               number: pa.DataType = pa.int64(), delimiter: str = ",") -> pa.Table:
     def kind(name: str) -> pa.DataType:
         return _DICTIONARY if name in categorical else number if name in whole else pa.string()
 
@@ -306,7 +331,7 @@ def _arrow_csv(path: Path, raw_names: list[str], categorical: frozenset[str], wh
         path,
         # Without any quote character no value can hold a newline, and pyarrow may then
         # split the file into blocks at any newline (several times faster on big files).
-        parse_options=pacsv.ParseOptions(newlines_in_values=_has_quote(path)),
+        parse_options=pacsv.ParseOptions(delimiter=delimiter, newlines_in_values=_has_quote(path)),
         convert_options=pacsv.ConvertOptions(
             include_columns=raw_names,
             column_types={name: kind(name) for name in raw_names},
@@ -324,16 +349,16 @@ def _has_quote(path: Path) -> bool:
         return True
 
 
-def _read_csv_slow(path: Path, raw_names: list[str], first_complaint: str) -> pd.DataFrame:
+def _read_csv_slow(path: Path, raw_names: list[str], first_complaint: str, delimiter: str = ",") -> pd.DataFrame:
     """After pyarrow refused the file: blame a row, else try the pandas C engine."""
     bad = _find_bad_utf8(path)
     if bad is not None:
         raise bad
-    problem = _diagnose_csv(path)
+    problem = _diagnose_csv(path, delimiter)
     if problem is not None:
         raise problem
     try:
-        frame = pd.read_csv(path, engine="c", usecols=raw_names, dtype=str, keep_default_na=False,
+        frame = pd.read_csv(path, engine="c", sep=delimiter, usecols=raw_names, dtype=str, keep_default_na=False,
                             na_filter=False, encoding="utf-8-sig")
     except Exception as exc:  # any parser failure becomes a located message, never a traceback
         raise DataError(path, f"cannot be read as CSV: {first_complaint.splitlines()[0] if first_complaint else exc}",
@@ -341,13 +366,13 @@ def _read_csv_slow(path: Path, raw_names: list[str], first_complaint: str) -> pd
     return frame
 
 
-def _diagnose_csv(path: Path) -> DataError | None:
+def _diagnose_csv(path: Path, delimiter: str = ",") -> DataError | None:
     """Find the first record whose field count differs from the header's."""
     csv.field_size_limit(_FIELD_LIMIT)
     reader = None
     try:
         with open(path, encoding="utf-8-sig", newline="") as f:
-            reader = csv.reader(f, strict=False)
+            reader = csv.reader(f, strict=False, delimiter=delimiter)
             width = None
             for number, record in enumerate(reader, start=1):
                 if not record:

@@ -14,6 +14,7 @@ import dataclasses
 import hashlib
 import json
 import math
+import unicodedata
 from collections import defaultdict
 from dataclasses import dataclass, fields
 from pathlib import Path
@@ -24,6 +25,7 @@ import numpy as np
 
 from ..analysis.embed import stratified_sample
 from ..analysis.stats import wilson
+from ..check import RULE_KINDS
 from ..config import Config
 from ..errors import RenderError
 from ..model import ALL_LEADERS, Archetype, DeckData, Finding, History, PartitionResult
@@ -83,6 +85,21 @@ def _pct(value: float | None, digits: int = 1) -> str:
 PACKAGED_PREFIX = "sitegen"
 
 
+#: Bidirectional classes (Unicode UAX #9) that can turn the text around them: right-to-left
+#: letters and digits, embeddings, overrides and isolates.
+_BIDI_TURNING = frozenset({"R", "AL", "AN", "RLE", "RLO", "LRE", "LRO", "PDF", "RLI", "LRI", "FSI", "PDI"})
+
+
+def isolate(text: object) -> str:
+    """Text wrapped in FIRST STRONG ISOLATE ... POP DIRECTIONAL ISOLATE (U+2068, U+2069) when it
+    holds right-to-left letters or direction controls, so that it cannot reorder the text around
+    it (a page's <title>, where no markup can isolate); other text is left as it is."""
+    text = str(text)
+    if any(unicodedata.bidirectional(c) in _BIDI_TURNING for c in text):
+        return f"\u2068{text}\u2069"
+    return text
+
+
 def make_environment(templates_dirs: Sequence[Path]) -> jinja2.Environment:
     """A strict, autoescaping environment over the template folders, first wins.
 
@@ -99,6 +116,7 @@ def make_environment(templates_dirs: Sequence[Path]) -> jinja2.Environment:
                              trim_blocks=True, lstrip_blocks=True, keep_trailing_newline=True, auto_reload=False)
     env.filters["pct"] = _pct
     env.filters["fixed"] = exports.fixed
+    env.filters["isolate"] = isolate
     return env
 
 
@@ -171,6 +189,13 @@ class _Site:
         self.words = cfg["site.leader_word_plural"]
         data = site.data
         present = {r.season for r in site.results}
+        # A season whose every deck was left out (rules.exclude_breakers) has no results, yet keeps its
+        # page, which says why and lists the decks left out.
+        self.emptied: set[str] = set()
+        if data.excluded:
+            d = data.decks
+            self.emptied = set(d.loc[d["deck_id"].isin(data.excluded), "season"].astype(str)) - present
+            present = present | self.emptied
         self.seasons: list[str] = [s for s in data.seasons if s in present] + sorted(present - set(data.seasons))
         rank = {s: i for i, s in enumerate(self.seasons)}
         self.results = sorted(site.results, key=lambda r: (rank[r.season], r.leader))
@@ -303,8 +328,9 @@ class Renderer:
         if charts and "vega" in urls and "charts_js" in urls:
             scripts += [urls["vega"], urls["charts_js"]]
         nav = [P.Link(text="Overview", href="index.html")]
-        if s.seasons:
-            nav.append(P.Link(text="Latest season", href=s.season_href(s.seasons[-1])))
+        analysed = [x for x in s.seasons if x not in s.emptied]
+        if analysed:
+            nav.append(P.Link(text="Latest season", href=s.season_href(analysed[-1])))
         nav.append(P.Link(text="How it works", href="method.html"))
         root = _rel_root(path) if root is None else root
         # An icon of the site's own, so browsers do not ask the host for a missing /favicon.ico.
@@ -440,7 +466,7 @@ class Renderer:
     # -- pages
     def front(self) -> None:
         s = self.s
-        latest = s.seasons[-1] if s.seasons else None
+        latest = next((x for x in reversed(s.seasons) if x not in s.emptied), None)
         blocks = tuple(self._block(r, with_charts=False, with_shares=True) for r in s.results if r.season == latest)
         blocks = tuple(sorted(blocks, key=lambda b: (-b.decks, b.name)))
         seasons = tuple(P.SeasonRow(season=s.season_link(x), archetype=None, leader=None, decks=s.decks_in_season[x],
@@ -467,7 +493,23 @@ class Renderer:
             **base, season=season, decks=s.decks_in_season[season], leaders=blocks,
             previous=s.season_link(s.seasons[i - 1]) if i > 0 else None,
             next=s.season_link(s.seasons[i + 1]) if i + 1 < len(s.seasons) else None,
-            notes=self._notes_for(season, None), has_results=s.has_results, min_games=s.min_games))
+            notes=self._emptied_notes(season) + self._notes_for(season, None), has_results=s.has_results,
+            min_games=s.min_games))
+
+    def _emptied_notes(self, season: str) -> tuple[str, ...]:
+        """Why a season whose every deck was left out has no archetypes, and its rule breakers."""
+        if season not in self.s.emptied:
+            return ()
+        notes = ["Every deck of this season breaks a deck-building rule, and rules.exclude_breakers leaves "
+                 "such decks out of the analysis, so the season has no archetypes."]
+        left_out = self._excluded(season, ALL_LEADERS)
+        if left_out:
+            notes.append(left_out)
+        broken = [f.message for f in self.site.data.findings if f.season == season and f.kind in RULE_KINDS]
+        notes += broken[:50]
+        if len(broken) > 50:
+            notes.append(f"and {len(broken) - 50} more rules broken (the build report lists every one).")
+        return tuple(notes)
 
     def _link_text(self, a: Archetype) -> str:
         h = self.site.history
