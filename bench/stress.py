@@ -821,6 +821,9 @@ DEV_GRID: tuple[Cell, ...] = (
     Cell("dev-tiny-and-big", StressSettings("power", 8, n_tail=3, n_tiny=2, n_variants=2, variant_keep=0.75,
                                             play_rate=(0.6, 0.98), neutral_core=0.25, brew_share=0.08,
                                             brew_kind="random", sizes=(90, 8000), seed=105)),
+    Cell("dev-variant-family", StressSettings("power", 5, n_tail=1, n_variants=3, variant_keep=0.8,
+                                              play_rate=(0.6, 0.9), brew_share=0.05, partial_share=0.3,
+                                              sizes=(400, 3000), seed=111)),
 )
 
 #: Seed of the draw of the evaluation grid's settings, and its number of cells.
@@ -916,8 +919,9 @@ TARGETS = {"coverage": 0.98, "brews_in_other": 0.85, "ari_300": 0.97, "k_exact_3
 
 def target_figures(scores: Sequence[CellScore], least_decks: int = 300) -> dict[str, float | None]:
     """The figures the targets are stated on: the worst cell's coverage and brews in other, the
-    worst ARI and the share of k exact among partitions of at least ``least_decks`` decks, and the
-    signature share pooled over every found archetype."""
+    worst ARI among cells whose every partition holds at least ``least_decks`` decks, the share of
+    k exact among partitions of at least ``least_decks`` decks, and the signature share pooled over
+    every found archetype."""
     def worst(metric):
         vals = [v for c in scores if (v := c.figure(metric)) is not None]
         return min(vals) if vals else None
@@ -927,7 +931,8 @@ def target_figures(scores: Sequence[CellScore], least_decks: int = 300) -> dict[
     return {
         "coverage": worst("coverage"),
         "brews_in_other": worst("brews_in_other"),
-        "ari_300": min((p.ari for p in big), default=None),
+        "ari_300": min((c.figure("ari") for c in scores
+                        if c.parts and all(p.n_decks >= least_decks for p in c.parts)), default=None),
         "k_exact_300": float(np.mean([p.k_exact for p in big])) if big else None,
         "signature": ok / total if total else None,
     }
@@ -936,7 +941,7 @@ def target_figures(scores: Sequence[CellScore], least_decks: int = 300) -> dict[
 def format_targets(scores: Sequence[CellScore]) -> str:
     """One line per target: the figure, the target and whether it is met."""
     words = {"coverage": "coverage, worst cell", "brews_in_other": "brews in other, worst cell",
-             "ari_300": "ARI, worst partition of >= 300 decks", "k_exact_300": "k exact, partitions of >= 300 decks",
+             "ari_300": "ARI, worst cell of >= 300 decks a partition", "k_exact_300": "k exact, partitions of >= 300 decks",
              "signature": "signature, all found archetypes"}
     lines = []
     for key, value in target_figures(scores).items():

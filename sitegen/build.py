@@ -88,6 +88,13 @@ def templates_dirs(cfg: Config) -> tuple[Path, ...]:
     return tuple(dirs)
 
 
+def retired_settings(cfg) -> tuple[Finding, ...]:
+    """A warning for each retired setting the config still gives (they are read no more)."""
+    return tuple(Finding("setting-retired",
+                         f"setting '{key}' is no longer used: {config_mod.RETIRED[key]}; remove it from the config")
+                 for key in cfg.retired)
+
+
 def build(
     config_path: Path | str | None = None,
     *,
@@ -171,7 +178,8 @@ def build(
                     progress.say(f"  {pages.reused:,} page(s) unchanged, taken from the last build")
         with progress.stage("writing the site"):
             written = write_site(out, files)
-        warnings = tuple(data.findings) + tuple(override_findings) + tuple(render_findings)
+        warnings = (tuple(data.findings) + tuple(override_findings) + tuple(render_findings)
+                    + retired_settings(cfg))
         report = BuildReport(
             output=out,
             decks=len(data.decks),

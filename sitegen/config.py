@@ -83,13 +83,11 @@ SETTINGS: tuple[Setting, ...] = (
     _S("rules.exclude_breakers", False, bool, "Leave decks that break a rule out of the analysis (they are always listed)."),
     # -- analysis
     _S("analysis.by_leader", True, bool, "Analyse each season and leader apart; false pools all leaders of a season."),
-    _S("analysis.k_min", 2, int, "Fewest archetypes tried per partition.", minimum=1),
-    _S("analysis.k_max", 12, int, "Most archetypes tried per partition.", minimum=1),
+    _S("analysis.k_max", 12, int, "Most archetypes per partition; beyond it the most alike are joined.", minimum=1),
     _S("analysis.pinned_k", [], list, "Fixed archetype counts, each {season, leader, k}."),
     _S("analysis.min_decks", 30, int, "Partitions with fewer decks are not clustered.", minimum=2),
-    _S("analysis.min_share", 0.02, float, "Clusters below this share of their partition join the other decks.", minimum=0, maximum=1),
+    _S("analysis.min_share", 0.02, float, "Groups below this share of their partition are not archetypes; their decks go to the nearest archetype or the other decks.", minimum=0, maximum=1),
     _S("analysis.seed", 0, int, "Random seed for sampling, k-means and maps, from 0 to 2147483647.", minimum=0, maximum=2**31 - 1),
-    _S("analysis.silhouette_sample", 3000, int, "Decks sampled per partition to score each k by silhouette.", minimum=10),
     _S("analysis.inclusion_min_share", 0.05, float, "Cards played by fewer of an archetype's decks are left out of its card table.", minimum=0, maximum=1),
     _S("analysis.name_cards", 2, int, "Signature cards used in an archetype's default name.", minimum=1, maximum=5),
     _S("analysis.map_points", 1500, int, "Most decks drawn per map (sampled per archetype); the map is the costliest step of the analysis.", minimum=10),
@@ -97,8 +95,6 @@ SETTINGS: tuple[Setting, ...] = (
     _S("analysis.svd_dims", 32, int, "Dimensions the deck features are reduced to (truncated SVD) before clustering.", minimum=2),
     _S("analysis.kmeans_starts", 4, int, "k-means starts per k; the best (least inertia) is kept.", minimum=1),
     _S("analysis.fit_sample", 20000, int, "Most decks k-means is fitted on per partition; every deck is then assigned to its nearest centre.", minimum=100),
-    _S("analysis.split_silhouette", 0.3, float, "Least silhouette inside a cluster for a 2- or 3-way split of it to be kept; above 1 turns splits off.", minimum=0),
-    _S("analysis.min_signature", 0.6, float, "Least mean lead (share inside minus share outside) of a cluster's 3 most typical cards for it to be an archetype, and of each piece of a split over its sibling pieces.", minimum=0, maximum=1),
     _S("analysis.link_threshold", 0.5, float, "Least profile similarity for an archetype to continue from one season to the next.", minimum=0, maximum=1),
     _S("analysis.workers", 0, int, "Worker processes for partition analyses; 0 uses every core.", minimum=0),
     _S("analysis.scheduler", "", str, "Address of a Dask scheduler to send partition analyses to; empty runs them here."),
@@ -109,6 +105,14 @@ SETTINGS: tuple[Setting, ...] = (
 )
 
 SETTINGS_BY_KEY: dict[str, Setting] = {s.key: s for s in SETTINGS}
+
+#: Settings older versions read and this one does not: accepted, with a warning that says why.
+RETIRED: dict[str, str] = {
+    "analysis.k_min": "archetypes are no longer found by trying each k from k_min to k_max",
+    "analysis.silhouette_sample": "the number of archetypes is no longer chosen by silhouette",
+    "analysis.split_silhouette": "groups are no longer split by silhouette",
+    "analysis.min_signature": "a group is no longer held to a lead of its 3 best cards",
+}
 SECTIONS: tuple[str, ...] = tuple(dict.fromkeys(s.section for s in SETTINGS))
 
 
@@ -120,6 +124,8 @@ class Config:
     root: Path
     source: Path | None = None
     _set: frozenset[str] = field(default_factory=frozenset)
+    #: Retired settings the file still gives (see :data:`RETIRED`).
+    retired: tuple[str, ...] = ()
 
     def __getitem__(self, key: str) -> Any:
         return self.values[key]
@@ -210,9 +216,6 @@ def _check_structured(values: dict[str, Any], file: str) -> None:
                 or not isinstance(entry.get("k"), int) or entry["k"] < 1):
             raise ConfigError(file, "analysis.pinned_k", f"entry {i} must be a table with season, leader and a whole k >= 1, got {entry!r}",
                               'write [[analysis.pinned_k]] season = "S1" leader = "NAME" k = 4')
-    if values["analysis.k_min"] > values["analysis.k_max"]:
-        raise ConfigError(file, "analysis.k_min", f"{values['analysis.k_min']} is larger than analysis.k_max {values['analysis.k_max']}",
-                          "make k_min at most k_max")
     for key in ("columns.card_extra", "seasons.order"):
         for item in values[key]:
             if not isinstance(item, str):
@@ -224,6 +227,7 @@ def from_dict(raw: dict[str, Any], *, root: Path, source: Path | str = "<config>
     file = str(source)
     values = {s.key: _copy_default(s.default) for s in SETTINGS}
     given: set[str] = set()
+    retired: list[str] = []
     for section, table in raw.items():
         if section not in SECTIONS:
             raise ConfigError(file, section, "unknown section", _suggest(section, list(SECTIONS)))
@@ -232,12 +236,15 @@ def from_dict(raw: dict[str, Any], *, root: Path, source: Path | str = "<config>
         for name, value in table.items():
             key = f"{section}.{name}"
             setting = SETTINGS_BY_KEY.get(key)
+            if key in RETIRED:
+                retired.append(key)
+                continue
             if setting is None:
                 raise ConfigError(file, key, "unknown setting", _suggest(key, list(SETTINGS_BY_KEY)))
             values[key] = _check_value(setting, value, file)
             given.add(key)
     _check_structured(values, file)
-    return Config(values, root, Path(source) if source != "<config>" else None, frozenset(given))
+    return Config(values, root, Path(source) if source != "<config>" else None, frozenset(given), tuple(retired))
 
 
 def load(path: Path | str) -> Config:

@@ -198,6 +198,26 @@ class Archetype:
     #: True when at least one member deck has a win or loss count (wins and
     #: losses are 0 both when nothing was reported and when all lost nothing).
     has_results: bool = False
+    #: Mean Jaccard index of the archetype's decks with its best match when the
+    #: rule is run again on random halves of the partition (None: not measured).
+    stability: float | None = None
+
+
+@dataclass(frozen=True)
+class Placement:
+    """The rule a partition's decks were placed by, to place any decklist the same way.
+
+    A deck's TF-IDF row is its cards' ``idf`` weights (presence, not copies)
+    scaled to unit length; it goes to the archetype ``keys[i]`` whose unit
+    centre ``centres[i]`` (over ``cards``) it is most similar to, and is an
+    other deck when that similarity is below ``cuts[i]``.
+    """
+
+    cards: tuple[str, ...]
+    idf: np.ndarray
+    keys: tuple[str, ...]
+    centres: np.ndarray
+    cuts: np.ndarray
 
 
 @dataclass(frozen=True)
@@ -257,6 +277,7 @@ class PartitionResult:
     fingerprint: str = ""
     map_sample: MapSample | None = None
     rows_key: str = ""
+    placement: Placement | None = None
 
     @property
     def groups(self) -> tuple[Archetype, ...]:

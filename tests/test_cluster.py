@@ -1,10 +1,11 @@
-"""Clustering: silhouette and k-means against scikit-learn, Iris, planted variants, determinism."""
+"""Candidate groups: HDBSCAN and k-means against scikit-learn, Iris, determinism."""
 from __future__ import annotations
 
 import numpy as np
 import pytest
-from sklearn.cluster import KMeans
-from sklearn.metrics import adjusted_rand_score, silhouette_score
+from scipy.spatial.distance import cdist
+from sklearn.cluster import HDBSCAN, KMeans
+from sklearn.metrics import adjusted_rand_score
 
 from sitegen.analysis import cluster, features
 
@@ -27,110 +28,76 @@ def _blobs(seed: int, n: int = 300, d: int = 8, k: int = 4, spread: float = 0.35
     return features.l2_rows(x), truth
 
 
-def _iris() -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _iris() -> tuple[np.ndarray, np.ndarray]:
     from vega_datasets import data  # ships its Iris table locally, no download
 
     iris = data.iris()
     raw = iris[["sepalLength", "sepalWidth", "petalLength", "petalWidth"]].to_numpy(dtype=float)
-    return raw, features.l2_rows(raw), iris["species"].to_numpy()
+    return features.l2_rows(raw), iris["species"].to_numpy()
 
 
-def test_silhouette_equals_scikit_learn_including_singletons():
-    # Reference: sklearn.metrics.silhouette_score(metric="cosine"); a cluster of one scores 0 there too.
-    x, truth = _blobs(0)
-    truth = truth.copy()
-    truth[7] = 9  # a singleton cluster
-    scorer = cluster.CosineSilhouette(x)
-    assert scorer.score(truth) == pytest.approx(silhouette_score(x, truth, metric="cosine"), abs=1e-12)
+def test_dense_groups_keep_scikit_learns_hdbscan_labels():
+    # Reference: sklearn.cluster.HDBSCAN with the same parameters; its non-noise rows keep their label,
+    # and noise rows go to the nearest group's centre (scipy's cdist as the reference distance).
+    x, _ = _blobs(1, n=400)
+    ours = cluster.dense_groups(x, min_share=0.02, seed=0)
+    ref = HDBSCAN(min_cluster_size=8, min_samples=cluster.DENSITY_NEIGHBOURS, cluster_selection_method="leaf",
+                  copy=True).fit(x).labels_
+    assert ref.max() >= 1  # the planted blobs are found as several groups
+    kept = ref >= 0
+    np.testing.assert_array_equal(ours[kept], ref[kept])
+    centres = np.vstack([x[ref == c].mean(axis=0) for c in range(ref.max() + 1)])
+    centres = features.l2_rows(centres)
+    np.testing.assert_array_equal(ours[~kept], cdist(x[~kept], centres).argmin(axis=1))
 
 
-def test_silhouette_rejects_one_cluster():
-    x, _ = _blobs(1, n=20)
-    with pytest.raises(ValueError, match="silhouette needs 2 to n-1 clusters"):
-        cluster.CosineSilhouette(x).score(np.zeros(20, dtype=int))
+def test_dense_groups_find_iris_species():
+    # Iris (vega-datasets' copy of the public dataset): setosa stands apart; the groups agree with species.
+    x, species = _iris()
+    labels = cluster.dense_groups(x, min_share=0.1, seed=0)
+    assert len(np.unique(labels)) >= 2
+    assert adjusted_rand_score(species, labels) > 0.5
 
 
-def test_curve_equals_scikit_learn_on_the_silhouette_sample():
-    # Each curve point: sklearn KMeans (same seed and starts) scored by sklearn's silhouette_score
-    # on the same fixed-seed sample of rows.
-    x, _ = _blobs(2, n=400)
-    found = cluster.choose_k(x, k_min=2, k_max=6, seed=5, n_init=3, silhouette_sample=150)
-    pos = cluster.sample_rows(len(x), 150, 5 + 1)
-    assert len(pos) == 150
-    for k, s in found.curve:
-        labels = KMeans(n_clusters=k, n_init=3, random_state=5, algorithm="lloyd").fit(x).labels_
-        assert s == pytest.approx(silhouette_score(x[pos], labels[pos], metric="cosine"), abs=1e-6)
+def test_dense_groups_on_too_few_rows_or_noise_only_is_one_group():
+    x, _ = _blobs(2, n=6)
+    assert (cluster.dense_groups(x, min_share=0.02, seed=0) == 0).all()
 
 
-def test_kmeans_inertia_no_worse_than_scikit_learn():
-    # Same seeds and starts: our pinned-k clustering must fit at least as tightly as sklearn KMeans.
-    x, _ = _blobs(3, n=500, k=5, spread=0.6)
-    for k in (3, 5, 7):
-        found = cluster.choose_k(x, k_min=2, k_max=8, seed=11, n_init=4, pinned=k)
-        ours = float(((x - found.centres[found.labels]) ** 2).sum())
-        reference = KMeans(n_clusters=k, n_init=4, random_state=11).fit(x).inertia_
-        assert ours <= reference * (1 + 1e-9)
+def test_pinned_groups_equal_scikit_learn_kmeans():
+    # Reference: sklearn.cluster.KMeans (Lloyd, same seed and starts) on the same rows; every row to its nearest centre.
+    x, _ = _blobs(3)
+    ours = cluster.pinned_groups(x, 4, seed=5, n_init=3, fit_sample=10_000)
+    km = KMeans(n_clusters=4, n_init=3, random_state=5, algorithm="lloyd").fit(x)
+    np.testing.assert_array_equal(ours, km.labels_)
 
 
-def test_iris_curve_equals_scikit_learn():
-    # Iris (vega_datasets) on unit rows: silhouette curve for k = 2..6 equals sklearn's KMeans + silhouette_score.
-    _, x, _ = _iris()
-    found = cluster.choose_k(x, k_min=2, k_max=6, seed=0, n_init=4)
-    assert [k for k, _ in found.curve] == [2, 3, 4, 5, 6]
-    for k, s in found.curve:
-        labels = KMeans(n_clusters=k, n_init=4, random_state=0, algorithm="lloyd").fit(x).labels_
-        assert s == pytest.approx(silhouette_score(x, labels, metric="cosine"), abs=1e-6)
+def test_pinned_groups_fit_on_a_sample_and_assign_everyone():
+    x, _ = _blobs(4, n=600)
+    labels = cluster.pinned_groups(x, 3, seed=0, n_init=2, fit_sample=200)
+    assert labels.shape == (600,) and set(np.unique(labels)) == {0, 1, 2}
 
 
-def test_iris_three_clusters_match_species_as_well_as_scikit_learn():
-    # ARI against the species: our k=3 on cosine geometry vs sklearn KMeans(3) on the raw measurements.
-    raw, x, species = _iris()
-    ours = cluster.choose_k(x, k_min=2, k_max=6, seed=0, n_init=4, pinned=3)
-    reference = KMeans(n_clusters=3, n_init=4, random_state=0).fit(raw).labels_
-    assert adjusted_rand_score(species, ours.labels) >= adjusted_rand_score(species, reference)
+def test_pinned_k_above_the_distinct_rows_is_capped():
+    x = features.l2_rows(np.array([[1.0, 0.0]] * 10 + [[0.0, 1.0]] * 10))
+    assert set(cluster.pinned_groups(x, 6, seed=0, n_init=2, fit_sample=100)) == {0, 1}
 
 
-def test_second_look_splits_a_planted_variant():
-    # Planted: group 0 has a close variant (group 3 = group 0 shifted a little). Silhouette merges them,
-    # the second look splits them when the caller accepts the pieces.
-    rng = np.random.default_rng(4)
-    centres = rng.normal(size=(3, 10)) * 3
-    centres = np.vstack([centres, centres[0] + rng.normal(size=10) * 0.9])
-    truth = rng.integers(0, 4, size=800)
-    x = features.l2_rows(centres[truth] + 0.25 * rng.normal(size=(800, 10)))
-    plain = cluster.choose_k(x, k_min=2, k_max=8, seed=0, split_silhouette=2.0)
-    split = cluster.choose_k(x, k_min=2, k_max=8, seed=0, split_silhouette=0.3, min_piece=20)
-    refused = cluster.choose_k(x, k_min=2, k_max=8, seed=0, split_silhouette=0.3, min_piece=20, accept=lambda pieces: False)
-    assert plain.k == 3 and refused.k == 3
-    assert split.k == 4 and split.k_silhouette == 3 and "split one cluster in 2" in split.reason
-    assert adjusted_rand_score(truth, split.labels) > 0.95 > adjusted_rand_score(truth, plain.labels)
-
-
-def test_pinned_k_is_kept_and_said():
+def test_nearest_equals_scipy_cdist_argmin():
+    # Reference: scipy.spatial.distance.cdist (Euclidean), first index on ties as numpy's argmin.
     x, _ = _blobs(5)
-    found = cluster.choose_k(x, k_min=2, k_max=8, seed=0, pinned=6)
-    assert found.k == 6 and len(np.unique(found.labels)) == 6
-    assert "k=6 was pinned" in found.reason
+    centres = x[[0, 10, 20]]
+    np.testing.assert_array_equal(cluster.nearest(x, centres), cdist(x, centres).argmin(axis=1))
 
 
-def test_large_input_is_fitted_on_a_sample_and_all_rows_assigned():
-    # Fit on 500 of 3000 rows; every row still gets the nearest of the fitted centres.
-    x, truth = _blobs(6, n=3000, k=4, spread=0.2)
-    found = cluster.choose_k(x, k_min=2, k_max=6, seed=0, fit_sample=500, silhouette_sample=300)
-    assert found.k == 4
-    np.testing.assert_array_equal(found.labels, cluster.nearest(x, found.centres))
-    assert adjusted_rand_score(truth, found.labels) > 0.99
+def test_same_input_same_groups():
+    x, _ = _blobs(6, n=500)
+    np.testing.assert_array_equal(cluster.dense_groups(x, min_share=0.02, seed=3),
+                                  cluster.dense_groups(x, min_share=0.02, seed=3))
 
 
-def test_same_input_same_result():
-    x, _ = _blobs(7, n=600)
-    a = cluster.choose_k(x, k_min=2, k_max=8, seed=3)
-    b = cluster.choose_k(x, k_min=2, k_max=8, seed=3)
-    assert a.labels.tobytes() == b.labels.tobytes() and a.curve == b.curve and a.reason == b.reason
-
-
-def test_identical_rows_make_one_cluster():
-    # Fewer distinct decks than k_min leaves nothing to compare; say so rather than fail.
-    x = features.l2_rows(np.ones((40, 3)))
-    found = cluster.choose_k(x, k_min=2, k_max=5, seed=0)
-    assert found.k == 1 and set(found.labels) == {0} and "one cluster" in found.reason
+def test_sample_rows_is_sorted_and_fixed():
+    a = cluster.sample_rows(1000, 50, 7)
+    assert (np.diff(a) > 0).all() and len(a) == 50
+    np.testing.assert_array_equal(a, cluster.sample_rows(1000, 50, 7))
+    np.testing.assert_array_equal(cluster.sample_rows(10, 50, 7), np.arange(10))

@@ -59,8 +59,15 @@ def test_out_of_range_and_choices(tmp_path):
         config.load(_write(tmp_path, "[rules]\nmax_copies = 0\n"))
     with pytest.raises(ConfigError, match="'seasons.source': 'weekly' is not one of 'column', 'calendar'"):
         config.load(_write(tmp_path, '[seasons]\nsource = "weekly"\n'))
-    with pytest.raises(ConfigError, match="larger than analysis.k_max"):
-        config.load(_write(tmp_path, "[analysis]\nk_min = 9\nk_max = 4\n"))
+
+
+def test_retired_settings_still_load_and_are_named(tmp_path):
+    # Settings of older versions are accepted (a site.toml keeps working) and named for a warning.
+    cfg = config.load(_write(tmp_path, "[analysis]\nk_min = 9\nmin_signature = 0.5\nk_max = 4\n"))
+    assert cfg.retired == ("analysis.k_min", "analysis.min_signature") and cfg["analysis.k_max"] == 4
+    from sitegen.build import retired_settings
+    assert [f.kind for f in retired_settings(cfg)] == ["setting-retired"] * 2
+    assert "analysis.k_min" in retired_settings(cfg)[0].message
 
 
 def test_calendar_entries_need_name_start_end(tmp_path):

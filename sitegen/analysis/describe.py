@@ -32,21 +32,23 @@ def _rates(present: sp.csr_matrix, members: np.ndarray, against: np.ndarray | No
 
 
 def signature_cards(present: sp.csr_matrix, members: np.ndarray, cards: Sequence[str], top: int = 8) -> tuple[SignatureCard, ...]:
-    """The ``top`` cards most typical of the members: score = rate_in - rate_out.
+    """The ``top`` cards most typical of the members, ranked by rate_in x (rate_in - rate_out).
 
     ``rate_in`` is the share of member decks playing the card, ``rate_out``
-    the share of the partition's other decks. The difference is bounded
-    (-1..1), needs no smoothing, and ranks a card every member plays and few
-    others do first; staples every archetype plays score near 0. Only cards
-    with a positive score are kept; ties go to the higher rate_in, then by
-    card name.
+    the share of the partition's other decks; the card's score (kept with
+    it) is the lead ``rate_in - rate_out``. The lead alone ranks a flex card
+    half the members play and nobody else does above a core card nearly all
+    play that a close variant shares; weighing the lead by ``rate_in`` puts
+    the cards nearly every member plays first. Staples every archetype plays
+    lead by about 0. Only cards with a positive lead are kept; ties go to the
+    higher rate_in, then by card name.
     """
     rate_in, rate_out = _rates(present, members)
     score = rate_in - rate_out
-    order = np.lexsort((np.arange(len(cards)), -rate_in, -score))
+    order = np.lexsort((np.arange(len(cards)), -rate_in, -(rate_in * score)))
     out = []
-    for i in order[:top]:
-        if score[i] <= 0:
+    for i in order:
+        if len(out) == top or score[i] <= 0:
             break
         out.append(SignatureCard(cards[i], round(float(score[i]), 6), round(float(rate_in[i]), 6), round(float(rate_out[i]), 6)))
     return tuple(out)

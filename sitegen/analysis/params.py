@@ -20,13 +20,11 @@ class AnalysisParams:
     field is the setting ``analysis.<field name>``, with its declared default.
     """
 
-    k_min: int = _default("k_min")
     k_max: int = _default("k_max")
     pinned_k: tuple[tuple[str, str | None, int], ...] = ()
     min_decks: int = _default("min_decks")
     min_share: float = _default("min_share")
     seed: int = _default("seed")
-    silhouette_sample: int = _default("silhouette_sample")
     inclusion_min_share: float = _default("inclusion_min_share")
     name_cards: int = _default("name_cards")
     map_points: int = _default("map_points")
@@ -34,8 +32,6 @@ class AnalysisParams:
     svd_dims: int = _default("svd_dims")
     kmeans_starts: int = _default("kmeans_starts")
     fit_sample: int = _default("fit_sample")
-    split_silhouette: float = _default("split_silhouette")
-    min_signature: float = _default("min_signature")
     map_iterations: int = _default("map_iterations")
 
     @classmethod

@@ -15,9 +15,9 @@ import numpy as np
 import pandas as pd
 from threadpoolctl import threadpool_limits
 
-from ..model import OTHER_KEY, Archetype, MapLayout, MapSample, PartitionInput, PartitionResult
+from ..model import OTHER_KEY, Archetype, MapLayout, MapSample, PartitionInput, PartitionResult, Placement
 from ..slugs import SlugSet, slugify
-from . import cluster, describe, embed, features
+from . import cluster, describe, embed, features, membership, stability
 from .params import AnalysisParams
 
 ASSIGNMENT_COLUMNS = ("deck_id", "archetype", "distance", "x", "y")
@@ -64,47 +64,35 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
     with np.errstate(invalid="ignore", divide="ignore"):  # identical decks: zero variance is expected
         rows = features.reduce(weights, params.svd_dims, params.seed, params.fit_sample)
     least = max(1, math.ceil(params.min_share * n - 1e-9))
-    found = cluster.choose_k(
-        rows, k_min=params.k_min, k_max=params.k_max, seed=params.seed, n_init=params.kmeans_starts,
-        silhouette_sample=params.silhouette_sample, fit_sample=params.fit_sample,
-        pinned=params.pinned(part.season, part.leader), split_silhouette=params.split_silhouette,
-        min_piece=least, accept=lambda pieces: _distinct(present, pieces, params.min_signature),
-    )
-
-    # Clusters big enough are archetypes, keyed a1, a2... by size (ties: smallest deck id).
+    found = _find(rows, present, weights, counts, least, part, params)
     labels = found.labels
-    clusters = [np.flatnonzero(labels == c) for c in range(found.k)]
-    clusters = [m for m in clusters if len(m)]
-    # Too small, or a loose pile with no cards of its own (one-off decks): the other decks.
-    kept = [len(m) >= least and describe.best_score(present, m) >= params.min_signature for m in clusters]
-    big = sorted((m for m, ok in zip(clusters, kept) if ok), key=lambda m: (-len(m), m[0]))
-    small = [m for m, ok in zip(clusters, kept) if not ok and len(m) < least]
-    loose = [m for m, ok in zip(clusters, kept) if not ok and len(m) >= least]
+    k = len(found.centres)
+
+    # Archetypes keyed a1, a2... by size (ties: smallest deck id); decks placed nowhere are the other decks.
+    groups = [np.flatnonzero(labels == c) for c in range(k)]
+    order = sorted(range(k), key=lambda c: (-len(groups[c]), groups[c][0]))
     keys = np.empty(n, dtype=object)
     archetypes = []
-    for i, members in enumerate(big, start=1):
-        keys[members] = f"a{i}"
-        archetypes.append(ctx.group(f"a{i}", members))
+    centres = found.centres[order] if k else found.centres
+    cuts = found.cuts[order] if k else found.cuts
+    steady = _stability(rows, present, weights, counts, labels, part, params) if k else np.zeros(0)
+    for i, c in enumerate(order, start=1):
+        keys[groups[c]] = f"a{i}"
+        archetypes.append(replace(ctx.group(f"a{i}", groups[c]), stability=round(float(steady[c]), 3)))
+    rest = np.flatnonzero(labels < 0)
     other = None
-    reason = found.reason
-    if small or loose:
-        rest = np.sort(np.concatenate(small + loose))
+    if len(rest):
         keys[rest] = OTHER_KEY
         other = ctx.group(OTHER_KEY, rest, is_other=True)
-        if small:
-            reason += (f"; {_count(len(small), 'cluster')} below {params.min_share:.0%} of the decks "
-                       f"({least} decks) joined the other decks")
-        if loose:
-            reason += (f"; {_count(len(loose), 'cluster')} without cards of {'its' if len(loose) == 1 else 'their'} own "
-                       f"(top 3 cards lead by less than {params.min_signature:.2f}) joined the other decks")
+    reason = _k_reason(found, k, len(rest), n, least, params, params.pinned(part.season, part.leader))
+    placement = Placement(cards=tuple(cards), idf=features.idf(counts), keys=tuple(f"a{i}" for i in range(1, k + 1)),
+                          centres=np.ascontiguousarray(centres), cuts=np.asarray(cuts, dtype=np.float64))
     archetypes = _unique_slugs(archetypes, other)
     if other is not None:
         archetypes, other = archetypes[:-1], archetypes[-1]
 
-    dist = np.zeros(n)
-    for g in archetypes + ([other] if other is not None else []):
-        members = np.flatnonzero(keys == g.key)
-        dist[members] = ctx.distances(members)
+    # Distance: 1 - cosine similarity to the nearest archetype centre (the one a deck is placed by).
+    dist = np.clip(1.0 - found.similarity, 0.0, 2.0) if k else ctx.distances(np.arange(n))
 
     # The map itself is drawn later (draw_map), from the leader's previous map where there is one.
     xy = np.full((n, 2), np.nan)
@@ -124,9 +112,9 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
 
     return PartitionResult(
         season=part.season, leader=part.leader, n_decks=n, status="clustered", reason="",
-        chosen_k=found.k, silhouette=found.curve, k_reason=reason, archetypes=tuple(archetypes),
+        chosen_k=len(archetypes), silhouette=(), k_reason=reason, archetypes=tuple(archetypes),
         other=other, assignments=_assignments(ids, keys.tolist(), dist, xy), map_points=map_points,
-        inclusion=inclusion, fingerprint=part.fingerprint, map_sample=sample,
+        inclusion=inclusion, fingerprint=part.fingerprint, map_sample=sample, placement=placement,
     )
 
 
@@ -192,17 +180,67 @@ class _Context:
         )
 
 
+def _find(rows, present, weights, counts, least, part, params) -> membership.Membership:
+    """Candidate groups (dense regions, or k-means at a pinned k), then the rule of :mod:`.membership`."""
+    return _rule(rows, present, weights, features.idf(counts), least, part, params)
+
+
+def _rule(rows, present, weights, idf, least, part, params) -> membership.Membership:
+    """The archetype-finding rule on any set of a partition's decks (the whole, or a half for stability)."""
+    pinned = params.pinned(part.season, part.leader)
+    if pinned is not None:
+        candidates = cluster.pinned_groups(rows, pinned, seed=params.seed, n_init=params.kmeans_starts,
+                                           fit_sample=params.fit_sample)
+    else:
+        candidates = cluster.dense_groups(rows, min_share=params.min_share, seed=params.seed)
+    return membership.settle(present, weights, idf, candidates, least=least, seed=params.seed,
+                             merge=pinned is None, rows=rows, most=params.k_max)
+
+
+def _stability(rows, present, weights, counts, labels, part, params) -> np.ndarray:
+    """Each found group's stability (:mod:`.stability`): the same rule rerun on random halves."""
+    idf = features.idf(counts)
+
+    def rerun(picked: np.ndarray) -> np.ndarray:
+        least = max(1, math.ceil(params.min_share * len(picked) - 1e-9))
+        return _rule(rows[picked], present[picked], weights[picked], idf, least, part, params).labels
+
+    return stability.stability(labels, rerun, seed=params.seed)
+
+
+def _k_reason(found: membership.Membership, k: int, n_other: int, n: int, least: int, params,
+              pinned: int | None) -> str:
+    """How the number of archetypes came about, in plain words with the numbers of this partition."""
+    if pinned is not None:
+        words = [f"k-means with the {pinned} groups pinned in the settings (analysis.pinned_k); "
+                 f"{_count(k, 'archetype')} kept"]
+    else:
+        words = [f"{_count(k, 'archetype')}: dense groups of decks, each with cards of its own"]
+    if found.merged:
+        words.append(f"{_count(found.merged, 'pair')} of groups without cards of their own against each other "
+                     f"{'was' if found.merged == 1 else 'were'} joined")
+    if found.split:
+        words.append(f"{_count(found.split, 'group')} holding two sets of decks with cards of their own "
+                     f"{'was' if found.split == 1 else 'were'} cut in two")
+    if found.dropped_small:
+        words.append(f"{_count(found.dropped_small, 'group')} with fewer than {least} decks "
+                     f"({params.min_share:.0%} of the partition, setting analysis.min_share) "
+                     f"{'was' if found.dropped_small == 1 else 'were'} given up")
+    if found.dropped_loose:
+        words.append(f"{_count(found.dropped_loose, 'group')} whose decks were no more alike than random decks "
+                     f"{'was' if found.dropped_loose == 1 else 'were'} given up")
+    text = "; ".join(words) + "."
+    if n_other:
+        text += (f" {_count(n_other, 'deck')} of {n:,} ({n_other / n:.0%}) fit no archetype: each is no closer "
+                 f"to its nearest archetype than 99 in 100 random decks of this partition would be")
+        if found.dropped_small or found.dropped_loose:
+            text += ", among them decks of the groups given up"
+        text += "."
+    return text
+
+
 def _count(n: int, word: str) -> str:
     return f"{n} {word}" if n == 1 else f"{n} {word}s"
-
-
-def _distinct(present, pieces: list[np.ndarray], least: float) -> bool:
-    """True when every piece of a proposed split has cards of its own, compared with its sibling pieces."""
-    for i, piece in enumerate(pieces):
-        siblings = np.sort(np.concatenate([p for j, p in enumerate(pieces) if j != i]))
-        if describe.best_score(present, np.sort(piece), siblings) < least:
-            return False
-    return True
 
 
 def _unique_slugs(archetypes: list[Archetype], other: Archetype | None) -> list[Archetype]:

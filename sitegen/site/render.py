@@ -687,7 +687,7 @@ class Renderer:
 
     def method(self) -> None:
         cfg = self.site.cfg
-        keys = ("analysis.by_leader", "analysis.k_min", "analysis.k_max", "analysis.min_decks", "analysis.min_share",
+        keys = ("analysis.by_leader", "analysis.k_max", "analysis.min_decks", "analysis.min_share",
                 "analysis.inclusion_min_share", "analysis.map_points", "analysis.link_threshold", "trends.min_games",
                 "analysis.seed")
         settings = tuple((k, str(cfg[k]).lower() if isinstance(cfg[k], bool) else str(cfg[k])) for k in keys)

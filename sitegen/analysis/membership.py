@@ -1,0 +1,414 @@
+"""Which decks belong to which archetype, and which to none: the rule every deck is held to.
+
+Candidate groups come from :mod:`.cluster`; this module decides what is an
+archetype and what is an other deck, in the TF-IDF space the exports measure
+distances in:
+
+- **Centres** are the unit mean direction of a group's TF-IDF rows; a deck is
+  scored by its cosine similarity to each centre and goes to the most similar.
+- **Random decks of the same leader** are the yardstick: each is a real deck
+  of the partition whose staples (cards at least half the decks of every group
+  play) are kept and whose other cards are swapped for cards drawn at random
+  from the partition's pool. A centre's *cut* is the similarity that only 1 in
+  100 of those random decks reaches. A deck no more similar to its nearest
+  centre than that cut is an other deck: it looks like a random pile to every
+  archetype.
+- **A group is an archetype** when, after its random-looking decks leave, it
+  still holds at least ``least`` decks, and its typical member is similar to the
+  rest of the group (similarity to the centre of the *other* members, so a pile
+  of one-offs cannot lean on itself) beyond the cut. Failing groups give their
+  decks to the next nearest archetype (or to the other decks by the same rule).
+- **Two groups are two archetypes** only when each has a card of its own
+  against the other: played by at least half of its decks and by at most a
+  fifth of the other's. A close variant passes (it dropped some of its parent's
+  cards and added its own); two halves of one archetype cut along flex cards
+  do not, and are merged.
+
+The same centres and cuts are stored with the results, so a decklist from
+outside the data can be placed by exactly the build's rule.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.stats import fisher_exact
+
+#: Random decks drawn per partition for the cut.
+NULL_DECKS = 1000
+#: Share of random decks allowed above a centre's cut.
+NULL_QUANTILE = 0.99
+#: A card of one's own: played by at least this share of the group...
+OWN_IN = 0.5
+#: ...and by at most this share of the group it is told apart from.
+OWN_OUT = 0.2
+#: Own cards of each side tried as a pair.
+OWN_TRIED = 3
+#: Two cards exclude each other when Yule's Q of playing them is at most this.
+EXCLUSION = -0.8
+#: Or at most this, when so few decks playing both would happen by chance less often than
+#: EXCLUSION_P (Fisher's exact test, one-sided): odd cards a large group plays now and then
+#: blur a clear exclusion, while chance picks the most opposed of many flex cards.
+EXCLUSION_LOOSE = -0.5
+EXCLUSION_P = 1e-6
+#: Staples: cards played by at least this share of the decks of every group.
+STAPLE_SHARE = 0.5
+
+
+@dataclass(frozen=True)
+class Membership:
+    """The rule as settled: ``labels`` (group 0..k-1 per deck, -1 for other
+    decks), ``centres`` (k x cards, unit rows), ``cuts`` (k similarities),
+    ``similarity`` (each deck's similarity to its nearest centre), and counts
+    for the page: ``far`` decks left as random-looking, ``dropped_small`` and
+    ``dropped_loose`` groups given up, ``merged`` pairs joined."""
+
+    labels: np.ndarray
+    centres: np.ndarray
+    cuts: np.ndarray
+    similarity: np.ndarray
+    far: int = 0
+    dropped_small: int = 0
+    dropped_loose: int = 0
+    merged: int = 0
+    split: int = 0
+
+
+def unit_rows(matrix: np.ndarray) -> np.ndarray:
+    """Dense rows scaled to unit length (zero rows stay zero)."""
+    norms = np.linalg.norm(matrix, axis=1, keepdims=True)
+    norms[norms == 0] = 1.0
+    return matrix / norms
+
+
+def centres_of(weights: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
+    """The unit mean direction of each group's rows (k x cards); an empty group is a zero row."""
+    n = weights.shape[0]
+    keep = (labels >= 0) & (labels < k)
+    onehot = sp.csr_matrix((np.ones(int(keep.sum())), (labels[keep], np.flatnonzero(keep))), shape=(k, n))
+    return unit_rows(np.asarray((onehot @ weights).todense()))
+
+
+def similarities(weights: sp.csr_matrix, centres: np.ndarray) -> np.ndarray:
+    """Cosine similarity of every row to every centre (rows and centres have unit length)."""
+    if centres.shape[0] == 0:
+        return np.zeros((weights.shape[0], 0))
+    return np.asarray(weights @ centres.T)
+
+
+def rates(present: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
+    """Share of each group's decks playing each card (k x cards)."""
+    n = present.shape[0]
+    keep = (labels >= 0) & (labels < k)
+    onehot = sp.csr_matrix((np.ones(int(keep.sum())), (labels[keep], np.flatnonzero(keep))), shape=(k, n))
+    counts = np.asarray((onehot @ present).todense())
+    sizes = np.bincount(labels[keep], minlength=k).astype(np.float64)
+    return counts / np.maximum(sizes, 1.0)[:, None]
+
+
+def distinct(present: sp.csr_matrix, a: np.ndarray, b: np.ndarray, rate_a: np.ndarray | None = None,
+             rate_b: np.ndarray | None = None, *, strict: bool = False) -> bool:
+    """True when decks ``a`` and ``b`` are two archetypes, not one cut in two (see the module notes).
+
+    Each side needs a card of its own: played by at least :data:`OWN_IN` of
+    its decks and at most :data:`OWN_OUT` of the other's. That is all two
+    dense regions found apart need to stay apart. A cut proposed by k-means
+    inside one group (``strict``) must also show that the two cards exclude
+    each other across both sides (Yule's Q of the 2x2 table of playing one
+    and the other at most :data:`EXCLUSION`): a variant drops cards of its
+    parent for cards of its own, while k-means readily cuts one archetype in
+    two along flex cards that its decks play independently.
+    """
+    if rate_a is None:
+        rate_a = np.asarray(present[a].mean(axis=0)).ravel()
+    if rate_b is None:
+        rate_b = np.asarray(present[b].mean(axis=0)).ravel()
+    own_a = np.flatnonzero((rate_a >= OWN_IN) & (rate_b <= OWN_OUT))
+    own_b = np.flatnonzero((rate_b >= OWN_IN) & (rate_a <= OWN_OUT))
+    if len(own_a) == 0 or len(own_b) == 0:
+        return False
+    if not strict:
+        return True
+    own_a = own_a[np.argsort(-(rate_a - rate_b)[own_a], kind="stable")][:OWN_TRIED]
+    own_b = own_b[np.argsort(-(rate_b - rate_a)[own_b], kind="stable")][:OWN_TRIED]
+    both = present[np.concatenate([a, b])]
+    x = both[:, own_a].toarray() > 0
+    y = both[:, own_b].toarray() > 0
+    together = x.T.astype(np.float64) @ y  # decks playing both
+    nx = x.sum(axis=0)[:, None]
+    ny = y.sum(axis=0)[None, :]
+    only_x = nx - together
+    only_y = ny - together
+    neither = x.shape[0] - together - only_x - only_y
+    q = yules_q(together, only_x, only_y, neither)
+    if (q <= EXCLUSION).any():
+        return True
+    for i, j in zip(*np.nonzero(q <= EXCLUSION_LOOSE)):
+        table = [[together[i, j], only_x[i, j]], [only_y[i, j], neither[i, j]]]
+        if fisher_exact(table, alternative="less").pvalue < EXCLUSION_P:
+            return True
+    return False
+
+
+def yules_q(both, only_x, only_y, neither):
+    """Yule's Q of 2x2 tables (ad - bc) / (ad + bc); 0 where ad + bc is 0. -1: the two never meet."""
+    ad = np.asarray(both, dtype=np.float64) * neither
+    bc = np.asarray(only_x, dtype=np.float64) * only_y
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(ad + bc > 0, (ad - bc) / np.where(ad + bc > 0, ad + bc, 1.0), 0.0)
+
+
+def null_rows(present: sp.csr_matrix, idf: np.ndarray, staples: np.ndarray, n_null: int, seed: int) -> sp.csr_matrix:
+    """TF-IDF rows (unit length) of random decks of this partition (see the module notes).
+
+    Each random deck starts from a real deck drawn at random: its staples are
+    kept, and each of its other cards is replaced by a card drawn without
+    replacement from the partition's other cards, uniformly.
+    """
+    n, m = present.shape
+    rng = np.random.default_rng(seed)
+    played = np.bincount(present.indices, minlength=m) > 0
+    pool = np.flatnonzero(played & ~staples)
+    if n == 0 or len(pool) == 0:
+        return sp.csr_matrix((0, m))
+    picked = rng.integers(0, n, size=n_null)
+    lengths = np.diff(present.indptr)
+    rows, cols = [], []
+    for i, r in enumerate(picked):
+        mine = present.indices[present.indptr[r]:present.indptr[r + 1]]
+        kept = mine[staples[mine]]
+        swap = min(int(lengths[r]) - len(kept), len(pool))
+        fresh = pool[rng.choice(len(pool), size=swap, replace=False)] if swap else np.zeros(0, dtype=np.intp)
+        chosen = np.concatenate([kept, fresh])
+        rows.append(np.full(len(chosen), i))
+        cols.append(chosen)
+    rows_a = np.concatenate(rows) if rows else np.zeros(0, dtype=np.intp)
+    cols_a = np.concatenate(cols) if cols else np.zeros(0, dtype=np.intp)
+    null = sp.csr_matrix((idf[cols_a], (rows_a, cols_a)), shape=(n_null, m))
+    norms = np.sqrt(np.asarray(null.multiply(null).sum(axis=1)).ravel())
+    norms[norms == 0] = 1.0
+    return sp.csr_matrix(sp.diags(1.0 / norms) @ null)
+
+
+def cuts_for(null: sp.csr_matrix, centres: np.ndarray) -> np.ndarray:
+    """Each centre's cut: the similarity to it that only 1 in 100 random decks reaches."""
+    if centres.shape[0] == 0:
+        return np.zeros(0)
+    if null.shape[0] == 0:
+        return np.zeros(centres.shape[0])
+    # Each deck is held to its nearest of k centres, so it has k chances to pass: 1 in 100 over all of them.
+    level = 1.0 - (1.0 - NULL_QUANTILE) / centres.shape[0]
+    return np.quantile(similarities(null, centres), level, axis=0)
+
+
+def loo_similarity(weights: sp.csr_matrix, members: np.ndarray) -> np.ndarray:
+    """Each member's similarity to the mean direction of the *other* members (unit rows)."""
+    if len(members) < 2:
+        return np.zeros(len(members))
+    sub = weights[members]
+    total = np.asarray(sub.sum(axis=0)).ravel()
+    dots = np.asarray(sub @ total).ravel()
+    own = np.asarray(sub.multiply(sub).sum(axis=1)).ravel()
+    rest = np.sqrt(np.maximum(total @ total - 2.0 * dots + own, 1e-12))
+    return (dots - own) / rest
+
+
+def merge_alike(present: sp.csr_matrix, weights: sp.csr_matrix, labels: np.ndarray) -> tuple[np.ndarray, int]:
+    """Join groups that have no card of their own against each other, most similar pair first."""
+    labels = labels.copy()
+    merged = 0
+    while True:
+        keys = [c for c in np.unique(labels) if c >= 0]
+        if len(keys) < 2:
+            return labels, merged
+        k = int(max(keys)) + 1
+        share = rates(present, labels, k)
+        centres = centres_of(weights, labels, k)
+        members = {c: np.flatnonzero(labels == c) for c in keys}
+        best = None
+        for i, a in enumerate(keys):
+            for b in keys[i + 1:]:
+                if distinct(present, members[a], members[b], share[a], share[b], strict=True):
+                    continue
+                sim = float(centres[a] @ centres[b])
+                if best is None or sim > best[0]:
+                    best = (sim, a, b)
+        if best is None:
+            return labels, merged
+        labels[labels == best[2]] = best[1]
+        merged += 1
+
+
+def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labels: np.ndarray, *,
+           least: int, seed: int, merge: bool = True, rows: np.ndarray | None = None,
+           most: int | None = None) -> Membership:
+    """From candidate labels (0..k-1, -1 for none) to the rule every deck is held to.
+
+    Until nothing changes: every deck goes to its nearest live centre and is
+    an other deck below that centre's cut; groups with fewer than
+    ``least`` decks inside their cut, or whose typical member is no closer to
+    the rest than a random deck, are given up; then groups without a card of
+    their own against another are merged (unless ``merge`` is off, for a
+    pinned k), judged on the decks inside their cuts only. The centres
+    returned are the ones the final labels were assigned by.
+    """
+    n = present.shape[0]
+    labels = _compact(labels)
+    merged = dropped_small = dropped_loose = 0
+    split = 0
+    tried: set[bytes] = set()
+    for _ in range(64):
+        labels, small, loose = _prune(present, weights, idf, labels, least, seed)
+        dropped_small += small
+        dropped_loose += loose
+        if not merge:
+            break
+        joined, count = merge_alike(present, weights, labels) if labels.max(initial=-1) >= 1 else (labels, 0)
+        if count:
+            merged += count
+            labels = _compact(joined)
+            continue
+        if most is not None and labels.max(initial=-1) + 1 > most:
+            labels = _compact(_join_closest(weights, labels))
+            merged += 1
+            continue
+        if rows is None or (most is not None and labels.max(initial=-1) + 1 >= most):
+            break
+        cut = _split_one(present, rows, labels, least, seed, tried)
+        if cut is None:
+            break
+        labels = cut
+        split += 1
+    k = int(labels.max(initial=-1)) + 1
+    if k == 0:
+        return Membership(np.full(n, -1), np.zeros((0, weights.shape[1])), np.zeros(0), np.zeros(n), int(n),
+                          dropped_small, dropped_loose, merged, split)
+    # Final: centres from the groups' members; every deck placed by exactly these centres and cuts.
+    centres = centres_of(weights, labels, k)
+    sims = similarities(weights, centres)
+    near = np.argmax(sims, axis=1)
+    sim = sims[np.arange(n), near]
+    cuts = cuts_for(null_rows(present, idf, _staples(present, near, k), NULL_DECKS, seed), centres)
+    final = np.where(sim >= cuts[near], near, -1)
+    return Membership(final, centres, cuts, sim, int((final < 0).sum()), dropped_small, dropped_loose, merged, split)
+
+
+def _join_closest(weights: sp.csr_matrix, labels: np.ndarray) -> np.ndarray:
+    """Labels with the two groups whose centres are most alike joined (to keep at most analysis.k_max)."""
+    k = int(labels.max(initial=-1)) + 1
+    centres = centres_of(weights, labels, k)
+    sims = centres @ centres.T
+    np.fill_diagonal(sims, -np.inf)
+    a, b = np.unravel_index(np.argmax(sims), sims.shape)
+    out = labels.copy()
+    out[out == max(a, b)] = min(a, b)
+    return out
+
+
+def _split_one(present, rows, labels, least, seed, tried) -> np.ndarray | None:
+    """Labels with one group cut in two, or None: the first group (largest first) whose 2-way k-means
+    cut (on the reduced ``rows``) leaves two pieces of at least ``least`` decks, each with a card of its
+    own against the other. ``tried`` remembers groups already looked at, so none is tried twice."""
+    from sklearn.cluster import KMeans
+
+    from .cluster import distinct_rows, sample_rows
+
+    k = int(labels.max(initial=-1)) + 1
+    sizes = np.bincount(labels[labels >= 0], minlength=k)
+    for c in np.argsort(-sizes, kind="stable"):
+        members = np.flatnonzero(labels == c)
+        key = members.tobytes()
+        if len(members) < 2 * least or key in tried:
+            continue
+        tried.add(key)
+        fit = members[sample_rows(len(members), 5000, seed)]
+        if distinct_rows(rows[fit]) < 2:
+            continue
+        km = KMeans(n_clusters=2, n_init=4, random_state=seed, algorithm="lloyd").fit(rows[fit])
+        scores = rows[members] @ km.cluster_centers_.T * -2.0 + (km.cluster_centers_ ** 2).sum(axis=1)
+        piece = np.argmin(scores, axis=1)
+        if min(np.bincount(piece, minlength=2)) < least:
+            continue
+        cut = labels.copy()
+        cut[members[piece == 1]] = k
+        if distinct(present, members[piece == 0], members[piece == 1], strict=True):
+            return cut
+    return None
+
+
+def _compact(labels: np.ndarray) -> np.ndarray:
+    """Labels renumbered 0..k-1 in order of their old number; -1 stays -1."""
+    labels = np.asarray(labels)
+    keys = np.unique(labels[labels >= 0])
+    out = np.full(len(labels), -1)
+    out[labels >= 0] = np.searchsorted(keys, labels[labels >= 0])
+    return out
+
+
+def _staples(present: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
+    """Cards played by at least :data:`STAPLE_SHARE` of the decks of every group."""
+    return np.all(rates(present, labels, k) >= STAPLE_SHARE, axis=0)
+
+
+def _prune(present, weights, idf, labels, least, seed) -> tuple[np.ndarray, int, int]:
+    """Give up small and loose groups until none is left; return the labels inside the cuts.
+
+    A deck is scored against its own group's centre *without itself* (as a
+    deck from outside the data would be), so a small pile of one-offs cannot
+    pass by leaning on its own weight in its centre.
+    """
+    k = int(labels.max(initial=-1)) + 1
+    alive = np.bincount(labels[labels >= 0], minlength=k) > 0
+    small = loose = 0
+    for _ in range(4 * k + 8):
+        live = np.flatnonzero(alive)
+        if len(live) == 0:
+            break
+        sims = _own_out_similarities(weights, labels, k)[:, live]
+        near = live[np.argmax(sims, axis=1)]
+        sim = sims.max(axis=1)
+        cuts = np.zeros(k)
+        centres = centres_of(weights, labels, k)
+        cuts[live] = cuts_for(null_rows(present, idf, _staples(present, near, k), NULL_DECKS, seed), centres[live])
+        placed = np.where(sim >= cuts[near], near, -1)
+        failed = False
+        for c in live:
+            members = np.flatnonzero(placed == c)
+            if len(members) < least:
+                alive[c], small, failed = False, small + 1, True
+            elif np.median(loo_similarity(weights, members)) < cuts[c]:
+                alive[c], loose, failed = False, loose + 1, True
+        settled = np.array_equal(placed, labels)
+        labels = np.where((placed >= 0) & alive[np.maximum(placed, 0)], placed, -1)
+        if not failed and settled:
+            return _compact(labels), small, loose
+    return _compact(labels), small, loose
+
+
+def _own_out_similarities(weights: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
+    """Similarity of every deck to every group's centre, its own group's centre taken without it."""
+    n = weights.shape[0]
+    keep = labels >= 0
+    onehot = sp.csr_matrix((np.ones(int(keep.sum())), (labels[keep], np.flatnonzero(keep))), shape=(k, n))
+    sums = np.asarray((onehot @ weights).todense())
+    norms = np.linalg.norm(sums, axis=1)
+    dots = np.asarray(weights @ sums.T)
+    sims = dots / np.where(norms == 0, 1.0, norms)
+    rows = np.flatnonzero(keep)
+    own = labels[rows]
+    self_sq = np.asarray(weights[rows].multiply(weights[rows]).sum(axis=1)).ravel()
+    rest = np.sqrt(np.maximum(norms[own] ** 2 - 2.0 * dots[rows, own] + self_sq, 0.0))
+    sims[rows, own] = np.where(rest > 1e-12, (dots[rows, own] - self_sq) / np.where(rest > 1e-12, rest, 1.0), 0.0)
+    return sims
+
+
+def place(weights: sp.csr_matrix, centres: np.ndarray, cuts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The build's rule for any decks: nearest centre, or -1 below its cut; with the similarity."""
+    n = weights.shape[0]
+    if centres.shape[0] == 0:
+        return np.full(n, -1), np.zeros(n)
+    sims = similarities(weights, centres)
+    near = np.argmax(sims, axis=1)
+    sim = sims[np.arange(n), near]
+    return np.where(sim >= cuts[near], near, -1), sim

@@ -1,0 +1,180 @@
+"""The archetype rule: centres, random-deck cuts, own cards, leave-one-out scores, placement, stability."""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import scipy.sparse as sp
+from sklearn.metrics import jaccard_score
+from sklearn.metrics.pairwise import cosine_similarity
+from statsmodels.stats.contingency_tables import Table2x2
+
+from sitegen.analysis import features, membership, stability
+from sitegen.analysis.params import AnalysisParams
+from sitegen.analysis.partition import analyse_partition
+from sitegen.model import OTHER_KEY
+
+from _planted import planted_partition
+
+
+def _rows(seed=0, n=60, m=30, p=0.2):
+    rng = np.random.default_rng(seed)
+    dense = (rng.random((n, m)) < p).astype(float)
+    dense[:, 0] = 1.0  # no empty deck
+    counts = sp.csr_matrix(dense)
+    return counts, features.tfidf(counts)
+
+
+def test_centres_are_unit_means_of_the_rows():
+    # Reference: numpy's mean of each group's rows, scaled by numpy.linalg.norm.
+    _, w = _rows()
+    labels = np.arange(60) % 3
+    ours = membership.centres_of(w, labels, 3)
+    dense = w.toarray()
+    for c in range(3):
+        mean = dense[labels == c].mean(axis=0)
+        np.testing.assert_allclose(ours[c], mean / np.linalg.norm(mean), atol=1e-12)
+
+
+def test_similarities_equal_scikit_learn_cosine():
+    # Reference: sklearn.metrics.pairwise.cosine_similarity.
+    _, w = _rows(1)
+    centres = membership.centres_of(w, np.arange(60) % 4, 4)
+    np.testing.assert_allclose(membership.similarities(w, centres), cosine_similarity(w, centres), atol=1e-12)
+
+
+def test_leave_one_out_similarity_by_brute_force():
+    # Each member against the mean of the others, by scikit-learn's cosine_similarity.
+    _, w = _rows(2)
+    members = np.arange(0, 60, 3)
+    ours = membership.loo_similarity(w, members)
+    dense = w.toarray()
+    for i, m in enumerate(members):
+        rest = dense[np.setdiff1d(members, [m])].mean(axis=0, keepdims=True)
+        assert ours[i] == pytest.approx(cosine_similarity(dense[[m]], rest)[0, 0], abs=1e-9)
+
+
+def test_own_group_scored_without_the_deck_itself():
+    # A deck's own group's centre is taken without it; other groups' centres whole (brute force as above).
+    _, w = _rows(3)
+    labels = np.arange(60) % 3
+    labels[5] = -1
+    ours = membership._own_out_similarities(w, labels, 3)
+    dense = w.toarray()
+    for d in (0, 1, 5, 7):
+        for c in range(3):
+            members = np.flatnonzero(labels == c)
+            if labels[d] == c:
+                members = members[members != d]
+            mean = dense[members].mean(axis=0, keepdims=True)
+            assert ours[d, c] == pytest.approx(cosine_similarity(dense[[d]], mean)[0, 0], abs=1e-9)
+
+
+def _presence(groups):
+    """A presence matrix from (n decks, {card: share}) per group, cards played by the first share of decks."""
+    rows = []
+    for n, plays in groups:
+        for i in range(n):
+            rows.append([1.0 if i < round(share * n) else 0.0 for share in plays])
+    return sp.csr_matrix(np.array(rows))
+
+
+def test_a_variant_is_distinct_and_a_flex_cut_is_not():
+    # Cards: 0-1 core of both, 2 parent only, 3 variant only, 4-5 flex played independently.
+    rng = np.random.default_rng(0)
+    n_parent, n_variant = 80, 40
+    present = np.zeros((n_parent + n_variant, 6))
+    present[:, :2] = 1
+    present[:n_parent, 2] = np.arange(n_parent) % 5 != 0  # 80 % of the parent's decks
+    present[n_parent:, 3] = np.arange(n_variant) % 10 < 7  # 70 % of the variant's decks
+    present[:, 4] = rng.random(n_parent + n_variant) < 0.4
+    present[:, 5] = rng.random(n_parent + n_variant) < 0.4
+    present = sp.csr_matrix(present)
+    parent, variant = np.arange(n_parent), np.arange(n_parent, n_parent + n_variant)
+    assert membership.distinct(present, parent, variant, strict=True)
+    # A cut of the parent along flex card 4 (played by one piece only) finds no card of the other piece's own.
+    dense = present.toarray()
+    with4, without4 = parent[dense[parent, 4] == 1], parent[dense[parent, 4] == 0]
+    assert not membership.distinct(present, with4, without4, strict=True)
+    # Cut along flex cards 4 and 5 at once: each piece "owns" one, but the two play independently.
+    only4 = parent[(dense[parent, 4] == 1) & (dense[parent, 5] == 0)]
+    only5 = parent[(dense[parent, 4] == 0) & (dense[parent, 5] == 1)]
+    assert membership.distinct(present, only4, only5)  # the lenient test alone would keep them apart
+    both = np.concatenate([only4, only5])
+    everyone = parent  # across the whole parent group, 4 and 5 are independent: no exclusion
+    table = Table2x2(np.array([[np.sum((dense[everyone, 4] == 1) & (dense[everyone, 5] == 1)),
+                                np.sum((dense[everyone, 4] == 1) & (dense[everyone, 5] == 0))],
+                               [np.sum((dense[everyone, 4] == 0) & (dense[everyone, 5] == 1)),
+                                np.sum((dense[everyone, 4] == 0) & (dense[everyone, 5] == 0))]]))
+    q = (table.oddsratio - 1) / (table.oddsratio + 1)  # Yule's Q from statsmodels' odds ratio
+    assert q > membership.EXCLUSION
+    assert len(both) > 0
+
+
+def test_yules_q_of_the_exclusion_check_matches_statsmodels():
+    # Two own cards that never meet: Yule's Q is -1 (statsmodels' odds ratio is 0 there).
+    present = sp.csr_matrix(np.array([[1, 0]] * 10 + [[0, 1]] * 10 + [[0, 0]] * 5, dtype=float))
+    a, b = np.arange(10), np.arange(10, 25)
+    assert membership.distinct(present, a, b, strict=True)
+    assert membership.yules_q(0, 10, 10, 5) == -1.0
+    # Reference: Yule's Q = (OR - 1) / (OR + 1) with statsmodels' Table2x2 odds ratio, on tables without zeros.
+    for a, b, c, d in ((3, 10, 12, 5), (20, 4, 6, 30), (7, 7, 7, 7)):
+        ratio = Table2x2(np.array([[a, b], [c, d]])).oddsratio
+        assert membership.yules_q(a, b, c, d) == pytest.approx((ratio - 1) / (ratio + 1))
+
+
+def test_cuts_are_quantiles_of_random_decks_over_the_centres():
+    # Reference: numpy.quantile at 1 - 0.01 / k of the random decks' similarities to each centre.
+    counts, w = _rows(4)
+    centres = membership.centres_of(w, np.arange(60) % 2, 2)
+    null = membership.null_rows(features.presence(counts), features.idf(counts), np.zeros(30, bool), 500, 0)
+    assert null.shape == (500, 30)
+    np.testing.assert_allclose(np.asarray(null.multiply(null).sum(axis=1)).ravel(), 1.0)
+    ref = np.quantile(cosine_similarity(null, centres), 1 - 0.01 / 2, axis=0)
+    np.testing.assert_allclose(membership.cuts_for(null, centres), ref)
+
+
+def test_random_decks_keep_staples_and_size():
+    counts, _ = _rows(5)
+    present = features.presence(counts)
+    staples = np.zeros(30, bool)
+    staples[0] = True
+    null = membership.null_rows(present, features.idf(counts), staples, 200, 1)
+    assert (null[:, 0].toarray() > 0).all()  # card 0 is in every deck and is a staple
+    sizes = np.diff(null.indptr)
+    assert sizes.min() >= 1 and sizes.max() <= np.diff(present.indptr).max()
+
+
+def test_every_deck_is_placed_by_the_stored_rule():
+    # The build's rule, stored with the result, places every deck of the data exactly where the build did.
+    part, truth, _ = planted_partition(800, 5, seed=3, variants=1, brew_share=0.05)
+    result = analyse_partition(part, AnalysisParams())
+    rule = result.placement
+    ids = result.assignments["deck_id"].tolist()
+    counts, cards = features.build_matrix(part.cards, ids)
+    assert cards == rule.cards
+    w = features.tfidf(counts)
+    placed, sim = membership.place(w, rule.centres, rule.cuts)
+    keys = np.array([rule.keys[p] if p >= 0 else OTHER_KEY for p in placed], dtype=object)
+    np.testing.assert_array_equal(keys, result.assignments["archetype"].to_numpy())
+    np.testing.assert_allclose(result.assignments["distance"].to_numpy(), np.round(1 - sim, 4), atol=1e-12)
+    assert (keys == OTHER_KEY).sum() >= 0.8 * (truth == "brew").sum()  # most planted brews are other decks
+
+
+def test_jaccard_best_equals_scikit_learn():
+    # Reference: sklearn.metrics.jaccard_score on the two boolean memberships.
+    members = np.array([1, 1, 1, 0, 0, 0, 1, 0], bool)
+    labels = np.array([0, 0, 1, 1, 1, -1, 0, 2])
+    best = max(jaccard_score(members, labels == c) for c in (0, 1, 2))
+    assert stability.jaccard_best(members, labels) == pytest.approx(best)
+    assert stability.jaccard_best(members, np.full(8, -1)) == 0.0
+
+
+def test_stability_of_a_fixed_rule_is_one_and_of_noise_lower():
+    labels = np.repeat([0, 1, 2], 100)
+    same = stability.stability(labels, lambda half: labels[half], seed=0, runs=4)
+    np.testing.assert_allclose(same, 1.0)
+    rng = np.random.default_rng(0)
+    noise = stability.stability(labels, lambda half: rng.integers(0, 3, len(half)), seed=0, runs=4)
+    assert (noise < stability.WEAK).all()
+    assert stability.words(0.9) == "clear group" and stability.words(0.6) == "loose group"
+    assert stability.words(0.3) == "weak group"
