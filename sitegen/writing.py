@@ -149,10 +149,11 @@ def check_output(
     if real.is_dir() and not is_own_folder(real):
         entries = _entries(real)
         if any(real.iterdir()):
-            if known_files and entries and all(_as_recorded(real / e, known_files.get(e)) for e in entries):
+            strangers = [e for e in entries if not (known_files and _as_recorded(real / e, known_files.get(e)))]
+            if known_files and entries and not strangers:
                 adopt = True  # written by an earlier sitegen, before the marker: every file is one it recorded
             else:
-                sample = ", ".join(f"'{e}'" for e in entries[:3]) or "empty folders"
+                sample = ", ".join(f"'{e}'" for e in strangers[:3]) or "empty folders"
                 raise refuse(f"is a folder sitegen did not write (it holds {sample} and no {MARKER} file)",
                              "if it may be replaced, empty it first; else ")
     return real, adopt
