@@ -21,7 +21,8 @@ from .config import Config
 from .model import Finding, RunReport
 from .progress import Progress
 from .resources import default_templates_dir
-from .writing import WriteReport, build_lock, write_site
+from .errors import ConfigError
+from .writing import WriteReport, build_lock, check_output, write_site
 
 # The stages (and the numeric libraries under them) are imported inside
 # build(), after the up-to-date check, so a rebuild with nothing changed
@@ -69,12 +70,54 @@ class BuildReport:
 
 
 def output_dir(cfg: Config, override: Path | str | None = None) -> Path:
-    """Where the site goes: the command line's folder, else site.output beside the config."""
+    """Where the site goes: the command line's folder, else site.output beside the config
+    (as spelled: see :func:`checked_output` for the folder a build writes)."""
     if override is not None:
+        if not str(override).strip():
+            raise ConfigError("command line", "-o", "the output folder is empty (it would mean the current folder)",
+                              "give -o a folder of its own, such as -o site")
         return Path(override).absolute()
     path = cfg.path("site.output")
-    assert path is not None
+    if path is None:
+        raise ConfigError(cfg.source or "<config>", "site.output", "is empty (it would mean the config's own folder)",
+                          'set it to a folder of its own, such as output = "site"')
     return path.absolute()
+
+
+#: The data settings, each a file or folder a build reads.
+_DATA_KEYS = ("data.deck_cards", "data.decks", "data.cards", "data.decklists", "data.parquet_folder")
+
+
+def checked_output(cfg: Config, override: Path | str | None = None) -> tuple[Path, bool]:
+    """The real folder a build of ``cfg`` writes (symbolic links followed), after refusing one it
+    must not replace (see :func:`sitegen.writing.check_output`); and whether it is a folder an
+    earlier sitegen wrote before it marked its folders. Reads no data."""
+    out = output_dir(cfg, override)
+    where = str(cfg.source) if cfg.source is not None else "the config"
+    if override is not None:
+        setting, given = "-o", str(override)
+        fix = "give -o a folder of its own that sitegen may replace, such as -o site"
+    else:
+        setting, given = "site.output", str(cfg["site.output"])
+        fix = f'set site.output in {where} to a folder of its own that sitegen may replace, such as output = "site"'
+    protected: list[tuple[str, Path]] = []
+    for key in _DATA_KEYS:
+        path = cfg.path(key)
+        if path is not None:
+            protected.append((f"the data of {key}", path))
+    for key, what in (("site.content", "the notes folder"), ("site.templates", "the templates folder"),
+                      ("cache.folder", "the cache folder")):
+        path = cfg.path(key)
+        if path is not None:
+            protected.append((f"{what} of {key}", path))
+    protected.append(("sitegen's own program files", Path(__file__).resolve().parent))
+    record = _last_build(cfg.path("cache.folder"))
+    try:
+        known = {str(name): (int(size), int(mtime)) for name, size, mtime in record["output"]} if record else None
+    except (KeyError, TypeError, ValueError):
+        known = None
+    return check_output(out, setting=setting, given=given, fix=fix, config_dir=cfg.root,
+                        protected=protected, known_files=known)
 
 
 def templates_dirs(cfg: Config) -> tuple[Path, ...]:
@@ -113,7 +156,7 @@ def build(
         cfg = cfg.replace(analysis__workers=workers)
     if scheduler is not None:
         cfg = cfg.replace(analysis__scheduler=scheduler)
-    out = output_dir(cfg, output)
+    out, adopt = checked_output(cfg, output)  # before anything is read: see check_output
     progress = Progress(stream=stream, quiet=quiet)
     cache_dir = cfg.path("cache.folder")
     with build_lock(out):
@@ -177,7 +220,7 @@ def build(
                 if pages is not None and pages.reused:
                     progress.say(f"  {pages.reused:,} page(s) unchanged, taken from the last build")
         with progress.stage("writing the site"):
-            written = write_site(out, files)
+            written = write_site(out, files, adopt=adopt)
         warnings = (tuple(data.findings) + tuple(override_findings) + tuple(render_findings)
                     + retired_settings(cfg))
         report = BuildReport(

@@ -216,6 +216,9 @@ def _check_structured(values: dict[str, Any], file: str) -> None:
                 or not isinstance(entry.get("k"), int) or entry["k"] < 1):
             raise ConfigError(file, "analysis.pinned_k", f"entry {i} must be a table with season, leader and a whole k >= 1, got {entry!r}",
                               'write [[analysis.pinned_k]] season = "S1" leader = "NAME" k = 4')
+    if not values["site.output"].strip():
+        raise ConfigError(file, "site.output", "is empty (it would mean the config's own folder, which a build replaces whole)",
+                          'set it to a folder of its own, such as output = "site"')
     for key in ("columns.card_extra", "seasons.order"):
         for item in values[key]:
             if not isinstance(item, str):

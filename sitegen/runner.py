@@ -44,6 +44,43 @@ def analysis_version() -> str:
     return f"{__version__}+{h.hexdigest()[:12]}"
 
 
+_PR_SET_PDEATHSIG = 1
+
+
+def _die_with_parent(parent: int) -> None:
+    """Worker start-up: end this worker when the building process ends, however it ends (a
+    killed build's workers would otherwise wait for work forever). On Linux the kernel sends
+    SIGKILL when the parent dies (prctl PR_SET_PDEATHSIG); elsewhere a thread checks the parent."""
+    armed = False
+    if sys.platform.startswith("linux"):
+        try:
+            import ctypes
+            import signal
+
+            libc = ctypes.CDLL(None, use_errno=True)
+            armed = libc.prctl(_PR_SET_PDEATHSIG, int(signal.SIGKILL), 0, 0, 0) == 0
+        except (OSError, AttributeError):
+            armed = False
+    if os.getppid() != parent:  # the parent died before the signal was armed
+        os._exit(1)
+    if not armed:
+        import threading
+        import time
+
+        def watch() -> None:
+            while os.getppid() == parent:
+                time.sleep(0.5)
+            os._exit(1)
+
+        threading.Thread(target=watch, name="sitegen-parent-watch", daemon=True).start()
+
+
+def _start_worker(parent: int) -> None:
+    """Worker start-up: die with the building process, one BLAS thread (see :func:`_one_thread`)."""
+    _die_with_parent(parent)
+    _one_thread()
+
+
 def _one_thread() -> None:
     """Worker start-up: one BLAS/OpenMP thread per process, so workers do not fight over cores."""
     for var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
@@ -163,7 +200,7 @@ class Analyses:
             # vl-convert's JavaScript engine runs threads that a forked child does not get: a worker
             # forked after this process used it would hang in it (a second build in one process).
             self._forked_clean = "vl_convert" not in sys.modules
-            self._pool = ProcessPoolExecutor(max_workers=n, initializer=_one_thread)
+            self._pool = ProcessPoolExecutor(max_workers=n, initializer=_start_worker, initargs=(os.getpid(),))
             self._pool.submit(int).result()  # the first job makes the pool start every worker
             for _ in range(n):  # not waited for: each worker imports the analysis code while the data is read
                 self._pool.submit(_import_analysis)

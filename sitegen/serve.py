@@ -171,6 +171,10 @@ def serve(target: Path, *, host: str = "127.0.0.1", port: int = 8000, watch: boo
         root = output_dir(cfg)
     if watch and cfg is None:
         raise SitegenError("--watch needs the site's config file, not a built folder; give the path of site.toml")
+    if watch:
+        from .build import checked_output
+
+        checked_output(cfg)  # --watch rebuilds into the output: refuse one a build must not replace, now
     if not root.is_dir():
         raise SitegenError(f"no built site at {root}; run 'sitegen build' first")
     state = _WatchState() if watch else None
