@@ -73,6 +73,8 @@ class LeaderBlock:
     silhouette_chart: Any = _f("Chart object of silhouette by k, or None.")
     share_chart: Any = _f("Chart of this leader's archetype shares across seasons (front page), or None.")
     notes: tuple[str, ...] = _f("Data-quality notes for this leader and season (plain text).")
+    map_data: str = _f("Path from the site root of the script holding the map's points (loaded when the map is "
+                       "drawn), or empty.", default="")
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -151,6 +153,9 @@ class Page:
     style_hash: str = _f("Base64 SHA-256 of inline_style, allowed by the page's Content-Security-Policy; empty without it.")
     icon: str = _f("The site icon's address as written in the page (root included, or a data: URL), or empty.",
                    default="")
+    chart_library: str = _f("Path from the site root of the Vega bundle, which assets/charts.js loads when a chart "
+                            "first comes into view (on <html data-chart-library>); empty on pages without charts.",
+                            default="")
 
 
 @dataclass(frozen=True, kw_only=True)

@@ -197,6 +197,13 @@ class _Site:
                 cards.update(s.card for s in a.signature)
         card_slugs = SlugSet()
         self.card_slug = {c: card_slugs.add(c, fallback="card") for c in sorted(cards)}
+        # One look (colour and shape) per archetype of each leader, following its page slug
+        # through every season (charts.archetype_looks).
+        self.looks: dict[str, dict[str, ch.Look]] = {}
+        for leader in leaders:
+            self.looks[leader] = ch.archetype_looks(
+                [[self.page_slug[(a.season, a.leader, a.key)] for r in self.results
+                  if r.season == season and r.leader == leader for a in r.archetypes] for season in self.seasons])
         self.has_results = _any_value(data.decks, "wins") or _any_value(data.decks, "losses")
         self.decks_in_season: dict[str, int] = defaultdict(int)
         for r in self.results:
@@ -221,6 +228,9 @@ class _Site:
 
     def slug_of(self, a: Archetype) -> str:
         return self.page_slug[(a.season, a.leader, a.key)]
+
+    def look_of(self, a: Archetype) -> ch.Look:
+        return ch.OTHER_LOOK if a.is_other else self.looks[a.leader][self.slug_of(a)]
 
     def arch_href(self, a: Archetype) -> str:
         return f"archetypes/{self.slug_of(a)}/{self.season_slug[a.season]}.html"
@@ -287,8 +297,12 @@ class Renderer:
         urls = self.urls
         styles = [urls[k] for k in ("charts_css", "site_css") if k in urls and (charts or k == "site_css")]
         scripts = ["search-index.js", urls["site_js"]]
+        library = ""
         if charts and "vega" in urls and "charts_js" in urls:
-            scripts += [urls["vega"], urls["charts_js"]]
+            # charts.js loads the Vega bundle itself when a chart comes into view: the page's
+            # own scripts (search, sorting) never wait on it
+            scripts.append(urls["charts_js"])
+            library = urls["vega"]
         nav = [P.Link(text="Overview", href="index.html")]
         if s.seasons:
             nav.append(P.Link(text="Latest season", href=s.season_href(s.seasons[-1])))
@@ -299,7 +313,7 @@ class Renderer:
         return dict(site_title=self.site.cfg["site.title"], title=title, description=description, icon=icon,
                     root=root, path=path, stylesheets=tuple(styles),
                     scripts=tuple(scripts), nav=tuple(nav), leader_word=s.word, leader_word_plural=s.words,
-                    absolute=False, inline_style="", style_hash="")
+                    absolute=False, inline_style="", style_hash="", chart_library=library)
 
     def _emit(self, template: str, page: Any) -> None:
         context = _context(page)
@@ -315,6 +329,17 @@ class Renderer:
             where, line = _template_place(exc, template)
             raise RenderError(f"template {where}{f', line {line}' if line else ''}: {exc} (page {page.path})") from exc
         self.out[page.path] = html.encode("utf-8")
+
+    def _emit_data(self, path: str, chart: Any) -> None:
+        """The data file of a chart whose rows live outside its page (charts.data_script); taken
+        from the last build, like a page, when the chart's key is unchanged."""
+        memo = self.site.page_memo
+        if memo is not None:
+            body = memo.reuse(path, memo.key(path, "chart-data", {"chart": chart}))
+            if body is not None:
+                self.out[path] = body
+                return
+        self.out[path] = ch.data_script(chart.id, chart.values or [])
 
     # -- data-quality notes
     def _notes_for(self, season: str, leader: str | None) -> tuple[str, ...]:
@@ -366,8 +391,13 @@ class Renderer:
         if key not in self._share_charts:
             rows = self._share_rows(leader)
             self._share_charts[key] = (None if len({x["season"] for x in rows}) < 2  # one season: the table says it all
-                                       else ch.share_chart(rows, chart_id, f"{self.s.leader_name(leader)}: archetype shares by season"))
+                                       else ch.share_chart(rows, chart_id, f"{self.s.leader_name(leader)}: archetype shares by season",
+                                                           looks=self._looks_by_name(leader)))
         return self._share_charts[key]
+
+    def _looks_by_name(self, leader: str) -> dict[str, ch.Look]:
+        """Each archetype's look under its latest name, the name the trend charts use."""
+        return {self._latest_name(slug): look for slug, look in self.s.looks.get(leader, {}).items()}
 
     def _map_budgets(self, season: str) -> dict[str, int]:
         """Map points each leader of a season may draw (see :data:`SEASON_MAP_POINTS`)."""
@@ -386,16 +416,19 @@ class Renderer:
         keep = stratified_sample(points["archetype"].astype(str).tolist(), budget, int(self.site.cfg["analysis.seed"]))
         return dataclasses.replace(r, map_points=points.iloc[keep].reset_index(drop=True))
 
-    def _map(self, r: PartitionResult, names: dict[str, str], chart_id: str, budget: int | None) -> Any:
+    def _map(self, r: PartitionResult, names: dict[str, str], chart_id: str, budget: int | None,
+             looks: dict[str, ch.Look], hrefs: dict[str, str]) -> Any:
         """The partition's map chart; made only if its page is rendered, when the rows it is drawn
         from are named by ``rows_key`` (the chart's key then names all it is made from)."""
         def make() -> ch.Chart:
-            return ch.map_chart(self._thin_map(r, budget) if budget is not None else r, names, chart_id)
+            return ch.map_chart(self._thin_map(r, budget) if budget is not None else r, names, chart_id,
+                                looks=looks, hrefs=hrefs)
 
         if not r.rows_key:
             return make()
         key = json.dumps([r.rows_key, r.season, r.leader, int(r.n_decks), chart_id, budget,
                           int(self.site.cfg["analysis.seed"]), sorted(names.items()),
+                          sorted((k, v.colour, v.shape) for k, v in looks.items()), sorted(hrefs.items()),
                           [(g.key, g.name, bool(g.is_other)) for g in r.groups]], ensure_ascii=True)
         return ch.LazyChart(key, make)
 
@@ -414,15 +447,19 @@ class Renderer:
         map_c = sil_c = None
         if with_charts and clustered:
             names = {a.key: s.name_of(a) for a in r.groups}
+            looks = {a.key: s.look_of(a) for a in r.groups}
+            back = _rel_root(s.season_href(r.season))  # the map is drawn on the season page
+            hrefs = {a.key: back + s.arch_href(a) for a in r.archetypes}
             if r.map_points is not None and len(r.map_points):
-                map_c = self._map(r, names, f"map-{lslug}", map_budget)
+                map_c = self._map(r, names, f"map-{lslug}", map_budget, looks, hrefs)
             if r.silhouette:
                 sil_c = ch.silhouette_chart(r, f"silhouette-{lslug}")
         return P.LeaderBlock(name=s.leader_name(r.leader), href=s.leader_link(r.leader).href, anchor=f"leader-{lslug}",
                              decks=int(r.n_decks), clustered=clustered, reason=r.reason, rows=rows,
                              chosen_k=r.chosen_k, k_reason=r.k_reason, map_chart=map_c, silhouette_chart=sil_c,
                              share_chart=self._share_chart(r.leader, f"shares-{lslug}") if with_shares else None,
-                             notes=tuple(notes))
+                             notes=tuple(notes),
+                             map_data=f"seasons/{s.season_slug[r.season]}/map-{lslug}.js" if map_c is not None else "")
 
     # -- pages
     def front(self) -> None:
@@ -455,6 +492,9 @@ class Renderer:
             previous=s.season_link(s.seasons[i - 1]) if i > 0 else None,
             next=s.season_link(s.seasons[i + 1]) if i + 1 < len(s.seasons) else None,
             notes=self._notes_for(season, None), has_results=s.has_results, min_games=s.min_games))
+        for b in blocks:
+            if b.map_chart is not None:
+                self._emit_data(b.map_data, b.map_chart)
 
     def _link_text(self, a: Archetype) -> str:
         h = self.site.history
@@ -622,7 +662,7 @@ class Renderer:
         if isinstance(given, dict) and given.get("winrates"):
             trend_rows = [{**row, "archetype": self._latest_name(row["slug"]) if row.get("slug") in s.by_slug
                            else row["archetype"]} for row in given["winrates"]]
-        trend_c = ch.winrate_chart(trend_rows, f"winrate-{lslug}") if trend_rows else None
+        trend_c = ch.winrate_chart(trend_rows, f"winrate-{lslug}", looks=self._looks_by_name(leader)) if trend_rows else None
         path = s.leader_link(leader).href
         name = s.leader_name(leader)
         base = self._base(path, name, f"Archetypes of {name}, season by season.",
