@@ -173,6 +173,10 @@ def test_same_input_same_bytes(tmp_path):
     assert a == b
 
 
+def _site_js(out: dict) -> str:
+    return next(p for p in out if p.startswith("assets/site.") and p.endswith(".js"))
+
+
 def test_404_links_work_at_any_depth(tmp_path):
     out, _ = render_site(small_site(tmp_path, base_url="https://example.org/guide"))
     page = _doc(out["404.html"])
@@ -188,7 +192,10 @@ def test_404_links_work_at_any_depth(tmp_path):
     digest = base64.b64encode(hashlib.sha256(style.text.encode("utf-8")).digest()).decode("ascii")
     csp = page2.find(".//meta[@http-equiv='Content-Security-Policy']").get("content")
     assert f"style-src 'self' 'sha256-{digest}';" in csp
-    assert page2.find(".//script") is None and page2.find(".//link[@rel='stylesheet']") is None
+    assert page2.find(".//link[@rel='stylesheet']") is None
+    # It has the search box; its scripts come from the host's root too.
+    assert page2.find(".//input[@id='site-search-box']") is not None
+    assert [sc.get("src") for sc in page2.iter("script")] == ["/search-index.js", "/" + _site_js(out2)]
     # Every other page keeps the plain policy: no inline style allowed.
     assert "sha256" not in _doc(out2["index.html"]).find(".//meta[@http-equiv='Content-Security-Policy']").get("content")
 

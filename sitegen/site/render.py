@@ -33,7 +33,7 @@ from . import charts as ch
 from . import pages as P
 from .memo import PageMemo
 from .notes import Note, Notes, orphan_findings
-from .search import SearchEntry, search_files
+from .search import RANKS, SearchEntry, search_files
 from .sitemap import sitemap_files
 
 #: Closest archetypes listed on an archetype page.
@@ -195,8 +195,11 @@ class _Site:
                     cards.add(line.card)
                     self.card_type.setdefault(line.card, line.card_type)
                 cards.update(s.card for s in a.signature)
+        # Only a card some archetype plays often enough to list (its inclusion table) has a page of
+        # its own: a page for any other card would say nothing. Others are named without a link.
+        listed = {c.card for r in self.results for a in r.archetypes for c in a.inclusion}
         card_slugs = SlugSet()
-        self.card_slug = {c: card_slugs.add(c, fallback="card") for c in sorted(cards)}
+        self.card_slug = {c: card_slugs.add(c, fallback="card") for c in sorted(cards & listed)}
         # One look (colour and shape) per archetype of each leader, following its page slug
         # through every season (charts.archetype_looks).
         self.looks: dict[str, dict[str, ch.Look]] = {}
@@ -685,7 +688,8 @@ class Renderer:
         relative to the page would point nowhere: with site.base_url every
         link and asset is absolute; without it links start at the host's root
         ('/') and the stylesheet is written into the page (allowed by its hash
-        in the CSP), so it looks right at any depth and from file:// too."""
+        in the CSP), so it looks right at any depth and from file:// too. It
+        has the search box: its scripts come from the root as well."""
         base_url = self.site.cfg["site.base_url"].strip()
         root = base_url.rstrip("/") + "/" if base_url else "/"
         base = self._base("404.html", "Page not found", "There is no page at this address.", root=root)
@@ -695,20 +699,26 @@ class Renderer:
             if "</" in css:  # it would end the <style> element early
                 raise RenderError(f"{self.urls['site_css']}: contains '</', which cannot be written inside a <style> element")
             base.update(inline_style=css, style_hash=base64.b64encode(hashlib.sha256(css.encode("utf-8")).digest()).decode("ascii"),
-                        stylesheets=(), scripts=(), icon=_data_url(self.assets, self.urls.get("icon_svg")))
+                        stylesheets=(), icon=_data_url(self.assets, self.urls.get("icon_svg")))
         self._emit("404.html", P.NotFoundPage(**base, home=root + "index.html"))
 
     def search(self) -> None:
         s = self.s
         entries = []
         for slug in sorted(s.by_slug):
-            latest = self._seasons_of(slug)[-1]
+            arches = self._seasons_of(slug)
+            latest = arches[-1]
+            former = tuple(dict.fromkeys(n for n in (s.name_of(a) for a in arches[:-1]) if n != s.name_of(latest)))
             entries.append(SearchEntry(s.name_of(latest), "archetype", f"archetypes/{slug}/index.html",
-                                       s.leader_name(latest.leader)))
+                                       s.leader_name(latest.leader), rank=RANKS["archetype"], aliases=former))
         for leader, slug in s.leader_slug.items():
-            entries.append(SearchEntry(s.leader_name(leader), s.word, f"leaders/{slug}.html"))
+            entries.append(SearchEntry(s.leader_name(leader), s.word, f"leaders/{slug}.html", rank=RANKS["leader"]))
+        for season in s.seasons:
+            entries.append(SearchEntry(season, "season", s.season_href(season),
+                                       f"{s.decks_in_season[season]} decks", rank=RANKS["season"]))
         for card, slug in s.card_slug.items():
-            entries.append(SearchEntry(card, "card", f"cards/{slug}.html", s.card_type.get(card, "")))
+            entries.append(SearchEntry(card, "card", f"cards/{slug}.html", s.card_type.get(card, ""),
+                                       rank=RANKS["card"]))
         self.out.update(search_files(entries))
 
     def run(self) -> tuple[dict[str, bytes], list[Finding]]:
