@@ -214,6 +214,10 @@ class ArchetypePage(Page):
     link_text: str = _f("How it relates to the season before, in plain words, or empty.")
     downloads: tuple[Link, ...] = _f("CSV downloads of its tables.")
     min_games: int = _f("Games below which a win rate is flagged (trends.min_games).")
+    previous: Link | None = _f("This archetype's page in the season before it was last seen (text: that season), or None.",
+                               default=None)
+    next: Link | None = _f("This archetype's page in the next season it is seen in (text: that season), or None.",
+                           default=None)
 
 
 @dataclass(frozen=True, kw_only=True)

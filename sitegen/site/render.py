@@ -584,6 +584,10 @@ class Renderer:
         first, last = self._first_last(slug)
         sslug = s.season_slug[a.season]
         name = s.name_of(a)
+        own = [x for x in self._seasons_of(slug) if x.season != a.season]
+        rank = {x: i for i, x in enumerate(s.seasons)}
+        before = [x for x in own if rank[x.season] < rank[a.season]]
+        after = [x for x in own if rank[x.season] > rank[a.season]]
         base = self._base(path, f"{name}, {a.season}",
                           f"The {name} archetype of {s.leader_name(a.leader)} in season {a.season}: cards and a sample deck.")
         self._emit("archetype.html", P.ArchetypePage(
@@ -602,7 +606,9 @@ class Renderer:
             link_text=self._link_text(a),
             downloads=(P.Link(text="Card table (CSV)", href=f"archetypes/{slug}/{sslug}-cards.csv"),
                        P.Link(text="Representative deck (CSV)", href=f"archetypes/{slug}/{sslug}-decklist.csv")),
-            min_games=s.min_games))
+            min_games=s.min_games,
+            previous=P.Link(text=before[-1].season, href=s.arch_href(before[-1])) if before else None,
+            next=P.Link(text=after[0].season, href=s.arch_href(after[0])) if after else None))
         self.out[f"archetypes/{slug}/{sslug}-cards.csv"] = exports.card_table_csv(a)
         self.out[f"archetypes/{slug}/{sslug}-decklist.csv"] = exports.decklist_csv(a)
 

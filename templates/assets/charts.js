@@ -77,7 +77,7 @@
     var legend = node.legend;
     if (legend && typeof legend === "object" && legend.orient === "bottom") {
       legend.columns = 1;
-      legend.labelLimit = Math.max(80, width - 60);
+      legend.labelLimit = Math.max(80, width - 100);
     }
     var axis = node.axis;
     if (axis && typeof axis === "object" && axis.labelAngle === 0) {
@@ -85,6 +85,7 @@
       axis.labelAlign = "right";
       axis.labelBaseline = "middle";
       axis.labelLimit = 100;
+      axis.labelOverlap = false;  // slanted labels do not meet; none may be dropped
     }
     for (var key in node) {
       if (Object.prototype.hasOwnProperty.call(node, key) && key !== "data" && key !== "datasets") fit(node[key], width);

@@ -194,7 +194,36 @@
     });
   }
 
-  function start() { setupSearch(); setupTables(); }
+  /* -- wide tables: a line under each table wider than its box says more columns lie sideways */
+  function markWideTables() {
+    Array.prototype.forEach.call(document.querySelectorAll(".table-scroll"), function (box) {
+      var hint = box.nextElementSibling && box.nextElementSibling.classList.contains("scroll-hint") ? box.nextElementSibling : null;
+      var wide = box.clientWidth > 0 && box.scrollWidth > box.clientWidth + 1;
+      if (wide && !hint) {
+        hint = document.createElement("p");
+        hint.className = "scroll-hint";
+        hint.textContent = "More columns to the right: scroll the table sideways.";
+        box.parentNode.insertBefore(hint, box.nextSibling);
+      }
+      if (hint) { hint.hidden = !wide; }
+    });
+  }
+
+  function setupWideTables() {
+    markWideTables();
+    var waiting = false;
+    window.addEventListener("resize", function () {
+      if (waiting) { return; }
+      waiting = true;
+      window.setTimeout(function () { waiting = false; markWideTables(); }, 200);
+    });
+    /* a table inside a closed <details> has no width until it is opened */
+    Array.prototype.forEach.call(document.querySelectorAll("details"), function (d) {
+      d.addEventListener("toggle", markWideTables);
+    });
+  }
+
+  function start() { setupSearch(); setupTables(); setupWideTables(); }
   if (document.readyState === "loading") {
     document.addEventListener("DOMContentLoaded", start);
   } else {
