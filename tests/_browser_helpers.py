@@ -58,6 +58,14 @@ _CHART_REPORT = """
 """
 
 
+def bring_charts_into_view(page) -> None:
+    """Scroll each chart view into view in turn: charts.js draws a chart only when it is seen."""
+    views = page.locator(".chart-view")
+    for i in range(views.count()):
+        views.nth(i).scroll_into_view_if_needed()
+        page.wait_for_timeout(50)
+
+
 def is_local(url: str) -> bool:
     """True for file://, data:, about: and http(s) on 127.0.0.1 or localhost."""
     parts = urlsplit(url)
@@ -103,6 +111,7 @@ def check_page(page, url: str, *, timeout_ms: int = 20000) -> list[str]:
         page.on(event, handler)
     try:
         page.goto(url, wait_until="load")
+        bring_charts_into_view(page)
         try:
             page.wait_for_function(_CHARTS_SETTLED, timeout=timeout_ms)
         except Exception:  # playwright TimeoutError; the report below names the charts

@@ -116,4 +116,6 @@ def test_demo_site_pages_clean(demo_site, page):
             rel = path.relative_to(demo_site).as_posix()
             assert check_page(page, base + rel) == [], rel
     for path in picked:
+        if path.name == "404.html":
+            continue  # only ever served by a host: its search scripts are at the host's root ('/'), not on file://
         assert check_page(page, path.as_uri()) == [], path.name

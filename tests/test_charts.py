@@ -56,6 +56,12 @@ def _symbols(svg: str) -> list[str]:
     return re.findall(r'<path aria-label="[^"]*"[^>]*aria-roledescription="point"[^>]*/>', svg)
 
 
+def _whole(chart, **extra) -> dict:
+    """The chart's spec with its rows back in it (a map's rows go in a data file of their own)."""
+    data = {"data": {"values": chart.values}} if chart.values is not None else {}
+    return {**chart.spec, **data, **extra}
+
+
 def test_every_spec_follows_the_vega_lite_schema(built, schema_validator):
     # Standard: Vega-Lite schema (altair's copy); every error is listed on failure.
     for chart in built:
@@ -151,17 +157,31 @@ def test_builders_are_deterministic():
     assert first == second
 
 
-def test_map_palette_is_okabe_ito_then_shapes_other_grey():
-    # Published palette: Okabe & Ito (2008). Ten archetypes: the first eight take the
-    # eight colours, the ninth and tenth repeat colours with a second shape.
+def test_map_palette_then_shapes_other_grey():
+    # Palette: Okabe & Ito (2008) hues that stand 3:1 on white (WCAG 2.1 SC 1.4.11), their
+    # orange darkened; the yellow and sky blue are left out. Ten archetypes: the first six
+    # take the six colours, the next four repeat colours with a second shape.
     chart = charts.map_chart(partition(), {}, "m")
     color = chart.spec["encoding"]["color"]["scale"]
     shape = chart.spec["encoding"]["shape"]["scale"]
     assert color["domain"] == [f"Arch {k}" for k in KEYS] + ["Arch other"]
-    assert {c.upper() for c in color["range"][:8]} == OKABE_ITO_PUBLISHED
-    assert color["range"][8:10] == color["range"][0:2]
-    assert shape["range"][:8] == ["circle"] * 8 and shape["range"][8] == shape["range"][9] != "circle"
+    assert color["range"][:6] == list(charts.PALETTE) and len(set(charts.PALETTE)) == 6
+    assert set(charts.PALETTE) - {"#9E6A00"} <= OKABE_ITO_PUBLISHED
+    assert color["range"][6:10] == color["range"][0:4]
+    assert shape["range"][:6] == ["circle"] * 6 and set(shape["range"][6:10]) == {"square"}
     assert color["range"][10] == charts.OTHER_GREY
+
+
+def test_archetype_looks_follow_identity_not_rank():
+    # Our rule (charts.archetype_looks): a look depends only on seasons up to the archetype's first.
+    two = charts.archetype_looks([["b", "a"], ["a", "c"]])
+    three = charts.archetype_looks([["b", "a"], ["a", "c"], ["c", "d", "e"]])
+    assert {k: two[k] for k in two} == {k: three[k] for k in two}  # a new season changes no old look
+    assert len(set(three.values())) == len(three)  # one look per archetype
+    # colours differ among archetypes of one season while the palette lasts
+    assert len({three[k].colour for k in ("c", "d", "e")}) == 3
+    many = charts.archetype_looks([[f"s{i:02d}" for i in range(20)]])
+    assert len(set(many.values())) == 20 and len({v.colour for v in many.values()}) == len(charts.PALETTE)
 
 
 def test_map_points_tooltip_and_table():
@@ -171,11 +191,12 @@ def test_map_points_tooltip_and_table():
     points.loc[0, "x"] = np.nan
     result = type(result)(**{**result.__dict__, "map_points": points})
     chart = charts.map_chart(result, {"a1": MARKUP_NAME}, "m")
-    values = chart.spec["data"]["values"]
+    assert chart.spec["data"]["values"] == []  # the points go in a data file of their own
+    values = chart.values
     assert len(values) == 11 * 20 - 1
     assert chart.rows[0] == (MARKUP_NAME, 19)
     assert chart.rows[-1] == ("Arch other", 20)
-    assert [t["title"] for t in chart.spec["encoding"]["tooltip"]] == ["Deck", "Archetype", "Cards"]
+    assert [t["title"] for t in chart.spec["encoding"]["tooltip"]] == ["Archetype", "Its telling cards", "Deck"]
     assert "219 of 220 decks" in chart.caption
     assert "not meaningful beyond local neighbourhoods" in chart.caption
 
@@ -183,8 +204,11 @@ def test_map_points_tooltip_and_table():
 def test_map_is_drawn_with_every_point():
     # Reference renderer: Vega draws one symbol per deck (vl-convert SVG).
     chart = charts.map_chart(partition(), {}, "m")
-    svg = vl_convert.vegalite_to_svg({**chart.spec, "width": 400}, vl_version=charts.vl_version())
-    assert len(_symbols(svg)) == 220
+    svg = vl_convert.vegalite_to_svg(_whole(chart, width=400),
+                                     vl_version=charts.vl_version())
+    # the map's marks carry no ARIA labels (aria: false), so its symbols are counted in its mark group
+    group = re.search(r'<g class="mark-symbol role-mark[^"]*"[^>]*>(.*?)</g>', svg, re.S)
+    assert group and len(re.findall(r"<path ", group.group(1))) == 220
 
 
 def test_silhouette_marks_chosen_k():
@@ -215,7 +239,8 @@ def test_share_keeps_season_order():
     vega = vl_convert.vegalite_to_vega(chart.spec, vl_version=charts.vl_version())
     x_scale = next(s for s in vega["scales"] if s["name"] == "x")
     assert x_scale["domain"]["sort"] is not True  # an explicit order, not Vega's alphabetical sort
-    svg = vl_convert.vegalite_to_svg({**chart.spec, "width": 400}, vl_version=charts.vl_version())
+    svg = vl_convert.vegalite_to_svg(_whole(chart, width=400),
+                                     vl_version=charts.vl_version())
     labels = re.findall(r">(Winter|Autumn|Spring)</text>", svg)
     assert labels == list(SEASONS)
     colours = dict(zip(chart.spec["encoding"]["color"]["scale"]["domain"],
@@ -227,7 +252,8 @@ def test_winrate_small_samples_drawn_hollow():
     # Reference renderer: Vega draws the small sample (20 games) with a stroke and
     # no fill, the others filled; the tooltip says it is small.
     chart = charts.winrate_chart(winrate_rows(), "w")
-    svg = vl_convert.vegalite_to_svg({**chart.spec, "width": 400}, vl_version=charts.vl_version())
+    svg = vl_convert.vegalite_to_svg(_whole(chart, width=400),
+                                     vl_version=charts.vl_version())
     symbols = _symbols(svg)
     small = [s for s in symbols if "Games: 20;" in s]
     rest = [s for s in symbols if "Games: 20;" not in s]
@@ -317,13 +343,15 @@ def test_chart_partial_structure_and_json_safety():
                          namespaceHTMLElements=False)
     [figure] = doc.findall(".//figure")
     assert figure.get("id") == "map" and figure[0].tag == "figcaption"
-    assert figure[0].text == chart.caption
+    assert figure[0].text.strip() == chart.caption
     view = figure.find("div[@class='chart-view']")
     [source] = [s for s in doc.iter("script") if s.get("id") == view.get("data-chart-spec")]
     assert source.get("type") == "application/json"
     assert json.loads(source.text) == chart.spec
-    assert len(doc.findall(".//script")) == 3  # the spec and the two page scripts, nothing injected
-    table = figure.find("details/table")
+    [rows] = [s for s in doc.iter("script") if s.get("id") == "map-data"]  # no data file: rows inline
+    assert rows.get("type") == "application/json" and json.loads(rows.text) == chart.values
+    assert len(doc.findall(".//script")) == 4  # the spec, its rows and the two page scripts, nothing injected
+    table = figure.find("details/div/table")
     assert [th.text for th in table.findall("thead/tr/th")] == list(chart.columns)
     first = [td.text for td in table.findall("tbody/tr")[0]]
     assert first == [sly, "20"]

@@ -173,6 +173,10 @@ def test_same_input_same_bytes(tmp_path):
     assert a == b
 
 
+def _site_js(out: dict) -> str:
+    return next(p for p in out if p.startswith("assets/site.") and p.endswith(".js"))
+
+
 def test_404_links_work_at_any_depth(tmp_path):
     out, _ = render_site(small_site(tmp_path, base_url="https://example.org/guide"))
     page = _doc(out["404.html"])
@@ -188,9 +192,19 @@ def test_404_links_work_at_any_depth(tmp_path):
     digest = base64.b64encode(hashlib.sha256(style.text.encode("utf-8")).digest()).decode("ascii")
     csp = page2.find(".//meta[@http-equiv='Content-Security-Policy']").get("content")
     assert f"style-src 'self' 'sha256-{digest}';" in csp
-    assert page2.find(".//script") is None and page2.find(".//link[@rel='stylesheet']") is None
+    assert page2.find(".//link[@rel='stylesheet']") is None
+    # It has the search box; its scripts come from the host's root too.
+    assert page2.find(".//input[@id='site-search-box']") is not None
+    assert [sc.get("src") for sc in page2.iter("script")] == ["/search-index.js", "/" + _site_js(out2)]
     # Every other page keeps the plain policy: no inline style allowed.
     assert "sha256" not in _doc(out2["index.html"]).find(".//meta[@http-equiv='Content-Security-Policy']").get("content")
+
+
+def _data_rows(body: bytes) -> list:
+    """The rows a chart data script (charts.data_script) registers."""
+    text = body.decode("utf-8")
+    assert "<" not in text and text.startswith("(window.SITEGEN_CHART_DATA = ")
+    return json.loads(text.split("] = ", 1)[1].rstrip().rstrip(";"))
 
 
 def test_hostile_names_are_text_everywhere(hostile):
@@ -214,9 +228,11 @@ def test_hostile_names_are_text_everywhere(hostile):
     sort_values = [td.get("data-sort") for td in page.iterfind(".//table[@class='sortable cards']/tbody/tr/td[1]")]
     assert sort_values == [c.card for c in a.inclusion]
     # JSON blocks (chart specs) parse back to the same strings.
+    # The map's points live in data scripts: JSON assigned to one entry of a global, with no '<'.
     season = _doc(out["seasons/s1/index.html"])
     specs = [json.loads(s.text) for s in season.iter("script") if s.get("type") == "application/json"]
-    names = {v["archetype"] for spec in specs for v in spec.get("data", {}).get("values", []) if "archetype" in v}
+    assert specs
+    names = {v["archetype"] for path in out if path.startswith("seasons/s1/map-") for v in _data_rows(out[path])}
     assert "Wyrm Rush" in names
     raw = out["seasons/s1/index.html"].decode("utf-8")
     assert XSS_SCRIPT not in raw and XSS_IMG not in raw
@@ -304,10 +320,9 @@ def test_season_page_stays_under_1_mb_with_many_large_maps(tmp_path):
     out, _ = render_site(dataclasses.replace(site, results=tuple(results)))
     page = out["seasons/s1/index.html"]
     assert len(page) < 1_000_000
-    drawn = 0
-    for script in _doc(page).iter("script"):
-        if script.get("type") == "application/json" and script.get("id", "").startswith("map-"):
-            drawn += len(json.loads(script.text)["data"]["values"])
+    srcs = [v.get("data-chart-data") for v in _doc(page).iter("div") if v.get("data-chart-data")]
+    assert len(srcs) == 3 and all(src.startswith("../../seasons/s1/map-") for src in srcs)  # each map's data file
+    drawn = sum(len(_data_rows(out[src.removeprefix("../../")])) for src in srcs)
     assert 0 < drawn <= SEASON_MAP_POINTS
 
 

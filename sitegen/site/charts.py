@@ -9,6 +9,7 @@ Specs hold their data inline and reach pages only through ``|tojson``.
 """
 from __future__ import annotations
 
+import dataclasses
 import functools
 import hashlib
 import importlib.util
@@ -28,7 +29,7 @@ from ..model import ALL_LEADERS, OTHER_KEY, PartitionResult
 
 # Okabe, M. & Ito, K. (2008), "Color Universal Design (CUD): how to make
 # figures and presentations that are friendly to colorblind people" -- the
-# eight colours, in an order that puts the strongest contrasts on white first.
+# eight colours as published (kept for reference and for the tests).
 OKABE_ITO: tuple[str, ...] = (
     "#E69F00",  # orange
     "#56B4E9",  # sky blue
@@ -39,11 +40,65 @@ OKABE_ITO: tuple[str, ...] = (
     "#000000",  # black
     "#F0E442",  # yellow
 )
-#: The other-decks group: the grey that closes the Okabe & Ito list in R's
-#: ``palette.colors()``.
-OTHER_GREY = "#999999"
-#: Point shapes for archetypes beyond the eighth: colour repeats, shape changes.
+#: The archetype colours: Okabe & Ito's hues that stand at least 3:1 against
+#: the white chart background (WCAG 2.1 success criterion 1.4.11, non-text
+#: contrast), their orange darkened to an ochre that does; their yellow and
+#: sky blue (1.3:1 and 2.3:1 on white) are left out. Beyond six archetypes a
+#: leader's charts tell them apart by shape (see :func:`archetype_looks`).
+PALETTE: tuple[str, ...] = (
+    "#0072B2",  # blue
+    "#D55E00",  # vermillion
+    "#009E73",  # bluish green
+    "#CC79A7",  # reddish purple
+    "#9E6A00",  # ochre (Okabe & Ito's orange, darkened)
+    "#000000",  # black
+)
+#: The other-decks group: a mid grey that stands 4.5:1 against white.
+OTHER_GREY = "#767676"
+#: The chart background, written into every spec (the page's own paper colour).
+BACKGROUND = "#ffffff"
+#: Point shapes: the first for the first six archetypes of a leader, then the next.
 SHAPES: tuple[str, ...] = ("circle", "square", "triangle-up", "diamond", "cross", "triangle-down")
+
+
+@dataclass(frozen=True)
+class Look:
+    """How one archetype is drawn in every chart of its leader: colour and point shape."""
+
+    colour: str
+    shape: str
+
+
+OTHER_LOOK = Look(OTHER_GREY, "circle")
+
+
+def archetype_looks(seasons: Sequence[Iterable[str]]) -> dict[str, Look]:
+    """A look for every archetype of one leader, that follows the archetype, not its rank.
+
+    ``seasons``: the archetype identities (page slugs) of the leader in each
+    season, oldest first. Archetypes are taken in the order they first appear
+    (season, then slug); each gets the first colour no archetype of its first
+    season already holds, and the first (colour, shape) pair no earlier
+    archetype of the leader holds. An archetype's look depends only on the
+    seasons up to its first, so adding a season or rebuilding never changes
+    the look of an archetype already drawn.
+    """
+    combos = [Look(c, sh) for sh in SHAPES for c in PALETTE]
+    looks: dict[str, Look] = {}
+    used: set[Look] = set()
+    for members in seasons:
+        members = sorted(set(members))
+        for slug in members:
+            if slug in looks:
+                continue
+            present = {looks[m].colour for m in members if m in looks}
+            free = [k for k in combos if k not in used] or combos
+            fresh = [k for k in free if k.colour not in present]
+            look = (fresh or free)[0]
+            looks[slug] = look
+            used.add(look)
+    return looks
+
 
 #: The site's system font stack (no web fonts), so chart text matches the page.
 SYSTEM_FONT = 'system-ui, -apple-system, "Segoe UI", Roboto, "Helvetica Neue", Arial, sans-serif'
@@ -53,6 +108,7 @@ _CONFIG = {
     "font": SYSTEM_FONT,
     "axis": {"labelFontSize": 12, "titleFontSize": 12},
     "legend": {"labelFontSize": 12, "titleFontSize": 12},
+    "background": BACKGROUND,
 }
 
 _ID = re.compile(r"[A-Za-z][A-Za-z0-9_-]*\Z")
@@ -75,6 +131,31 @@ class Chart:
     caption: str
     columns: tuple[str, ...]
     rows: tuple[tuple, ...]
+    #: The rows of a chart whose data lives in a file of its own (a map holds
+    #: thousands of points): the spec on the page then holds an empty
+    #: ``data.values``, filled by charts.js from the script :func:`data_script`
+    #: makes, loaded only when the chart is drawn. None: the data is in the spec.
+    values: list | None = None
+    #: True for a cloud of many points that a screen reader should not walk
+    #: through mark by mark: the page hides the drawing and points to the table.
+    hidden: bool = False
+
+
+#: The global the chart data files fill, one entry per chart id.
+DATA_GLOBAL = "SITEGEN_CHART_DATA"
+
+
+def data_script(chart_id: str, values: list) -> bytes:
+    """A chart's rows as a script that registers them under its id in :data:`DATA_GLOBAL`.
+
+    A script, not a JSON file, because pages opened from file:// may not
+    fetch() but may load a script of their own site under the page's CSP
+    (script-src 'self'). ``<``, ``>`` and ``&`` are written as \\u escapes.
+    """
+    text = json.dumps(values, ensure_ascii=True, separators=(",", ":"), allow_nan=False)
+    text = text.replace("<", "\\u003c").replace(">", "\\u003e").replace("&", "\\u0026")
+    key = json.dumps(chart_id)
+    return (f"(window.{DATA_GLOBAL} = window.{DATA_GLOBAL} || {{}})[{key}] = {text};\n").encode("utf-8")
 
 
 class LazyChart:
@@ -372,8 +453,16 @@ class _Style:
                 "scale": {"domain": self.domain, "range": self.shapes}}
 
 
-def _style(groups: Sequence[tuple[str, bool]]) -> _Style:
-    """Okabe & Ito colours in order, grey for the other group; shapes past the eighth."""
+def _style(groups: Sequence[tuple[str, bool]], looks: Mapping[str, Look] | None = None) -> _Style:
+    """Colours and shapes for the groups, in legend order.
+
+    A name found in ``looks`` (display name -> :class:`Look`, see
+    :func:`archetype_looks`) takes its look, so an archetype wears the same
+    colour in every chart of its leader; other names take the palette in
+    order, a colour per name, then the next shape. Other-decks groups are
+    grey and differ by shape.
+    """
+    looks = looks or {}
     domain: list[str] = []
     colours: list[str] = []
     shapes: list[str] = []
@@ -387,8 +476,12 @@ def _style(groups: Sequence[tuple[str, bool]]) -> _Style:
             shapes.append(SHAPES[j % len(SHAPES)])
             j += 1
             continue
-        colours.append(OKABE_ITO[i % len(OKABE_ITO)])
-        shapes.append(SHAPES[(i // len(OKABE_ITO)) % len(SHAPES)])
+        if name in looks:
+            colours.append(looks[name].colour)
+            shapes.append(looks[name].shape)
+            continue
+        colours.append(PALETTE[i % len(PALETTE)])
+        shapes.append(SHAPES[(i // len(PALETTE)) % len(SHAPES)])
         i += 1
     return _Style(domain, colours, shapes)
 
@@ -399,21 +492,29 @@ def _ordered(values: Iterable[str]) -> list[str]:
 
 
 def _legend_bottom() -> dict:
-    return {"orient": "bottom", "columns": 2, "labelLimit": 320, "symbolStrokeWidth": 2}
+    # charts.js gives a narrow chart one column and labels cut to its width
+    return {"orient": "bottom", "columns": 2, "labelLimit": 280, "symbolStrokeWidth": 2}
 
 
 # -- builders -----------------------------------------------------------------
 
 
-def map_chart(result: PartitionResult, names: Mapping[str, str], chart_id: str) -> Chart:
+def map_chart(result: PartitionResult, names: Mapping[str, str], chart_id: str,
+              looks: Mapping[str, Look] | None = None, hrefs: Mapping[str, str] | None = None) -> Chart:
     """The t-SNE map of one partition: one point per drawn deck, coloured by archetype.
 
     ``names`` maps archetype keys to display names (falling back to each
-    archetype's own name). Legend order follows ``result.groups`` so the
-    colours agree with the partition's other charts; the other-decks group
-    is grey.
+    archetype's own name); ``looks`` maps keys to each archetype's
+    :class:`Look` (else the palette is taken in legend order); ``hrefs``
+    maps keys to the address of the archetype's page as seen from the page
+    the map is on, so a click on a point opens it. Legend order follows
+    ``result.groups``; the other-decks group is grey. Points are drawn as
+    outlines at full colour (a cloud stays readable where points overlap, and
+    each outline keeps its colour's contrast). The rows go in
+    :attr:`Chart.values`, for a data file of their own.
     """
     groups = {g.key: g for g in result.groups}
+    hrefs = hrefs or {}
 
     def display(key: str) -> str:
         if key in names:
@@ -425,7 +526,8 @@ def map_chart(result: PartitionResult, names: Mapping[str, str], chart_id: str) 
     points = result.map_points
     keys_seen = points["archetype"].astype(str).tolist() if len(points) else []
     order = [g.key for g in result.groups] + sorted(set(keys_seen) - set(groups))
-    style = _style([(display(k), k == OTHER_KEY or (k in groups and groups[k].is_other)) for k in order])
+    by_name = {display(k): looks[k] for k in order if looks and k in looks}
+    style = _style([(display(k), k == OTHER_KEY or (k in groups and groups[k].is_other)) for k in order], by_name)
 
     # As _num(x, 3) point by point, but the finite test is done on whole columns: a season page
     # draws thousands of points for each of its leaders.
@@ -433,30 +535,37 @@ def map_chart(result: PartitionResult, names: Mapping[str, str], chart_id: str) 
     ys = points["y"].to_numpy(dtype=float, na_value=np.nan) if len(points) else np.zeros(0)
     drawn_rows = np.flatnonzero(np.isfinite(xs) & np.isfinite(ys))  # the others were left off the map
     shown = {key: display(key) for key in dict.fromkeys(keys_seen)}
-    names_drawn = [shown[keys_seen[i]] for i in drawn_rows.tolist()]
+    keys_drawn = [keys_seen[i] for i in drawn_rows.tolist()]
+    names_drawn = [shown[k] for k in keys_drawn]
     decks, cards = points["deck_id"].to_numpy(dtype=object), points["cards"].to_numpy(dtype=object)
-    values = [{"deck": str(deck), "archetype": name, "cards": str(card), "x": round(x, 3), "y": round(y, 3)}
-              for deck, name, card, x, y in zip(decks[drawn_rows].tolist(), names_drawn, cards[drawn_rows].tolist(),
-                                               xs[drawn_rows].tolist(), ys[drawn_rows].tolist())]
+    values = [{"deck": str(deck), "archetype": name, "cards": str(card), "x": round(x, 3), "y": round(y, 3),
+               "href": hrefs.get(key, "")}
+              for deck, key, name, card, x, y in zip(decks[drawn_rows].tolist(), keys_drawn, names_drawn,
+                                                    cards[drawn_rows].tolist(), xs[drawn_rows].tolist(),
+                                                    ys[drawn_rows].tolist())]
     counts = Counter(names_drawn)
 
     bare_axis = {"type": "quantitative", "axis": None, "scale": {"zero": False, "nice": False}}
+    encoding = {
+        "x": {**bare_axis, "field": "x", "title": "Map x"},
+        "y": {**bare_axis, "field": "y", "title": "Map y"},
+        "color": {**style.color("archetype"), "legend": _legend_bottom()},
+        "shape": {**style.shape("archetype"), "legend": _legend_bottom()},
+        "tooltip": [
+            {"field": "archetype", "type": "nominal", "title": "Archetype"},
+            {"field": "cards", "type": "nominal", "title": "Its telling cards"},
+            {"field": "deck", "type": "nominal", "title": "Deck"},
+        ],
+    }
+    if any(v["href"] for v in values):
+        encoding["href"] = {"field": "href", "type": "nominal"}
     spec = {
         "width": "container",
         "height": _MAP_HEIGHT,
         "data": {"values": values},
-        "mark": {"type": "point", "filled": True, "size": 36, "opacity": 0.8},
-        "encoding": {
-            "x": {**bare_axis, "field": "x", "title": "Map x"},
-            "y": {**bare_axis, "field": "y", "title": "Map y"},
-            "color": {**style.color("archetype"), "legend": _legend_bottom()},
-            "shape": {**style.shape("archetype"), "legend": _legend_bottom()},
-            "tooltip": [
-                {"field": "deck", "type": "nominal", "title": "Deck"},
-                {"field": "archetype", "type": "nominal", "title": "Archetype"},
-                {"field": "cards", "type": "nominal", "title": "Cards"},
-            ],
-        },
+        # aria off: thousands of points are not read out one by one (the page's table stands in)
+        "mark": {"type": "point", "filled": False, "size": 36, "strokeWidth": 1.5, "opacity": 1, "aria": False},
+        "encoding": encoding,
         "config": {"view": {"stroke": None}},
     }
     drawn = len(values)
@@ -464,10 +573,11 @@ def map_chart(result: PartitionResult, names: Mapping[str, str], chart_id: str) 
     caption = (
         f"Map of {sampled} ({_leader_text(result.leader)}, {result.season}), coloured by archetype. "
         "Decks that play similar cards sit close together; distances on the map are not meaningful "
-        "beyond local neighbourhoods."
+        "beyond local neighbourhoods." + (" Select a point to open its archetype's page." if "href" in encoding else "")
     )
     rows = [(name, counts.get(name, 0)) for name in style.domain if counts.get(name, 0)]
-    return _finish(chart_id, spec, caption, ("Archetype", "Decks drawn"), rows)
+    chart = _finish(chart_id, spec, caption, ("Archetype", "Decks drawn"), rows)
+    return dataclasses.replace(chart, spec={**chart.spec, "data": {"values": []}}, values=values, hidden=True)
 
 
 def silhouette_chart(result: PartitionResult, chart_id: str) -> Chart:
@@ -483,23 +593,23 @@ def silhouette_chart(result: PartitionResult, chart_id: str) -> Chart:
         {"field": "silhouette", "type": "quantitative", "title": "Mean silhouette", "format": ".3f"},
     ]
     layers: list[dict] = [
-        {"mark": {"type": "line", "color": OKABE_ITO[3]}, "encoding": {"x": x, "y": y}},
-        {"mark": {"type": "point", "filled": True, "color": OKABE_ITO[3], "size": 40},
+        {"mark": {"type": "line", "color": PALETTE[0]}, "encoding": {"x": x, "y": y}},
+        {"mark": {"type": "point", "filled": True, "color": PALETTE[0], "size": 40},
          "encoding": {"x": x, "y": y, "tooltip": tooltip}},
     ]
     if chosen is not None:
         scored = [c for c in curve if c["k"] == chosen]
         mark_data = {"values": [{"k": int(chosen), "label": "chosen"}]}
         layers += [
-            {"data": mark_data, "mark": {"type": "rule", "color": OKABE_ITO[4], "strokeDash": [4, 3]},
+            {"data": mark_data, "mark": {"type": "rule", "color": PALETTE[1], "strokeDash": [4, 3]},
              "encoding": {"x": x}},
             {"data": mark_data, "mark": {"type": "text", "align": "left", "dx": 4, "baseline": "top",
-                                         "color": OKABE_ITO[4], "fontWeight": "bold"},
+                                         "color": PALETTE[1], "fontWeight": "bold"},
              "encoding": {"x": x, "y": {"value": 2}, "text": {"field": "label", "type": "nominal"}}},
         ]
         if scored:
             layers.append({"data": {"values": scored},
-                           "mark": {"type": "point", "filled": True, "color": OKABE_ITO[4], "size": 140},
+                           "mark": {"type": "point", "filled": True, "color": PALETTE[1], "size": 140},
                            "encoding": {"x": x, "y": y, "tooltip": tooltip}})
     spec = {
         "width": "container",
@@ -514,9 +624,14 @@ def silhouette_chart(result: PartitionResult, chart_id: str) -> Chart:
     return _finish(chart_id, spec, caption, ("k", "Mean silhouette", "Chosen"), rows)
 
 
-def _group_style(rows: Sequence[Mapping[str, Any]]) -> _Style:
-    """Style archetypes in first-seen order; a row with ``is_other`` true is grey."""
-    return _style([(str(r["archetype"]), bool(r.get("is_other", False))) for r in rows])
+def _group_style(rows: Sequence[Mapping[str, Any]], looks: Mapping[str, Look] | None = None) -> _Style:
+    """Style archetypes by ``looks`` (name -> Look), else in first-seen order; a row with ``is_other`` true is grey."""
+    return _style([(str(r["archetype"]), bool(r.get("is_other", False))) for r in rows], looks)
+
+
+def _season_axis() -> dict:
+    """The season axis: level labels, cut at 120 px; charts.js slants them on a narrow screen."""
+    return {"labelAngle": 0, "labelLimit": 120, "labelOverlap": "greedy"}
 
 
 def _season_order(rows: Sequence[Mapping[str, Any]], seasons: Sequence[str] | None) -> list[str]:
@@ -529,16 +644,17 @@ def _season_order(rows: Sequence[Mapping[str, Any]], seasons: Sequence[str] | No
 
 
 def share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str,
-                seasons: Sequence[str] | None = None) -> Chart:
+                seasons: Sequence[str] | None = None, looks: Mapping[str, Look] | None = None) -> Chart:
     """Each archetype's share of decks across seasons, one line per archetype.
 
     ``rows``: dicts with ``season``, ``archetype``, ``share`` (0..1),
     ``decks`` and optionally ``is_other``. The axis keeps ``seasons`` (the
     publication order) when given, else the order seasons first appear in
-    ``rows``; the first-seen order of archetypes sets the colours.
+    ``rows``; ``looks`` (archetype name -> Look) sets the colours, else the
+    first-seen order of archetypes does.
     """
     seasons = _season_order(rows, seasons)
-    style = _group_style(rows)
+    style = _group_style(rows, looks)
     values = [{"season": str(r["season"]), "archetype": str(r["archetype"]),
                "share": _num(r["share"]), "decks": int(r["decks"])} for r in rows]
     spec = {
@@ -547,7 +663,7 @@ def share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str,
         "data": {"values": values},
         "encoding": {
             "x": {"field": "season", "type": "ordinal", "title": "Season", "sort": seasons,
-                  "axis": {"labelAngle": 0}},
+                  "axis": _season_axis()},
             "y": {"field": "share", "type": "quantitative", "title": "Share of decks",
                   "axis": {"format": ".0%"}},
             "color": {**style.color("archetype"), "legend": _legend_bottom()},
@@ -570,15 +686,15 @@ def share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str,
 
 
 def winrate_chart(rows: Sequence[Mapping[str, Any]], chart_id: str,
-                  seasons: Sequence[str] | None = None) -> Chart:
+                  seasons: Sequence[str] | None = None, looks: Mapping[str, Look] | None = None) -> Chart:
     """Win rate by season with 95% Wilson intervals; small samples drawn hollow.
 
     ``rows``: dicts with ``season``, ``archetype``, ``win_rate``, ``low``,
     ``high`` (the interval), ``games``, ``small`` (bool) and optionally
-    ``is_other``. Season order as in :func:`share_chart`.
+    ``is_other``. Season order and ``looks`` as in :func:`share_chart`.
     """
     seasons = _season_order(rows, seasons)
-    style = _group_style(rows)
+    style = _group_style(rows, looks)
     values = []
     for r in rows:
         small = bool(r["small"])
@@ -589,7 +705,7 @@ def winrate_chart(rows: Sequence[Mapping[str, Any]], chart_id: str,
             "sample": "small sample: read with care" if small else "enough games",
         })
     x = {"field": "season", "type": "nominal", "title": "Season", "sort": seasons,
-         "scale": {"type": "band", "paddingInner": 0.2}, "axis": {"labelAngle": 0}}
+         "scale": {"type": "band", "paddingInner": 0.2}, "axis": _season_axis()}
     offset = {"field": "archetype", "type": "nominal", "title": "Archetype", "sort": style.domain}
     tooltip = [
         {"field": "season", "type": "nominal", "title": "Season"},
@@ -615,7 +731,7 @@ def winrate_chart(rows: Sequence[Mapping[str, Any]], chart_id: str,
         "height": _MID_HEIGHT,
         "data": {"values": values},
         "layer": [
-            {"data": {"values": [{"even": 0.5}]}, "mark": {"type": "rule", "color": OTHER_GREY, "strokeDash": [2, 2]},
+            {"data": {"values": [{"even": 0.5}]}, "mark": {"type": "rule", "color": OTHER_GREY, "strokeDash": [4, 3]},
              "encoding": {"y": {"field": "even", "type": "quantitative"}}},
             {"mark": {"type": "rule", "strokeWidth": 2},
              "encoding": {"x": x, "xOffset": offset, "tooltip": tooltip,
@@ -634,14 +750,15 @@ def winrate_chart(rows: Sequence[Mapping[str, Any]], chart_id: str,
                    ("Season", "Archetype", "Win rate", "95% interval", "Games", "Small sample"), table)
 
 
-def bar_share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str = "Archetype share") -> Chart:
+def bar_share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str = "Archetype share",
+                    looks: Mapping[str, Look] | None = None) -> Chart:
     """One partition's archetypes by share of decks, largest first, with deck counts.
 
     ``rows``: dicts with ``archetype``, ``share``, ``decks`` and optionally
     ``is_other``. Colours follow the order given (use the same order as the
-    partition's map); bars are sorted by share, the other group last.
+    partition's map) unless ``looks`` gives them; bars are sorted by share, the other group last.
     """
-    style = _group_style(rows)
+    style = _group_style(rows, looks)
     values = [{"archetype": str(r["archetype"]), "share": _num(r["share"]), "decks": int(r["decks"]),
                "label": f"{_pct(_num(r['share']))} ({int(r['decks'])})", "other": bool(r.get("is_other", False))}
               for r in rows]

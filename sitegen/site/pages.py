@@ -73,6 +73,8 @@ class LeaderBlock:
     silhouette_chart: Any = _f("Chart object of silhouette by k, or None.")
     share_chart: Any = _f("Chart of this leader's archetype shares across seasons (front page), or None.")
     notes: tuple[str, ...] = _f("Data-quality notes for this leader and season (plain text).")
+    map_data: str = _f("Path from the site root of the script holding the map's points (loaded when the map is "
+                       "drawn), or empty.", default="")
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -151,6 +153,9 @@ class Page:
     style_hash: str = _f("Base64 SHA-256 of inline_style, allowed by the page's Content-Security-Policy; empty without it.")
     icon: str = _f("The site icon's address as written in the page (root included, or a data: URL), or empty.",
                    default="")
+    chart_library: str = _f("Path from the site root of the Vega bundle, which assets/charts.js loads when a chart "
+                            "first comes into view (on <html data-chart-library>); empty on pages without charts.",
+                            default="")
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -209,6 +214,10 @@ class ArchetypePage(Page):
     link_text: str = _f("How it relates to the season before, in plain words, or empty.")
     downloads: tuple[Link, ...] = _f("CSV downloads of its tables.")
     min_games: int = _f("Games below which a win rate is flagged (trends.min_games).")
+    previous: Link | None = _f("This archetype's page in the season before it was last seen (text: that season), or None.",
+                               default=None)
+    next: Link | None = _f("This archetype's page in the next season it is seen in (text: that season), or None.",
+                           default=None)
 
 
 @dataclass(frozen=True, kw_only=True)

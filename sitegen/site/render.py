@@ -35,7 +35,7 @@ from . import charts as ch
 from . import pages as P
 from .memo import PageMemo
 from .notes import Note, Notes, orphan_findings
-from .search import SearchEntry, search_files
+from .search import RANKS, SearchEntry, search_files
 from .sitemap import sitemap_files
 
 #: Closest archetypes listed on an archetype page.
@@ -233,8 +233,18 @@ class _Site:
                     cards.add(line.card)
                     self.card_type.setdefault(line.card, line.card_type)
                 cards.update(s.card for s in a.signature)
+        # Only a card some archetype plays often enough to list (its inclusion table) has a page of
+        # its own: a page for any other card would say nothing. Others are named without a link.
+        listed = {c.card for r in self.results for a in r.archetypes for c in a.inclusion}
         card_slugs = SlugSet()
-        self.card_slug = {c: card_slugs.add(c, fallback="card") for c in sorted(cards)}
+        self.card_slug = {c: card_slugs.add(c, fallback="card") for c in sorted(cards & listed)}
+        # One look (colour and shape) per archetype of each leader, following its page slug
+        # through every season (charts.archetype_looks).
+        self.looks: dict[str, dict[str, ch.Look]] = {}
+        for leader in leaders:
+            self.looks[leader] = ch.archetype_looks(
+                [[self.page_slug[(a.season, a.leader, a.key)] for r in self.results
+                  if r.season == season and r.leader == leader for a in r.archetypes] for season in self.seasons])
         self.has_results = _any_value(data.decks, "wins") or _any_value(data.decks, "losses")
         self.decks_in_season: dict[str, int] = defaultdict(int)
         for r in self.results:
@@ -259,6 +269,9 @@ class _Site:
 
     def slug_of(self, a: Archetype) -> str:
         return self.page_slug[(a.season, a.leader, a.key)]
+
+    def look_of(self, a: Archetype) -> ch.Look:
+        return ch.OTHER_LOOK if a.is_other else self.looks[a.leader][self.slug_of(a)]
 
     def arch_href(self, a: Archetype) -> str:
         return f"archetypes/{self.slug_of(a)}/{self.season_slug[a.season]}.html"
@@ -325,8 +338,12 @@ class Renderer:
         urls = self.urls
         styles = [urls[k] for k in ("charts_css", "site_css") if k in urls and (charts or k == "site_css")]
         scripts = ["search-index.js", urls["site_js"]]
+        library = ""
         if charts and "vega" in urls and "charts_js" in urls:
-            scripts += [urls["vega"], urls["charts_js"]]
+            # charts.js loads the Vega bundle itself when a chart comes into view: the page's
+            # own scripts (search, sorting) never wait on it
+            scripts.append(urls["charts_js"])
+            library = urls["vega"]
         nav = [P.Link(text="Overview", href="index.html")]
         analysed = [x for x in s.seasons if x not in s.emptied]
         if analysed:
@@ -338,7 +355,7 @@ class Renderer:
         return dict(site_title=self.site.cfg["site.title"], title=title, description=description, icon=icon,
                     root=root, path=path, stylesheets=tuple(styles),
                     scripts=tuple(scripts), nav=tuple(nav), leader_word=s.word, leader_word_plural=s.words,
-                    absolute=False, inline_style="", style_hash="")
+                    absolute=False, inline_style="", style_hash="", chart_library=library)
 
     def _emit(self, template: str, page: Any) -> None:
         context = _context(page)
@@ -354,6 +371,17 @@ class Renderer:
             where, line = _template_place(exc, template)
             raise RenderError(f"template {where}{f', line {line}' if line else ''}: {exc} (page {page.path})") from exc
         self.out[page.path] = html.encode("utf-8")
+
+    def _emit_data(self, path: str, chart: Any) -> None:
+        """The data file of a chart whose rows live outside its page (charts.data_script); taken
+        from the last build, like a page, when the chart's key is unchanged."""
+        memo = self.site.page_memo
+        if memo is not None:
+            body = memo.reuse(path, memo.key(path, "chart-data", {"chart": chart}))
+            if body is not None:
+                self.out[path] = body
+                return
+        self.out[path] = ch.data_script(chart.id, chart.values or [])
 
     # -- data-quality notes
     def _notes_for(self, season: str, leader: str | None) -> tuple[str, ...]:
@@ -405,8 +433,13 @@ class Renderer:
         if key not in self._share_charts:
             rows = self._share_rows(leader)
             self._share_charts[key] = (None if len({x["season"] for x in rows}) < 2  # one season: the table says it all
-                                       else ch.share_chart(rows, chart_id, f"{self.s.leader_name(leader)}: archetype shares by season"))
+                                       else ch.share_chart(rows, chart_id, f"{self.s.leader_name(leader)}: archetype shares by season",
+                                                           looks=self._looks_by_name(leader)))
         return self._share_charts[key]
+
+    def _looks_by_name(self, leader: str) -> dict[str, ch.Look]:
+        """Each archetype's look under its latest name, the name the trend charts use."""
+        return {self._latest_name(slug): look for slug, look in self.s.looks.get(leader, {}).items()}
 
     def _map_budgets(self, season: str) -> dict[str, int]:
         """Map points each leader of a season may draw (see :data:`SEASON_MAP_POINTS`)."""
@@ -425,16 +458,19 @@ class Renderer:
         keep = stratified_sample(points["archetype"].astype(str).tolist(), budget, int(self.site.cfg["analysis.seed"]))
         return dataclasses.replace(r, map_points=points.iloc[keep].reset_index(drop=True))
 
-    def _map(self, r: PartitionResult, names: dict[str, str], chart_id: str, budget: int | None) -> Any:
+    def _map(self, r: PartitionResult, names: dict[str, str], chart_id: str, budget: int | None,
+             looks: dict[str, ch.Look], hrefs: dict[str, str]) -> Any:
         """The partition's map chart; made only if its page is rendered, when the rows it is drawn
         from are named by ``rows_key`` (the chart's key then names all it is made from)."""
         def make() -> ch.Chart:
-            return ch.map_chart(self._thin_map(r, budget) if budget is not None else r, names, chart_id)
+            return ch.map_chart(self._thin_map(r, budget) if budget is not None else r, names, chart_id,
+                                looks=looks, hrefs=hrefs)
 
         if not r.rows_key:
             return make()
         key = json.dumps([r.rows_key, r.season, r.leader, int(r.n_decks), chart_id, budget,
                           int(self.site.cfg["analysis.seed"]), sorted(names.items()),
+                          sorted((k, v.colour, v.shape) for k, v in looks.items()), sorted(hrefs.items()),
                           [(g.key, g.name, bool(g.is_other)) for g in r.groups]], ensure_ascii=True)
         return ch.LazyChart(key, make)
 
@@ -453,15 +489,19 @@ class Renderer:
         map_c = sil_c = None
         if with_charts and clustered:
             names = {a.key: s.name_of(a) for a in r.groups}
+            looks = {a.key: s.look_of(a) for a in r.groups}
+            back = _rel_root(s.season_href(r.season))  # the map is drawn on the season page
+            hrefs = {a.key: back + s.arch_href(a) for a in r.archetypes}
             if r.map_points is not None and len(r.map_points):
-                map_c = self._map(r, names, f"map-{lslug}", map_budget)
+                map_c = self._map(r, names, f"map-{lslug}", map_budget, looks, hrefs)
             if r.silhouette:
                 sil_c = ch.silhouette_chart(r, f"silhouette-{lslug}")
         return P.LeaderBlock(name=s.leader_name(r.leader), href=s.leader_link(r.leader).href, anchor=f"leader-{lslug}",
                              decks=int(r.n_decks), clustered=clustered, reason=r.reason, rows=rows,
                              chosen_k=r.chosen_k, k_reason=r.k_reason, map_chart=map_c, silhouette_chart=sil_c,
                              share_chart=self._share_chart(r.leader, f"shares-{lslug}") if with_shares else None,
-                             notes=tuple(notes))
+                             notes=tuple(notes),
+                             map_data=f"seasons/{s.season_slug[r.season]}/map-{lslug}.js" if map_c is not None else "")
 
     # -- pages
     def front(self) -> None:
@@ -495,6 +535,9 @@ class Renderer:
             next=s.season_link(s.seasons[i + 1]) if i + 1 < len(s.seasons) else None,
             notes=self._emptied_notes(season) + self._notes_for(season, None), has_results=s.has_results,
             min_games=s.min_games))
+        for b in blocks:
+            if b.map_chart is not None:
+                self._emit_data(b.map_data, b.map_chart)
 
     def _emptied_notes(self, season: str) -> tuple[str, ...]:
         """Why a season whose every deck was left out has no archetypes, and its rule breakers."""
@@ -596,6 +639,10 @@ class Renderer:
         first, last = self._first_last(slug)
         sslug = s.season_slug[a.season]
         name = s.name_of(a)
+        own = [x for x in self._seasons_of(slug) if x.season != a.season]
+        rank = {x: i for i, x in enumerate(s.seasons)}
+        before = [x for x in own if rank[x.season] < rank[a.season]]
+        after = [x for x in own if rank[x.season] > rank[a.season]]
         base = self._base(path, f"{name}, {a.season}",
                           f"The {name} archetype of {s.leader_name(a.leader)} in season {a.season}: cards and a sample deck.")
         self._emit("archetype.html", P.ArchetypePage(
@@ -614,7 +661,9 @@ class Renderer:
             link_text=self._link_text(a),
             downloads=(P.Link(text="Card table (CSV)", href=f"archetypes/{slug}/{sslug}-cards.csv"),
                        P.Link(text="Representative deck (CSV)", href=f"archetypes/{slug}/{sslug}-decklist.csv")),
-            min_games=s.min_games))
+            min_games=s.min_games,
+            previous=P.Link(text=before[-1].season, href=s.arch_href(before[-1])) if before else None,
+            next=P.Link(text=after[0].season, href=s.arch_href(after[0])) if after else None))
         self.out[f"archetypes/{slug}/{sslug}-cards.csv"] = exports.card_table_csv(a)
         self.out[f"archetypes/{slug}/{sslug}-decklist.csv"] = exports.decklist_csv(a)
 
@@ -677,7 +726,7 @@ class Renderer:
         if isinstance(given, dict) and given.get("winrates"):
             trend_rows = [{**row, "archetype": self._latest_name(row["slug"]) if row.get("slug") in s.by_slug
                            else row["archetype"]} for row in given["winrates"]]
-        trend_c = ch.winrate_chart(trend_rows, f"winrate-{lslug}") if trend_rows else None
+        trend_c = ch.winrate_chart(trend_rows, f"winrate-{lslug}", looks=self._looks_by_name(leader)) if trend_rows else None
         path = s.leader_link(leader).href
         name = s.leader_name(leader)
         base = self._base(path, name, f"Archetypes of {name}, season by season.",
@@ -700,7 +749,8 @@ class Renderer:
         relative to the page would point nowhere: with site.base_url every
         link and asset is absolute; without it links start at the host's root
         ('/') and the stylesheet is written into the page (allowed by its hash
-        in the CSP), so it looks right at any depth and from file:// too."""
+        in the CSP), so it looks right at any depth and from file:// too. It
+        has the search box: its scripts come from the root as well."""
         base_url = self.site.cfg["site.base_url"].strip()
         root = base_url.rstrip("/") + "/" if base_url else "/"
         base = self._base("404.html", "Page not found", "There is no page at this address.", root=root)
@@ -710,20 +760,26 @@ class Renderer:
             if "</" in css:  # it would end the <style> element early
                 raise RenderError(f"{self.urls['site_css']}: contains '</', which cannot be written inside a <style> element")
             base.update(inline_style=css, style_hash=base64.b64encode(hashlib.sha256(css.encode("utf-8")).digest()).decode("ascii"),
-                        stylesheets=(), scripts=(), icon=_data_url(self.assets, self.urls.get("icon_svg")))
+                        stylesheets=(), icon=_data_url(self.assets, self.urls.get("icon_svg")))
         self._emit("404.html", P.NotFoundPage(**base, home=root + "index.html"))
 
     def search(self) -> None:
         s = self.s
         entries = []
         for slug in sorted(s.by_slug):
-            latest = self._seasons_of(slug)[-1]
+            arches = self._seasons_of(slug)
+            latest = arches[-1]
+            former = tuple(dict.fromkeys(n for n in (s.name_of(a) for a in arches[:-1]) if n != s.name_of(latest)))
             entries.append(SearchEntry(s.name_of(latest), "archetype", f"archetypes/{slug}/index.html",
-                                       s.leader_name(latest.leader)))
+                                       s.leader_name(latest.leader), rank=RANKS["archetype"], aliases=former))
         for leader, slug in s.leader_slug.items():
-            entries.append(SearchEntry(s.leader_name(leader), s.word, f"leaders/{slug}.html"))
+            entries.append(SearchEntry(s.leader_name(leader), s.word, f"leaders/{slug}.html", rank=RANKS["leader"]))
+        for season in s.seasons:
+            entries.append(SearchEntry(season, "season", s.season_href(season),
+                                       f"{s.decks_in_season[season]} decks", rank=RANKS["season"]))
         for card, slug in s.card_slug.items():
-            entries.append(SearchEntry(card, "card", f"cards/{slug}.html", s.card_type.get(card, "")))
+            entries.append(SearchEntry(card, "card", f"cards/{slug}.html", s.card_type.get(card, ""),
+                                       rank=RANKS["card"]))
         self.out.update(search_files(entries))
 
     def run(self) -> tuple[dict[str, bytes], list[Finding]]:

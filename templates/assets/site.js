@@ -6,10 +6,18 @@
 
   var root = document.documentElement.getAttribute("data-root") || "";
 
-  /* -- search: the index is a global set by search-index.js (fetch() is refused on file://) */
+  /* -- search: the index is a global set by search-index.js (fetch() is refused on file://).
+   * The box is a combobox with a list popup (WAI-ARIA Authoring Practices, combobox pattern):
+   * typing opens the list, Down/Up move through it (aria-activedescendant), Enter opens the
+   * chosen page (the first when none is chosen), Escape closes the list (and clears the box
+   * when it is already closed), leaving the box closes it. */
   function fold(text) {
     return String(text).normalize("NFKD").replace(/[\u0300-\u036f]/g, "").toLowerCase();
   }
+
+  /* Most results listed per kind of page (index rank), and in all. */
+  var PER_RANK = [8, 4, 4, 8];
+  var MOST = 20;
 
   function setupSearch() {
     var box = document.getElementById("site-search-box");
@@ -18,41 +26,122 @@
     var index = window.SITEGEN_SEARCH;
     if (!box || !list || !index || !index.entries) { return; }
     var entries = index.entries.map(function (e) {
-      return { name: e.n, kind: e.k, path: e.p, detail: e.d, key: fold(e.n + " " + e.d) };
+      var aliases = e.a || [];
+      return { name: e.n, kind: e.k, path: e.p, detail: e.d, rank: typeof e.r === "number" ? e.r : 3,
+               aliases: aliases, own: fold(e.n), others: aliases.map(fold), key: fold([e.n, e.d].concat(aliases).join(" ")) };
     });
+    var shown = [];
+    var active = -1;
+
+    box.setAttribute("role", "combobox");
+    box.setAttribute("aria-autocomplete", "list");
+    box.setAttribute("aria-expanded", "false");
+    box.setAttribute("aria-controls", list.id);
+    list.setAttribute("role", "listbox");
+    list.setAttribute("aria-label", "Pages found");
+    list.hidden = true;
+
+    /* 0: the name starts with the words; 1: a word of the name does; 2: a former name matches; 3: elsewhere */
+    function closeness(e, text) {
+      if (e.own.indexOf(text) === 0) { return 0; }
+      if ((" " + e.own).indexOf(" " + text) !== -1) { return 1; }
+      for (var i = 0; i < e.others.length; i++) { if (e.others[i].indexOf(text) !== -1) { return 2; } }
+      return 3;
+    }
+
+    function setActive(i) {
+      var options = list.children;
+      if (active >= 0 && options[active]) {
+        options[active].setAttribute("aria-selected", "false");
+        options[active].classList.remove("active");
+      }
+      active = i;
+      if (active >= 0 && options[active]) {
+        options[active].setAttribute("aria-selected", "true");
+        options[active].classList.add("active");
+        box.setAttribute("aria-activedescendant", options[active].id);
+        if (options[active].scrollIntoView) { options[active].scrollIntoView({ block: "nearest" }); }
+      } else {
+        box.removeAttribute("aria-activedescendant");
+      }
+    }
+
+    function close() {
+      setActive(-1);
+      list.hidden = true;
+      box.setAttribute("aria-expanded", "false");
+    }
+
+    function open() {
+      if (!shown.length) { close(); return; }
+      list.hidden = false;
+      box.setAttribute("aria-expanded", "true");
+    }
+
+    function go(e) { window.location.href = root + e.path; }  /* paths are relative to the site root */
+
     function show() {
-      var words = fold(box.value).split(/\s+/).filter(Boolean);
+      var text = fold(box.value).trim();
+      var words = text.split(/\s+/).filter(Boolean);
       while (list.firstChild) { list.removeChild(list.firstChild); }
-      if (!words.length) { status.textContent = ""; return; }
+      shown = [];
+      active = -1;
+      box.removeAttribute("aria-activedescendant");
+      if (!words.length) { status.textContent = ""; close(); return; }
       var hits = entries.filter(function (e) {
         return words.every(function (w) { return e.key.indexOf(w) !== -1; });
       });
+      hits.forEach(function (e) { e.close = closeness(e, text); });
       hits.sort(function (a, b) {
-        var pa = fold(a.name).indexOf(words[0]) === 0 ? 0 : 1;
-        var pb = fold(b.name).indexOf(words[0]) === 0 ? 0 : 1;
-        return pa - pb || a.name.localeCompare(b.name);
+        return a.rank - b.rank || a.close - b.close || a.name.localeCompare(b.name);
       });
-      hits.slice(0, 20).forEach(function (e) {
+      var taken = [0, 0, 0, 0];
+      hits.forEach(function (e) {
+        var r = Math.min(Math.max(e.rank, 0), 3);
+        if (shown.length < MOST && taken[r] < PER_RANK[r]) { taken[r] += 1; shown.push(e); }
+      });
+      shown.forEach(function (e, i) {
         var li = document.createElement("li");
-        var a = document.createElement("a");
-        a.href = root + e.path;          /* paths are relative to the site root */
-        a.textContent = e.name;          /* text, never markup */
+        li.id = "site-search-option-" + i;
+        li.setAttribute("role", "option");
+        li.setAttribute("aria-selected", "false");
+        var name = document.createElement("span");
+        name.className = "name";
+        name.textContent = e.name;       /* text, never markup */
+        li.appendChild(name);
+        var former = e.close === 2 ? e.aliases.filter(function (n) { return fold(n).indexOf(text) !== -1; })[0] : "";
         var kind = document.createElement("span");
         kind.className = "kind";
-        kind.textContent = " " + e.kind + (e.detail ? ", " + e.detail : "");
-        li.appendChild(a);
+        kind.textContent = " " + e.kind + (e.detail ? ", " + e.detail : "") + (former ? ", formerly " + former : "");
         li.appendChild(kind);
+        li.addEventListener("mousedown", function (ev) { ev.preventDefault(); });  /* keep the focus in the box */
+        li.addEventListener("click", function () { go(e); });
         list.appendChild(li);
       });
-      status.textContent = hits.length ? (hits.length > 20 ? "First 20 of " + hits.length + " matches" : hits.length + (hits.length === 1 ? " match" : " matches")) : "Nothing found";
+      status.textContent = hits.length ? (hits.length > shown.length ? shown.length + " of " + hits.length + " matches shown" : hits.length + (hits.length === 1 ? " match" : " matches")) : "Nothing found";
+      open();
     }
+
     box.addEventListener("input", show);
+    box.addEventListener("focus", function () { if (box.value.trim()) { show(); } });
+    box.addEventListener("blur", close);
     box.addEventListener("keydown", function (ev) {
-      if (ev.key === "Enter") {
-        var first = list.querySelector("a");
-        if (first) { window.location.href = first.href; }
-      } else if (ev.key === "Escape") {
-        box.value = ""; show();
+      var expanded = !list.hidden;
+      if (ev.key === "ArrowDown" || ev.key === "Down") {
+        ev.preventDefault();
+        if (!expanded) { show(); if (shown.length) { setActive(0); } return; }
+        setActive(active + 1 < shown.length ? active + 1 : 0);
+      } else if (ev.key === "ArrowUp" || ev.key === "Up") {
+        ev.preventDefault();
+        if (!expanded) { show(); if (shown.length) { setActive(shown.length - 1); } return; }
+        setActive(active > 0 ? active - 1 : shown.length - 1);
+      } else if (ev.key === "Enter") {
+        if (expanded && shown.length) {
+          ev.preventDefault();
+          go(shown[active >= 0 ? active : 0]);
+        }
+      } else if (ev.key === "Escape" || ev.key === "Esc") {
+        if (expanded) { ev.preventDefault(); close(); } else if (box.value) { ev.preventDefault(); box.value = ""; show(); }
       }
     });
   }
@@ -105,7 +194,36 @@
     });
   }
 
-  function start() { setupSearch(); setupTables(); }
+  /* -- wide tables: a line under each table wider than its box says more columns lie sideways */
+  function markWideTables() {
+    Array.prototype.forEach.call(document.querySelectorAll(".table-scroll"), function (box) {
+      var hint = box.nextElementSibling && box.nextElementSibling.classList.contains("scroll-hint") ? box.nextElementSibling : null;
+      var wide = box.clientWidth > 0 && box.scrollWidth > box.clientWidth + 1;
+      if (wide && !hint) {
+        hint = document.createElement("p");
+        hint.className = "scroll-hint";
+        hint.textContent = "More columns to the right: scroll the table sideways.";
+        box.parentNode.insertBefore(hint, box.nextSibling);
+      }
+      if (hint) { hint.hidden = !wide; }
+    });
+  }
+
+  function setupWideTables() {
+    markWideTables();
+    var waiting = false;
+    window.addEventListener("resize", function () {
+      if (waiting) { return; }
+      waiting = true;
+      window.setTimeout(function () { waiting = false; markWideTables(); }, 200);
+    });
+    /* a table inside a closed <details> has no width until it is opened */
+    Array.prototype.forEach.call(document.querySelectorAll("details"), function (d) {
+      d.addEventListener("toggle", markWideTables);
+    });
+  }
+
+  function start() { setupSearch(); setupTables(); setupWideTables(); }
   if (document.readyState === "loading") {
     document.addEventListener("DOMContentLoaded", start);
   } else {
