@@ -824,6 +824,9 @@ DEV_GRID: tuple[Cell, ...] = (
     Cell("dev-variant-family", StressSettings("power", 5, n_tail=1, n_variants=3, variant_keep=0.8,
                                               play_rate=(0.6, 0.9), brew_share=0.05, partial_share=0.3,
                                               sizes=(400, 3000), seed=111)),
+    Cell("dev-tiny-variants", StressSettings("power", 4, n_tail=1, n_tiny=2, n_variants=2, variant_keep=0.8,
+                                             play_rate=(0.6, 0.9), brew_share=0.04, partial_share=0.3,
+                                             sizes=(500, 5000), seed=112)),
 )
 
 #: Seed of the draw of the evaluation grid's settings, and its number of cells.

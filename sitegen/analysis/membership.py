@@ -2,30 +2,38 @@
 
 Candidate groups come from :mod:`.cluster`; this module decides what is an
 archetype and what is an other deck, in the TF-IDF space the exports measure
-distances in:
+distances in (card presence weighted by rarity, each deck a unit row):
 
-- **Centres** are the unit mean direction of a group's TF-IDF rows; a deck is
-  scored by its cosine similarity to each centre and goes to the most similar.
-- **Random decks of the same leader** are the yardstick: each is a real deck
-  of the partition whose staples (cards at least half the decks of every group
+- **Centres** are the unit mean direction of a group's rows; a deck is scored
+  by its cosine similarity to each centre and goes to the most similar.
+- **Random decks of the same leader** are the yardstick: each is a real deck of
+  the partition whose staples (cards at least half the decks of every group
   play) are kept and whose other cards are swapped for cards drawn at random
-  from the partition's pool. A centre's *cut* is the similarity that only 1 in
-  100 of those random decks reaches. A deck no more similar to its nearest
+  from the partition's pool. A centre's *cut* is the similarity that random
+  decks reach only 1 time in 50 over all k centres (1 in 50k at each centre,
+  since a deck gets to try its nearest). A deck less similar to its nearest
   centre than that cut is an other deck: it looks like a random pile to every
   archetype.
-- **A group is an archetype** when, after its random-looking decks leave, it
-  still holds at least ``least`` decks, and its typical member is similar to the
-  rest of the group (similarity to the centre of the *other* members, so a pile
-  of one-offs cannot lean on itself) beyond the cut. Failing groups give their
+- **A group is an archetype** when it still holds at least ``least`` decks
+  above the cuts, and its typical member (the median) is, to the centre of the
+  *other* members, at least as similar as the cut: while groups are settled a
+  deck is scored against its own group without itself, so a small pile of
+  one-offs cannot pass by leaning on its own weight. Failing groups give their
   decks to the next nearest archetype (or to the other decks by the same rule).
 - **Two groups are two archetypes** only when each has a card of its own
-  against the other: played by at least half of its decks and by at most a
-  fifth of the other's. A close variant passes (it dropped some of its parent's
-  cards and added its own); two halves of one archetype cut along flex cards
-  do not, and are merged.
+  against the other (played by at least half of its decks and at most a fifth
+  of the other's) and two such cards exclude each other across both groups
+  (Yule's Q of playing one and the other at most -0.8, or at most -0.5 with a
+  one-sided Fisher exact p below 1e-6). A close variant passes: it dropped some
+  of its parent's cards for cards of its own. Two halves of one archetype cut
+  along flex cards do not, for its decks play those cards independently; they
+  are joined. Each group also gets a 2-way k-means cut tried on it, kept when
+  the pieces pass the same test.
 
-The same centres and cuts are stored with the results, so a decklist from
-outside the data can be placed by exactly the build's rule.
+The centres and cuts the final labels were assigned by are stored with the
+results (:class:`sitegen.model.Placement`), so a decklist from outside the data
+can be placed by exactly the build's rule. The measurements behind these
+choices are in docs/method.md.
 """
 from __future__ import annotations
 
@@ -37,8 +45,8 @@ from scipy.stats import fisher_exact
 
 #: Random decks drawn per partition for the cut.
 NULL_DECKS = 1000
-#: Share of random decks allowed above a centre's cut.
-NULL_QUANTILE = 0.99
+#: Share of random decks the cuts keep out, over all of a partition's centres.
+NULL_QUANTILE = 0.98
 #: A card of one's own: played by at least this share of the group...
 OWN_IN = 0.5
 #: ...and by at most this share of the group it is told apart from.
@@ -192,12 +200,12 @@ def null_rows(present: sp.csr_matrix, idf: np.ndarray, staples: np.ndarray, n_nu
 
 
 def cuts_for(null: sp.csr_matrix, centres: np.ndarray) -> np.ndarray:
-    """Each centre's cut: the similarity to it that only 1 in 100 random decks reaches."""
+    """Each centre's cut: the similarity random decks reach only 1 time in 50 over all k centres."""
     if centres.shape[0] == 0:
         return np.zeros(0)
     if null.shape[0] == 0:
         return np.zeros(centres.shape[0])
-    # Each deck is held to its nearest of k centres, so it has k chances to pass: 1 in 100 over all of them.
+    # Each deck is held to its nearest of k centres, so it has k chances to pass: 1 in 50 over all of them.
     level = 1.0 - (1.0 - NULL_QUANTILE) / centres.shape[0]
     return np.quantile(similarities(null, centres), level, axis=0)
 

@@ -232,7 +232,7 @@ def _k_reason(found: membership.Membership, k: int, n_other: int, n: int, least:
     text = "; ".join(words) + "."
     if n_other:
         text += (f" {_count(n_other, 'deck')} of {n:,} ({n_other / n:.0%}) fit no archetype: each is no closer "
-                 f"to its nearest archetype than 99 in 100 random decks of this partition would be")
+                 f"to its nearest archetype than 49 in 50 random decks of this partition would be")
         if found.dropped_small or found.dropped_loose:
             text += ", among them decks of the groups given up"
         text += "."
