@@ -54,6 +54,10 @@ class ArchetypeRow:
     signature: tuple[Link, ...] = _f("Signature cards, linked to their card pages.")
     summary: str = _f("The analyst's one-line summary, or empty.")
     is_other: bool = _f("True for the group of decks that fit no archetype.")
+    stability: float | None = _f("How firmly it holds together: mean Jaccard index with its best match when the "
+                                 "archetype rule is rerun on random halves of the partition (None: not measured).",
+                                 default=None)
+    firmness: str = _f("That in a reader's words: clear, loose or weak group (empty when not measured).", default="")
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -218,6 +222,8 @@ class ArchetypePage(Page):
                                default=None)
     next: Link | None = _f("This archetype's page in the next season it is seen in (text: that season), or None.",
                            default=None)
+    stability: float | None = _f("How firmly it holds together (see ArchetypeRow.stability), or None.", default=None)
+    firmness: str = _f("That in a reader's words: clear, loose or weak group (empty when not measured).", default="")
 
 
 @dataclass(frozen=True, kw_only=True)

@@ -100,6 +100,12 @@ def isolate(text: object) -> str:
     return text
 
 
+def firmness_words(stability: float | None) -> str:
+    """A reader's words for an archetype's stability (see sitegen.analysis.stability)."""
+    from ..analysis.stability import words
+    return words(stability)
+
+
 def make_environment(templates_dirs: Sequence[Path]) -> jinja2.Environment:
     """A strict, autoescaping environment over the template folders, first wins.
 
@@ -300,7 +306,8 @@ class _Site:
             name=self.name_of(a), href="" if a.is_other else self.arch_href(a), decks=int(a.n_decks),
             share=float(a.share), win=win_rate(a.wins, a.losses, self.min_games),
             signature=() if a.is_other else self.signature_links(a),
-            summary=note.summary if note is not None else "", is_other=a.is_other)
+            summary=note.summary if note is not None else "", is_other=a.is_other,
+            stability=a.stability, firmness=firmness_words(a.stability))
 
     def note_view(self, note: Note | None) -> P.NoteView | None:
         if note is None or note.hidden:
@@ -496,9 +503,15 @@ class Renderer:
                 map_c = self._map(r, names, f"map-{lslug}", map_budget, looks, hrefs)
             if r.silhouette:
                 sil_c = ch.silhouette_chart(r, f"silhouette-{lslug}")
+        k_reason = r.k_reason
+        if clustered and r.chosen_k is not None and r.chosen_k != len(r.archetypes):
+            # Analysts' notes merged or hid archetypes after the analysis: say so, so the count agrees with the table.
+            k_reason += (f" Analysts' notes (merge_into, hide) leave {len(r.archetypes)} of them "
+                         f"in the table.")
         return P.LeaderBlock(name=s.leader_name(r.leader), href=s.leader_link(r.leader).href, anchor=f"leader-{lslug}",
                              decks=int(r.n_decks), clustered=clustered, reason=r.reason, rows=rows,
-                             chosen_k=r.chosen_k, k_reason=r.k_reason, map_chart=map_c, silhouette_chart=sil_c,
+                             chosen_k=len(r.archetypes) if clustered else None, k_reason=k_reason,
+                             map_chart=map_c, silhouette_chart=sil_c,
                              share_chart=self._share_chart(r.leader, f"shares-{lslug}") if with_shares else None,
                              notes=tuple(notes),
                              map_data=f"seasons/{s.season_slug[r.season]}/map-{lslug}.js" if map_c is not None else "")
@@ -651,6 +664,7 @@ class Renderer:
             history=P.Link(text=f"{name} across seasons", href=f"archetypes/{slug}/index.html"),
             decks=int(a.n_decks), partition_decks=int(r.n_decks), share=float(a.share),
             win=win_rate(a.wins, a.losses, s.min_games), signature=s.signature_links(a), note=s.note_view(note),
+            stability=a.stability, firmness=firmness_words(a.stability),
             cards=tuple(P.CardRow(card=s.card_link(c.card), card_type=c.card_type, share=c.share,
                                   mean_copies=c.mean_copies, at_1=c.at_1, at_2=c.at_2, at_3_plus=c.at_3_plus,
                                   tier=c.tier) for c in a.inclusion),
