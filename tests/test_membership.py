@@ -123,13 +123,13 @@ def test_yules_q_of_the_exclusion_check_matches_statsmodels():
 
 
 def test_cuts_are_quantiles_of_random_decks_over_the_centres():
-    # Reference: numpy.quantile at 1 - 0.01 / k of the random decks' similarities to each centre.
+    # Reference: numpy.quantile at 1 - (1 - NULL_QUANTILE) / k of the random decks' similarities to each centre.
     counts, w = _rows(4)
     centres = membership.centres_of(w, np.arange(60) % 2, 2)
     null = membership.null_rows(features.presence(counts), features.idf(counts), np.zeros(30, bool), 500, 0)
     assert null.shape == (500, 30)
     np.testing.assert_allclose(np.asarray(null.multiply(null).sum(axis=1)).ravel(), 1.0)
-    ref = np.quantile(cosine_similarity(null, centres), 1 - 0.01 / 2, axis=0)
+    ref = np.quantile(cosine_similarity(null, centres), 1 - (1 - membership.NULL_QUANTILE) / 2, axis=0)
     np.testing.assert_allclose(membership.cuts_for(null, centres), ref)
 
 

@@ -43,8 +43,10 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.stats import fisher_exact
 
-#: Random decks drawn per partition for the cut.
-NULL_DECKS = 1000
+#: Random decks drawn per partition for the cut (a cut is about their 10th most similar at k = 8),
+#: made NULL_BATCH at a time.
+NULL_DECKS = 4000
+NULL_BATCH = 1000
 #: Share of random decks the cuts keep out, over all of a partition's centres.
 NULL_QUANTILE = 0.98
 #: A card of one's own: played by at least this share of the group...
@@ -116,7 +118,7 @@ def rates(present: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
 
 
 def distinct(present: sp.csr_matrix, a: np.ndarray, b: np.ndarray, rate_a: np.ndarray | None = None,
-             rate_b: np.ndarray | None = None, *, strict: bool = False) -> bool:
+             rate_b: np.ndarray | None = None, *, strict: bool = False, by_card: sp.csc_matrix | None = None) -> bool:
     """True when decks ``a`` and ``b`` are two archetypes, not one cut in two (see the module notes).
 
     Each side needs a card of its own: played by at least :data:`OWN_IN` of
@@ -140,9 +142,12 @@ def distinct(present: sp.csr_matrix, a: np.ndarray, b: np.ndarray, rate_a: np.nd
         return True
     own_a = own_a[np.argsort(-(rate_a - rate_b)[own_a], kind="stable")][:OWN_TRIED]
     own_b = own_b[np.argsort(-(rate_b - rate_a)[own_b], kind="stable")][:OWN_TRIED]
-    both = present[np.concatenate([a, b])]
-    x = both[:, own_a].toarray() > 0
-    y = both[:, own_b].toarray() > 0
+    both = np.concatenate([a, b])
+    if by_card is None:  # the same matrix by column: a few cards of many decks are read fast from it
+        by_card = sp.csc_matrix(present[both])
+        both = np.arange(len(both))
+    x = by_card[:, own_a].toarray()[both] > 0
+    y = by_card[:, own_b].toarray()[both] > 0
     together = x.T.astype(np.float64) @ y  # decks playing both
     nx = x.sum(axis=0)[:, None]
     ny = y.sum(axis=0)[None, :]
@@ -172,7 +177,8 @@ def null_rows(present: sp.csr_matrix, idf: np.ndarray, staples: np.ndarray, n_nu
 
     Each random deck starts from a real deck drawn at random: its staples are
     kept, and each of its other cards is replaced by a card drawn without
-    replacement from the partition's other cards, uniformly.
+    replacement from the partition's other cards, uniformly (the cards with
+    the smallest of one random key each). All decks are drawn at once.
     """
     n, m = present.shape
     rng = np.random.default_rng(seed)
@@ -180,20 +186,25 @@ def null_rows(present: sp.csr_matrix, idf: np.ndarray, staples: np.ndarray, n_nu
     pool = np.flatnonzero(played & ~staples)
     if n == 0 or len(pool) == 0:
         return sp.csr_matrix((0, m))
-    picked = rng.integers(0, n, size=n_null)
-    lengths = np.diff(present.indptr)
-    rows, cols = [], []
-    for i, r in enumerate(picked):
-        mine = present.indices[present.indptr[r]:present.indptr[r + 1]]
-        kept = mine[staples[mine]]
-        swap = min(int(lengths[r]) - len(kept), len(pool))
-        fresh = pool[rng.choice(len(pool), size=swap, replace=False)] if swap else np.zeros(0, dtype=np.intp)
-        chosen = np.concatenate([kept, fresh])
-        rows.append(np.full(len(chosen), i))
-        cols.append(chosen)
-    rows_a = np.concatenate(rows) if rows else np.zeros(0, dtype=np.intp)
-    cols_a = np.concatenate(cols) if cols else np.zeros(0, dtype=np.intp)
-    null = sp.csr_matrix((idf[cols_a], (rows_a, cols_a)), shape=(n_null, m))
+    picked = present[rng.integers(0, n, size=n_null)]
+    is_staple = staples[picked.indices]
+    kept_rows = np.repeat(np.arange(n_null), np.diff(picked.indptr))[is_staple]
+    kept_cols = picked.indices[is_staple]
+    swap = np.minimum(np.diff(picked.indptr) - np.bincount(kept_rows, minlength=n_null), len(pool))
+    most = int(swap.max(initial=0))
+    if most:
+        keys = rng.random((n_null, len(pool)))
+        first = np.argpartition(keys, most - 1, axis=1)[:, :most] if most < len(pool) else np.tile(np.arange(len(pool)), (n_null, 1))
+        order = np.argsort(np.take_along_axis(keys, first, axis=1), axis=1)
+        first = np.take_along_axis(first, order, axis=1)
+        take = np.arange(most)[None, :] < swap[:, None]
+        fresh_rows = np.repeat(np.arange(n_null), swap)
+        fresh_cols = pool[first[take]]
+    else:
+        fresh_rows = fresh_cols = np.zeros(0, dtype=np.intp)
+    rows = np.concatenate([kept_rows, fresh_rows])
+    cols = np.concatenate([kept_cols, fresh_cols])
+    null = sp.csr_matrix((idf[cols], (rows, cols)), shape=(n_null, m))
     norms = np.sqrt(np.asarray(null.multiply(null).sum(axis=1)).ravel())
     norms[norms == 0] = 1.0
     return sp.csr_matrix(sp.diags(1.0 / norms) @ null)
@@ -222,10 +233,16 @@ def loo_similarity(weights: sp.csr_matrix, members: np.ndarray) -> np.ndarray:
     return (dots - own) / rest
 
 
-def merge_alike(present: sp.csr_matrix, weights: sp.csr_matrix, labels: np.ndarray) -> tuple[np.ndarray, int]:
-    """Join groups that have no card of their own against each other, most similar pair first."""
+def merge_alike(present: sp.csr_matrix, weights: sp.csr_matrix, labels: np.ndarray,
+                by_card: sp.csc_matrix | None = None, known: dict | None = None) -> tuple[np.ndarray, int]:
+    """Join groups that have no card of their own against each other, most similar pair first.
+
+    ``known`` remembers the verdict on each pair of member sets across calls (a pair left as it was
+    is not judged again)."""
     labels = labels.copy()
     merged = 0
+    by_card = sp.csc_matrix(present) if by_card is None else by_card
+    known = {} if known is None else known
     while True:
         keys = [c for c in np.unique(labels) if c >= 0]
         if len(keys) < 2:
@@ -237,7 +254,11 @@ def merge_alike(present: sp.csr_matrix, weights: sp.csr_matrix, labels: np.ndarr
         best = None
         for i, a in enumerate(keys):
             for b in keys[i + 1:]:
-                if distinct(present, members[a], members[b], share[a], share[b], strict=True):
+                pair = (members[a].tobytes(), members[b].tobytes())
+                if pair not in known:
+                    known[pair] = distinct(present, members[a], members[b], share[a], share[b], strict=True,
+                                           by_card=by_card)
+                if known[pair]:
                     continue
                 sim = float(centres[a] @ centres[b])
                 if best is None or sim > best[0]:
@@ -266,13 +287,17 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     merged = dropped_small = dropped_loose = 0
     split = 0
     tried: set[bytes] = set()
+    nulls = _Nulls(present, idf, seed)
+    by_card = sp.csc_matrix(present)
+    known: dict = {}
     for _ in range(64):
-        labels, small, loose = _prune(present, weights, idf, labels, least, seed)
+        labels, small, loose = _prune(present, weights, nulls, labels, least)
         dropped_small += small
         dropped_loose += loose
         if not merge:
             break
-        joined, count = merge_alike(present, weights, labels) if labels.max(initial=-1) >= 1 else (labels, 0)
+        joined, count = (merge_alike(present, weights, labels, by_card, known) if labels.max(initial=-1) >= 1
+                         else (labels, 0))
         if count:
             merged += count
             labels = _compact(joined)
@@ -283,7 +308,7 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
             continue
         if rows is None or (most is not None and labels.max(initial=-1) + 1 >= most):
             break
-        cut = _split_one(present, rows, labels, least, seed, tried)
+        cut = _split_one(present, rows, labels, least, seed, tried, by_card)
         if cut is None:
             break
         labels = cut
@@ -297,7 +322,7 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     sims = similarities(weights, centres)
     near = np.argmax(sims, axis=1)
     sim = sims[np.arange(n), near]
-    cuts = cuts_for(null_rows(present, idf, _staples(present, near, k), NULL_DECKS, seed), centres)
+    cuts = cuts_for(nulls(_staples(present, near, k)), centres)
     final = np.where(sim >= cuts[near], near, -1)
     return Membership(final, centres, cuts, sim, int((final < 0).sum()), dropped_small, dropped_loose, merged, split)
 
@@ -314,7 +339,7 @@ def _join_closest(weights: sp.csr_matrix, labels: np.ndarray) -> np.ndarray:
     return out
 
 
-def _split_one(present, rows, labels, least, seed, tried) -> np.ndarray | None:
+def _split_one(present, rows, labels, least, seed, tried, by_card=None) -> np.ndarray | None:
     """Labels with one group cut in two, or None: the first group (largest first) whose 2-way k-means
     cut (on the reduced ``rows``) leaves two pieces of at least ``least`` decks, each with a card of its
     own against the other. ``tried`` remembers groups already looked at, so none is tried twice."""
@@ -340,9 +365,25 @@ def _split_one(present, rows, labels, least, seed, tried) -> np.ndarray | None:
             continue
         cut = labels.copy()
         cut[members[piece == 1]] = k
-        if distinct(present, members[piece == 0], members[piece == 1], strict=True):
+        if distinct(present, members[piece == 0], members[piece == 1], strict=True, by_card=by_card):
             return cut
     return None
+
+
+class _Nulls:
+    """Random decks of one partition, made once for each set of staples asked for."""
+
+    def __init__(self, present: sp.csr_matrix, idf: np.ndarray, seed: int) -> None:
+        self._present, self._idf, self._seed = present, idf, seed
+        self._made: dict[bytes, sp.csr_matrix] = {}
+
+    def __call__(self, staples: np.ndarray) -> sp.csr_matrix:
+        key = np.packbits(staples).tobytes()
+        if key not in self._made:
+            # In batches of NULL_BATCH, each from its own seed, so memory stays small at any pool size.
+            self._made[key] = sp.vstack([null_rows(self._present, self._idf, staples, NULL_BATCH, self._seed + i)
+                                         for i in range(NULL_DECKS // NULL_BATCH)], format="csr")
+        return self._made[key]
 
 
 def _compact(labels: np.ndarray) -> np.ndarray:
@@ -359,7 +400,7 @@ def _staples(present: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
     return np.all(rates(present, labels, k) >= STAPLE_SHARE, axis=0)
 
 
-def _prune(present, weights, idf, labels, least, seed) -> tuple[np.ndarray, int, int]:
+def _prune(present, weights, nulls, labels, least) -> tuple[np.ndarray, int, int]:
     """Give up small and loose groups until none is left; return the labels inside the cuts.
 
     A deck is scored against its own group's centre *without itself* (as a
@@ -378,7 +419,7 @@ def _prune(present, weights, idf, labels, least, seed) -> tuple[np.ndarray, int,
         sim = sims.max(axis=1)
         cuts = np.zeros(k)
         centres = centres_of(weights, labels, k)
-        cuts[live] = cuts_for(null_rows(present, idf, _staples(present, near, k), NULL_DECKS, seed), centres[live])
+        cuts[live] = cuts_for(nulls(_staples(present, near, k)), centres[live])
         placed = np.where(sim >= cuts[near], near, -1)
         failed = False
         for c in live:
