@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import importlib.util
 import json
-import math
 import pickle
 from pathlib import Path
 
@@ -219,16 +218,22 @@ def demo(tmp_path_factory):
 
 
 def test_demo_ari_every_partition(demo):
+    # The demo keeps ARI 1.0 on its planted (non-brew) decks in every partition (scikit-learn's
+    # adjusted_rand_score), and most of its one-off brews are other decks.
     parts, results, truth, _ = demo
     low = []
+    brews = brews_other = 0
     for part, result in zip(parts, results):
         got = result.assignments.set_index("deck_id")["archetype"]
         t = truth.loc[got.index]
         keep = (t != "brew").to_numpy()
         score = adjusted_rand_score(t[keep], got[keep])
-        if score < 0.95:
+        if score < 1.0:
             low.append((part.season, part.leader, round(score, 3)))
+        brews += int((~keep).sum())
+        brews_other += int((got[~keep] == OTHER_KEY).sum())
     assert not low
+    assert brews and brews_other >= 0.85 * brews
 
 
 def test_demo_k_equals_planted_count(demo):
@@ -237,7 +242,7 @@ def test_demo_k_equals_planted_count(demo):
     for part, result in zip(parts, results):
         t = truth.loc[part.decks["deck_id"]]
         hits += len(result.archetypes) == t[t != "brew"].nunique()
-    assert hits >= math.ceil(0.9 * len(parts))
+    assert hits == len(parts)
 
 
 def test_demo_signature_cards_are_planted_core(demo):
