@@ -325,3 +325,15 @@ def test_command_line_lists_a_grid(capsys):
     assert stress.main(["--grid", "dev", "--list"]) == 0
     out = capsys.readouterr().out
     assert out.count("dev-") == len(stress.DEV_GRID) and "seed=101" in out
+
+
+def test_ari_ceiling_puts_tiny_archetypes_and_brews_among_the_other_decks():
+    # Worked by hand: 200 decks, A 120, B 76, C 3 (under 2%: 4 decks), one brew. Within the rules C and the
+    # brew are other decks; the ceiling is scikit-learn's ARI of the truth against that labelling.
+    from sklearn.metrics import adjusted_rand_score
+    truth = ["A"] * 120 + ["B"] * 76 + ["C"] * 3 + [BREW]
+    ruled = stress.within_rules(truth, 0.02)
+    assert list(ruled[-4:]) == [stress.OTHER_KEY] * 4 and list(ruled[:196]) == truth[:196]
+    score = stress.score_labels(truth, list(ruled), {}, {}, 0.02)
+    reference = adjusted_rand_score(truth[:199] + ["b0"], truth[:196] + ["o0", "o1", "o2", "o3"])
+    assert score.ceiling == pytest.approx(reference) and score.ari == pytest.approx(reference) and score.ceiling < 1
