@@ -327,6 +327,7 @@ class MethodPage(Page):
     note: NoteView | None = _f("The method note (content/method.md), or None.")
     settings: tuple[tuple[str, str], ...] = _f("(setting, value) pairs that shape the analysis.")
     min_games: int = _f("Games below which a win rate is flagged (trends.min_games).")
+    tiers: tuple[tuple[str, str], ...] = _f("(tier word, what it means) for the card tables.", default=())
 
 
 @dataclass(frozen=True, kw_only=True)

@@ -839,7 +839,9 @@ class Renderer:
         if isinstance(given, dict) and given.get("winrates"):
             trend_rows = [{**row, "archetype": self._latest_name(row["slug"]) if row.get("slug") in s.by_slug
                            else row["archetype"]} for row in given["winrates"]]
-        trend_c = ch.winrate_chart(trend_rows, f"winrate-{lslug}", looks=self._looks_by_name(leader)) if trend_rows else None
+        trend_c = (ch.winrate_chart(trend_rows, f"winrate-{lslug}", looks=self._looks_by_name(leader),
+                                    order=ch.latest_share_order(self._share_rows(leader), s.seasons))
+                   if trend_rows else None)
         path = s.leader_link(leader).href
         name = s.leader_name(leader)
         base = self._base(path, name, f"Archetypes of {name}, season by season.",
@@ -856,7 +858,7 @@ class Renderer:
         settings = tuple((k, str(cfg[k]).lower() if isinstance(cfg[k], bool) else str(cfg[k])) for k in keys)
         base = self._base("method.html", "How it works", "How the archetypes, maps and tables are made, in plain words.")
         self._emit("method.html", P.MethodPage(**base, note=self.s.note_view(self.site.notes.method),
-                                               settings=settings, min_games=self.s.min_games))
+                                               settings=settings, min_games=self.s.min_games, tiers=tier_words()))
 
     def not_found(self) -> None:
         """404.html. Hosts serve it at the missing page's own depth, so links
