@@ -31,16 +31,23 @@ def _named(a, top: list[str]):
     return dataclasses.replace(a, signature=sig, name=archetype_name(a.leader, sig, 2, ""))
 
 
-def _two_seasons(later_top: list[str]):
+def _two_seasons(later_top: list[str], later_profile: dict[str, float] | None = None):
     s1 = result("S1", "Vessa", [
         _named(arch("a1", "alpha", cards("a", 10), season="S1"), [f"a {i}" for i in range(8)]),
         _named(arch("a2", "beta", cards("b", 10), season="S1"), [f"b {i}" for i in range(8)]),
     ])
     s2 = result("S2", "Vessa", [
-        _named(arch("a1", "alpha-next", cards("a", 10, 0.85), season="S2"), later_top),
+        _named(arch("a1", "alpha-next", later_profile or cards("a", 10, 0.85), season="S2"), later_top),
         _named(arch("a2", "beta", cards("b", 10), season="S2"), [f"b {i}" for i in range(8)]),
     ])
     return link_seasons([s1, s2], ["S1", "S2"], 0.15)
+
+
+def test_name_is_kept_while_still_played_by_most_decks_though_out_of_the_top_signature():
+    # Neither name card is in the later top 8, but both are still played by 85% of its decks
+    # and by no other archetype of the leader.
+    out, _ = _two_seasons(["a 5", "a 4", "a 3", "a 2", "x 1", "x 2", "x 3", "x 4"])
+    assert out[1].archetypes[0].name == "Vessa · a 0 & a 1"
 
 
 def test_name_is_kept_while_half_its_cards_stay_in_the_top_signature():
@@ -51,7 +58,9 @@ def test_name_is_kept_while_half_its_cards_stay_in_the_top_signature():
 
 
 def test_name_changes_when_its_cards_left_the_signature():
-    out, _ = _two_seasons(["a 5", "a 4", "a 3", "a 2", "x 1", "x 2", "x 3", "x 4"])
+    # "a 0" and "a 1" left the signature and are no longer played by half the decks.
+    profile = {f"a {i}": 0.85 for i in range(2, 10)} | cards("x", 4) | {"a 0": 0.3, "a 1": 0.1}
+    out, _ = _two_seasons(["a 5", "a 4", "a 3", "a 2", "x 1", "x 2", "x 3", "x 0"], profile)
     later = out[1].archetypes[0]
     assert later.slug == "alpha" and later.name == "Vessa · a 5 & a 4"
     assert name_cards(later) == ("a 5", "a 4")
