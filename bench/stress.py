@@ -4,6 +4,7 @@
     python bench/stress.py --grid dev          # the development settings
     python bench/stress.py --grid eval         # the evaluation grid: never used to tune the method
     python bench/stress.py --grid eval --list  # print the grid's settings and stop
+    python bench/stress.py --grid eval --identity  # identity across planted seasons (pages, names)
 
 The data is set in an invented game. Each leader has its own pool of cards
 (named after the leader's home region) and every leader also draws from a
@@ -1104,7 +1105,15 @@ def main(argv: Sequence[str] | None = None) -> int:
     ap.add_argument("--list", action="store_true", help="print the grid's settings and stop")
     ap.add_argument("--processes", type=int, default=2, help="worker processes (default 2)")
     ap.add_argument("--partitions", action="store_true", help="also print one row per partition")
+    ap.add_argument("--identity", action="store_true",
+                    help="identity across four planted seasons instead: dev = identity_dev(), eval = identity_eval()")
     args = ap.parse_args(argv)
+    if args.identity:
+        from sitegen.config import SETTINGS_BY_KEY
+        threshold = SETTINGS_BY_KEY["analysis.link_threshold"].default
+        sets = identity_dev() if args.grid == "dev" else identity_eval(4 if args.grid == "small" else 12)
+        print(format_identity([run_identity(st, 4, leader_index=i, threshold=threshold) for st, i in sets]))
+        return 0
     cells = grid(args.grid)
     print(f"grid {args.grid}: {len(cells)} cells, {sum(len(c.settings.sizes) for c in cells)} partitions, "
           f"{sum(sum(c.settings.sizes) for c in cells)} decks")
