@@ -4,6 +4,7 @@
     python bench/stress.py --grid dev          # the development settings
     python bench/stress.py --grid eval         # the evaluation grid: never used to tune the method
     python bench/stress.py --grid eval --list  # print the grid's settings and stop
+    python bench/stress.py --grid eval --identity  # identity across planted seasons (pages, names)
 
 The data is set in an invented game. Each leader has its own pool of cards
 (named after the leader's home region) and every leader also draws from a
@@ -54,7 +55,7 @@ ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
-from sitegen.model import OTHER_KEY, PartitionInput, PartitionResult  # noqa: E402
+from sitegen.model import OTHER_KEY, Archetype, PartitionInput, PartitionResult  # noqa: E402
 
 #: Truth label of a one-off brew.
 BREW = "brew"
@@ -822,6 +823,139 @@ def run_cells(cells: Sequence[Cell], params=None, analyse_fn: Callable | None = 
     return out
 
 
+# ---------------------------------------------------------------- identity across seasons
+
+@dataclass(frozen=True)
+class IdentityScore:
+    """How found archetypes follow planted ones through linked seasons, as counts to pool.
+
+    ``continuing``: pairs (planted archetype present in two consecutive seasons, found as the
+    majority of some found archetype in both); ``kept_page``: those whose largest found archetype
+    in the later season has the slug of the largest in the earlier one; ``kept_name``: those whose
+    two names are also equal. ``shared_pages``: slugs that stand, in one season or across
+    seasons, for planted archetypes of two lineages (a lineage: an archetype with whatever it split
+    into or merged into); ``pages``: slugs seen. ``lost``: continuing planted archetypes not the
+    majority of any found archetype in one of the two seasons (absorbed; not in ``continuing``).
+    """
+
+    label: str
+    continuing: int
+    kept_page: int
+    kept_name: int
+    pages: int
+    shared_pages: int
+    lost: int = 0
+
+    @property
+    def page_share(self) -> float | None:
+        return self.kept_page / self.continuing if self.continuing else None
+
+    @property
+    def name_share(self) -> float | None:
+        return self.kept_name / self.continuing if self.continuing else None
+
+
+def _lineages(planted: PlantedSeasons) -> dict[str, str]:
+    """Planted archetype id -> its lineage (the smallest id joined to it by a split or a merge)."""
+    parent: dict[str, str] = {}
+
+    def find(a: str) -> str:
+        parent.setdefault(a, a)
+        while parent[a] != a:
+            parent[a] = parent[parent[a]]
+            a = parent[a]
+        return a
+
+    for p in planted.partitions:
+        for a in p.cores:
+            find(a)
+    for e in planted.events:
+        if e.kind in ("split", "merge"):
+            ids = list(e.sources) + list(e.targets)
+            for b in ids[1:]:
+                ra, rb = find(ids[0]), find(b)
+                if ra != rb:
+                    parent[max(ra, rb)] = min(ra, rb)
+    return {a: find(a) for a in list(parent)}
+
+
+def identity_score(planted: PlantedSeasons, linked: Sequence[PartitionResult], label: str = "") -> IdentityScore:
+    """Identity metrics of one leader's planted seasons, from its linked results (in season order)."""
+    by_season = {r.season: r for r in linked}
+    found: dict[str, dict[str, Archetype]] = {}  # season -> planted id -> largest found archetype for it
+    holds: dict[str, set[str]] = {}  # slug -> lineages it stood for
+    line = _lineages(planted)
+    for p in planted.partitions:
+        r = by_season.get(p.part.season)
+        if r is None or not r.archetypes:
+            continue
+        major = majority_truth(p, r)
+        here: dict[str, Archetype] = {}
+        for a in r.archetypes:
+            pid = major[a.key]
+            if pid == BREW:
+                continue
+            holds.setdefault(a.slug, set()).add(line.get(pid, pid))
+            if pid not in here or a.n_decks > here[pid].n_decks:
+                here[pid] = a
+        found[p.part.season] = here
+    total = page = name = lost = 0
+    for earlier, later in zip(planted.seasons, planted.seasons[1:]):
+        for pid in planted.continuing.get(later, ()):
+            a, b = found.get(earlier, {}).get(pid), found.get(later, {}).get(pid)
+            if a is None or b is None:
+                lost += 1
+                continue
+            total += 1
+            page += a.slug == b.slug
+            name += a.slug == b.slug and a.name == b.name
+    shared = sum(len(v) > 1 for v in holds.values())
+    return IdentityScore(label, total, page, name, len(holds), shared, lost)
+
+
+def run_identity(settings: StressSettings, n_seasons: int = 4, *, leader_index: int = 0, params=None,
+                 threshold: float = 0.5, link_fn: Callable | None = None, **season_kw) -> IdentityScore:
+    """Plant ``n_seasons`` seasons of one leader, analyse each, link them (sitegen's
+    ``link_seasons`` or ``link_fn(results, seasons, threshold)``) and score identity."""
+    if link_fn is None:
+        from sitegen.analysis.seasons import link_seasons as link_fn
+    planted = planted_seasons(settings, n_seasons, leader_index=leader_index, **season_kw)
+    results, _ = run_seasons(planted, params)
+    linked, _ = link_fn(results, planted.seasons, threshold)
+    return identity_score(planted, linked, f"seed {settings.seed} leader {leader_index}")
+
+
+def identity_dev() -> tuple[tuple[StressSettings, int], ...]:
+    """The identity development sets (the season linking may be tuned on these, and only these):
+    the development grid's settings at their first size, leaders 0 and 1; four seasons each."""
+    return tuple((replace(c.settings, sizes=(min(c.settings.sizes[0], 3000),)), i) for c in DEV_GRID for i in range(2))
+
+
+def identity_eval(n_cells: int = 12) -> tuple[tuple[StressSettings, int], ...]:
+    """The identity evaluation sets (measured only, never tuned on): the first ``n_cells`` cells of
+    the evaluation grid, each at its middle partition size capped at 1500 decks, first leader."""
+    out = []
+    for c in eval_grid()[:n_cells]:
+        size = sorted(c.settings.sizes)[len(c.settings.sizes) // 2]
+        out.append((replace(c.settings, sizes=(min(size, 1500),)), 0))
+    return tuple(out)
+
+
+def pool_identity(scores: Sequence[IdentityScore]) -> IdentityScore:
+    return IdentityScore("all", sum(s.continuing for s in scores), sum(s.kept_page for s in scores),
+                         sum(s.kept_name for s in scores), sum(s.pages for s in scores),
+                         sum(s.shared_pages for s in scores), sum(s.lost for s in scores))
+
+
+def format_identity(scores: Sequence[IdentityScore]) -> str:
+    head = f"{'set':28s} {'contin':>6s} {'page':>6s} {'name':>6s} {'pages':>6s} {'shared':>6s} {'lost':>5s}"
+    lines = [head, "-" * len(head)]
+    for s in [*scores, pool_identity(scores)]:
+        lines.append(f"{s.label:28s} {s.continuing:6d} {_fmt(s.page_share)} {_fmt(s.name_share)} "
+                     f"{s.pages:6d} {s.shared_pages:6d} {s.lost:5d}")
+    return "\n".join(lines)
+
+
 # ---------------------------------------------------------------- grids
 
 #: Development settings: the method may be tuned on these, and only these.
@@ -991,7 +1125,15 @@ def main(argv: Sequence[str] | None = None) -> int:
     ap.add_argument("--list", action="store_true", help="print the grid's settings and stop")
     ap.add_argument("--processes", type=int, default=2, help="worker processes (default 2)")
     ap.add_argument("--partitions", action="store_true", help="also print one row per partition")
+    ap.add_argument("--identity", action="store_true",
+                    help="identity across four planted seasons instead: dev = identity_dev(), eval = identity_eval()")
     args = ap.parse_args(argv)
+    if args.identity:
+        from sitegen.config import SETTINGS_BY_KEY
+        threshold = SETTINGS_BY_KEY["analysis.link_threshold"].default
+        sets = identity_dev() if args.grid == "dev" else identity_eval(4 if args.grid == "small" else 12)
+        print(format_identity([run_identity(st, 4, leader_index=i, threshold=threshold) for st, i in sets]))
+        return 0
     cells = grid(args.grid)
     print(f"grid {args.grid}: {len(cells)} cells, {sum(len(c.settings.sizes) for c in cells)} partitions, "
           f"{sum(sum(c.settings.sizes) for c in cells)} decks")

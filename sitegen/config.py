@@ -95,7 +95,7 @@ SETTINGS: tuple[Setting, ...] = (
     _S("analysis.svd_dims", 32, int, "Dimensions the deck features are reduced to (truncated SVD) before clustering.", minimum=2),
     _S("analysis.kmeans_starts", 4, int, "k-means starts when a k is pinned or a group is tried cut in two; the best (least inertia) is kept.", minimum=1),
     _S("analysis.fit_sample", 20000, int, "Most decks the SVD and a pinned k's k-means are fitted on per partition; every deck is then projected or assigned.", minimum=100),
-    _S("analysis.link_threshold", 0.5, float, "Least profile similarity for an archetype to continue from one season to the next.", minimum=0, maximum=1),
+    _S("analysis.link_threshold", 0.15, float, "Least similarity of distinctive card profiles (shares above the leader's mean) for an archetype to continue from one season to the next.", minimum=0, maximum=1),
     _S("analysis.workers", 0, int, "Worker processes for partition analyses; 0 uses every core.", minimum=0),
     _S("analysis.scheduler", "", str, "Address of a Dask scheduler to send partition analyses to; empty runs them here."),
     # -- trends

@@ -318,11 +318,11 @@ def linked_demo(demo_site, repo_root):
     linked, history = link_seasons(results, seasons, cfg["analysis.link_threshold"])
 
     # Each found archetype stands for the planted archetype most of its decks come from.
-    found = []  # (season, leader, planted, decks, slug)
+    found = []  # (season, leader, planted, decks, slug, name)
     for r in linked:
         for a in r.archetypes:
             ids = r.assignments.loc[r.assignments["archetype"] == a.key, "deck_id"]
-            found.append((r.season, r.leader, truth.loc[ids].value_counts().index[0], a.n_decks, a.slug))
+            found.append((r.season, r.leader, truth.loc[ids].value_counts().index[0], a.n_decks, a.slug, a.name))
     return planted, seasons, found, history
 
 
@@ -331,7 +331,7 @@ def test_demo_planted_archetypes_that_continue_keep_their_slug(linked_demo):
     # archetype found for it in the later season has a slug it had in the earlier one.
     planted, seasons, found, _ = linked_demo
     slugs = {}
-    for season, _, label, n, slug in found:
+    for season, _, label, n, slug, _ in found:
         slugs.setdefault((label, season), []).append((n, slug))
     kept = total = 0
     for name, info in planted["archetypes"].items():
@@ -350,7 +350,7 @@ def test_demo_no_slug_shared_by_unrelated_planted_archetypes(linked_demo):
     planted, _, found, _ = linked_demo
     family = _planted_lineage_families(planted["archetypes"])
     by_slug = {}
-    for _, leader, label, _, slug in found:
+    for _, leader, label, _, slug, _ in found:
         if label != "brew":
             by_slug.setdefault(slug, set()).add(family[label])
     assert by_slug and all(len(families) == 1 for families in by_slug.values()), by_slug
@@ -364,9 +364,28 @@ def test_demo_planted_split_is_reported(linked_demo):
     link_of = {(l.season, l.slug): l for l in history.links}
     for split in planted["splits"]:
         before = seasons[seasons.index(split["season"]) - 1]
-        parent_slugs = {slug for s, _, label, _, slug in found if s == before and label == split["parent"]}
-        kinds = [link_of[(s, slug)].kind for s, _, label, _, slug in found
+        parent_slugs = {slug for s, _, label, _, slug, _ in found if s == before and label == split["parent"]}
+        kinds = [link_of[(s, slug)].kind for s, _, label, _, slug, _ in found
                  if s == split["season"] and label in split["children"]
                  and set(link_of[(s, slug)].sources) & parent_slugs]
         assert "split" in kinds, (split, kinds)
         assert "continues" in kinds or "merge" in kinds
+
+
+def test_demo_planted_archetypes_that_continue_keep_their_name(linked_demo):
+    # At least 90% of planted archetypes present in two consecutive seasons (planted truth of our
+    # own: demo_data/truth.json): the biggest archetype found for it keeps both its slug and its
+    # name from one season to the next.
+    planted, seasons, found, _ = linked_demo
+    got = {}
+    for season, _, label, n, slug, name in found:
+        got.setdefault((label, season), []).append((n, slug, name))
+    kept = total = 0
+    for label, info in planted["archetypes"].items():
+        for earlier, later in zip(info["seasons"], info["seasons"][1:]):
+            if (label, earlier) in got and (label, later) in got:
+                total += 1
+                _, slug, name = max(got[(label, later)])
+                kept += (slug, name) in {(s, nm) for _, s, nm in got[(label, earlier)]}
+    assert total >= 8
+    assert kept / total >= 0.9, f"{kept} of {total} kept their name"

@@ -643,6 +643,28 @@ def _season_order(rows: Sequence[Mapping[str, Any]], seasons: Sequence[str] | No
     return order + [x for x in seen if x not in order]
 
 
+def latest_share_order(rows: Sequence[Mapping[str, Any]], seasons: Sequence[str] | None = None) -> list[str]:
+    """Archetype names by their share in the latest season they appear in (latest seasons first,
+    then largest share, then name); other-decks groups last. The order of a trend legend."""
+    order = _season_order(rows, seasons)
+    rank = {x: i for i, x in enumerate(order)}
+    last: dict[str, tuple[int, float, bool]] = {}
+    for r in rows:
+        name, at = str(r["archetype"]), rank[str(r["season"])]
+        share = _num(r.get("share", 0.0)) or 0.0
+        if name not in last or at > last[name][0]:
+            last[name] = (at, share, bool(r.get("is_other", False)))
+    return sorted(last, key=lambda n: (last[n][2], -last[n][0], -last[n][1], n))
+
+
+def _in_order(rows: Sequence[Mapping[str, Any]], names: Sequence[str] | None) -> list[Mapping[str, Any]]:
+    """``rows`` with their archetypes in the order of ``names`` (others after, as they came): the legend's order."""
+    if not names:
+        return list(rows)
+    at = {n: i for i, n in enumerate(names)}
+    return sorted(rows, key=lambda r: at.get(str(r["archetype"]), len(at)))
+
+
 def share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str,
                 seasons: Sequence[str] | None = None, looks: Mapping[str, Look] | None = None) -> Chart:
     """Each archetype's share of decks across seasons, one line per archetype.
@@ -651,12 +673,19 @@ def share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str,
     ``decks`` and optionally ``is_other``. The axis keeps ``seasons`` (the
     publication order) when given, else the order seasons first appear in
     ``rows``; ``looks`` (archetype name -> Look) sets the colours, else the
-    first-seen order of archetypes does.
+    first-seen order of archetypes does. The legend lists archetypes by
+    their latest share (:func:`latest_share_order`); an archetype seen in
+    one season only is drawn as a larger point with its name beside it, as
+    a line needs two seasons.
     """
     seasons = _season_order(rows, seasons)
-    style = _group_style(rows, looks)
+    style = _group_style(_in_order(rows, latest_share_order(rows, seasons)), looks)
     values = [{"season": str(r["season"]), "archetype": str(r["archetype"]),
                "share": _num(r["share"]), "decks": int(r["decks"])} for r in rows]
+    counts: dict[str, int] = {}
+    for v in values:
+        counts[v["archetype"]] = counts.get(v["archetype"], 0) + 1
+    once = sorted(n for n, c in counts.items() if c == 1)
     spec = {
         "width": "container",
         "height": _MID_HEIGHT,
@@ -678,23 +707,35 @@ def share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str,
             {"mark": {"type": "line", "strokeWidth": 2}},
             {"mark": {"type": "point", "filled": True, "size": 60},
              "encoding": {"shape": {**style.shape("archetype"), "legend": _legend_bottom()}}},
-        ],
+        ] + ([
+            {"transform": [{"filter": {"field": "archetype", "oneOf": once}}],
+             "mark": {"type": "point", "filled": True, "size": 160, "stroke": "#000000", "strokeWidth": 1},
+             "encoding": {"shape": {**style.shape("archetype"), "legend": None}}},
+            {"transform": [{"filter": {"field": "archetype", "oneOf": once}}],
+             "mark": {"type": "text", "align": "left", "dx": 9, "fontSize": 11},
+             "encoding": {"text": {"field": "archetype", "type": "nominal"}, "color": {"value": "#222222"}}},
+        ] if once else []),
     }
     caption = f"{title}: each archetype's share of the decks in each season."
+    if once:
+        caption += " Seen in one season only (a larger point with its name): " + ", ".join(once) + "."
     table = [(v["season"], v["archetype"], _pct(v["share"]), v["decks"]) for v in values]
     return _finish(chart_id, spec, caption, ("Season", "Archetype", "Share", "Decks"), table)
 
 
 def winrate_chart(rows: Sequence[Mapping[str, Any]], chart_id: str,
-                  seasons: Sequence[str] | None = None, looks: Mapping[str, Look] | None = None) -> Chart:
+                  seasons: Sequence[str] | None = None, looks: Mapping[str, Look] | None = None,
+                  order: Sequence[str] | None = None) -> Chart:
     """Win rate by season with 95% Wilson intervals; small samples drawn hollow.
 
     ``rows``: dicts with ``season``, ``archetype``, ``win_rate``, ``low``,
     ``high`` (the interval), ``games``, ``small`` (bool) and optionally
-    ``is_other``. Season order and ``looks`` as in :func:`share_chart`.
+    ``is_other``. Season order and ``looks`` as in :func:`share_chart`;
+    ``order``: the legend's order of archetype names (the share chart's,
+    by latest share), else first seen.
     """
     seasons = _season_order(rows, seasons)
-    style = _group_style(rows, looks)
+    style = _group_style(_in_order(rows, order), looks)
     values = []
     for r in rows:
         small = bool(r["small"])

@@ -19,13 +19,21 @@ be wrapped in matching quotes). No YAML: only this subset is read. Keys:
 ``merge_into``  slug of an archetype this one is better read as part of
 ``hide``        ``true``: do not publish this archetype
 ``author``      who wrote the note, shown under it
+``season``      the season the note was written for: on the archetype's
+                pages of other seasons it is shown under "Written for
+                <season>". A note without it is read as written for every
+                season and gets no such label.
 
 ``rename``, ``merge_into``, ``hide`` and ``signature`` change the archetypes
 themselves; :mod:`sitegen.analysis.overrides` applies them (from
 :meth:`Notes.front_matter_by_slug`) before the pages are made, so every page,
 chart and export agrees. The pages also honour ``title``/``rename`` and
 ``signature`` directly, so a note shows correctly even without that step.
-Any other key is reported as a ``note-key`` finding. The body is rendered by
+Any other key is reported as a ``note-key`` finding. Whatever its
+``season``, a note that names a card (its body, summary or ``signature``)
+the archetype played in an earlier season but no longer plays in its latest
+one is reported as a ``note-stale`` finding (:func:`stale_cards`), and the
+pages of seasons without the card list it beside the note. The body is rendered by
 the ``markdown`` package (extensions ``tables`` and ``fenced_code``). Notes
 may come from anyone, so raw HTML is never passed through: the two Markdown
 stages that copy raw HTML into the output (block HTML and inline HTML) are
@@ -49,7 +57,7 @@ from ..errors import DataError
 from ..model import Finding
 
 #: Front matter keys a note may set; anything else is reported.
-KNOWN_KEYS = ("title", "rename", "summary", "signature", "merge_into", "hide", "author")
+KNOWN_KEYS = ("title", "rename", "summary", "signature", "merge_into", "hide", "author", "season")
 #: Markdown extensions every note is rendered with.
 EXTENSIONS = ("tables", "fenced_code")
 
@@ -81,6 +89,11 @@ class Note:
     @property
     def author(self) -> str:
         return self.meta.get("author", "")
+
+    @property
+    def season(self) -> str:
+        """The season the note was written for, or empty (written for every season)."""
+        return self.meta.get("season", "").strip()
 
     @property
     def merge_into(self) -> str:
@@ -236,3 +249,30 @@ def orphan_findings(notes: Notes, slugs: set[str]) -> list[Finding]:
         out.append(Finding("note-orphan", f"{note.path}: no archetype has the slug '{slug}', so this note is not shown; "
                                           "rename the file after an archetype's slug (see data/archetypes.json)"))
     return out
+
+
+def named_cards(note: Note, cards: set[str] | list[str]) -> tuple[str, ...]:
+    """The cards of ``cards`` a note names: in its body, summary or signature key, as whole words,
+    letter case aside. Sorted by name."""
+    text = "\n".join((note.body, note.summary, "; ".join(note.signature))).casefold()
+    out = []
+    for card in cards:
+        c = card.casefold()
+        if c and c in text and re.search(r"(?<![\w])" + re.escape(c) + r"(?![\w])", text):
+            out.append(card)
+    return tuple(sorted(out))
+
+
+def stale_cards(note: Note, profiles: list[tuple[str, dict[str, float]]], season: str) -> tuple[str, ...]:
+    """Cards the note names that its archetype played in a season before ``season`` but not in ``season``.
+
+    ``profiles``: (season, card profile) of the archetype in every season it appears in, in
+    publication order. A card counts as played when its profile lists it (2% of the decks or more).
+    """
+    seasons = [s for s, _ in profiles]
+    if season not in seasons:
+        return ()
+    at = seasons.index(season)
+    before: set[str] = set().union(*[set(p) for _, p in profiles[:at]]) if at else set()
+    now = set(profiles[at][1])
+    return tuple(c for c in named_cards(note, sorted(before | now)) if c in before and c not in now)

@@ -79,6 +79,8 @@ class LeaderBlock:
     notes: tuple[str, ...] = _f("Data-quality notes for this leader and season (plain text).")
     map_data: str = _f("Path from the site root of the script holding the map's points (loaded when the map is "
                        "drawn), or empty.", default="")
+    other_reason: str = _f("What the other-decks group is in this partition, in numbers (from k_reason), or empty.",
+                           default="")
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -133,6 +135,62 @@ class NoteView:
     html: Markup = _f("The note body as safe HTML (raw HTML in the note is shown as text).")
     author: str = _f("Who wrote it, or empty.")
     source: str = _f("File it came from, relative to the content folder.")
+    written_for: str = _f("The season the note was written for, when that is not the page's season; else empty.",
+                          default="")
+    stale_cards: tuple[str, ...] = _f("Cards the note names that the archetype no longer plays in the page's season.",
+                                      default=())
+
+
+@dataclass(frozen=True)
+class MatchView:
+    """How an archetype was linked to the season before, and how sure that link is."""
+
+    kind: str = _f("continues, merge, split or new.")
+    similarity: float = _f("Card-profile similarity with the archetype it came from (0 to 1).")
+    words: str = _f("That similarity in words: close, fair or loose.")
+    season: str = _f("The season it was linked to.")
+
+
+@dataclass(frozen=True)
+class CardChange:
+    """One card of an archetype's story: its share and usual copies in two seasons (0 where unplayed)."""
+
+    card: Link = _f("The card, linked to its page.")
+    share_before: float = _f("Share of the archetype's decks playing it in the earlier season.")
+    share_after: float = _f("Share in this season.")
+    copies_before: float = _f("Mean copies among decks playing it, earlier season (0 when not listed).")
+    copies_after: float = _f("Mean copies, this season (0 when not listed).")
+
+
+@dataclass(frozen=True)
+class StoryView:
+    """What changed in an archetype's cards from one season to the next, from its two card tables."""
+
+    before: Link = _f("Its page in the earlier season (text: that season).")
+    came_in: tuple[CardChange, ...] = _f("Cards in this season's table and not in the earlier one, most played first.")
+    went_out: tuple[CardChange, ...] = _f("Cards in the earlier table and not in this one, most played first.")
+    moved: tuple[CardChange, ...] = _f("Cards in both tables whose share or mean copies moved most.")
+    sources: tuple[tuple[Link, float], ...] = _f("Archetypes of the earlier season its decks came from, with the share "
+                                                  "of its decks each would hold (placed by that season's rule).")
+
+
+@dataclass(frozen=True)
+class FlowRow:
+    """One archetype of a season and where its decks would go by the next season's rule."""
+
+    archetype: Link = _f("The archetype in the earlier season.")
+    share: float = _f("Its share of the leader's decks that season.")
+    to: tuple[tuple[str, float], ...] = _f("(archetype name of the next season or 'Other decks', share of its decks).")
+
+
+@dataclass(frozen=True)
+class FlowTable:
+    """How one season's archetypes pass into the next season's, for a leader page."""
+
+    season: str = _f("The earlier season.")
+    next: str = _f("The next season.")
+    columns: tuple[str, ...] = _f("Names of the next season's archetypes, then 'Other decks'.")
+    rows: tuple[FlowRow, ...] = _f("One row per archetype of the earlier season.")
 
 
 # -- the pages
@@ -224,6 +282,11 @@ class ArchetypePage(Page):
                            default=None)
     stability: float | None = _f("How firmly it holds together (see ArchetypeRow.stability), or None.", default=None)
     firmness: str = _f("That in a reader's words: clear, loose or weak group (empty when not measured).", default="")
+    former_names: tuple[str, ...] = _f("Names it had in earlier seasons, oldest first (empty when none).", default=())
+    match: MatchView | None = _f("How sure the link to the season before is, or None in its first season.",
+                                 default=None)
+    story: StoryView | None = _f("What changed in its cards since its season before, or None.", default=None)
+    tiers: tuple[tuple[str, str], ...] = _f("(tier word, what it means) for the card table.", default=())
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -258,6 +321,9 @@ class LeaderPage(Page):
     share_chart: Any = _f("Chart of this leader's archetype shares across seasons, or None.")
     trend_chart: Any = _f("Chart of win rates across seasons, or None.")
     min_games: int = _f("Games below which a win rate is flagged (trends.min_games).")
+    flows: tuple[FlowTable, ...] = _f("Per pair of its seasons: how each archetype's decks pass into the next "
+                                      "season's archetypes.", default=())
+    tiers: tuple[tuple[str, str], ...] = _f("(tier word, what it means), for tables that show tiers.", default=())
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -267,6 +333,7 @@ class MethodPage(Page):
     note: NoteView | None = _f("The method note (content/method.md), or None.")
     settings: tuple[tuple[str, str], ...] = _f("(setting, value) pairs that shape the analysis.")
     min_games: int = _f("Games below which a win rate is flagged (trends.min_games).")
+    tiers: tuple[tuple[str, str], ...] = _f("(tier word, what it means) for the card tables.", default=())
 
 
 @dataclass(frozen=True, kw_only=True)

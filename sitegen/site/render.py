@@ -14,6 +14,7 @@ import dataclasses
 import hashlib
 import json
 import math
+import re
 import unicodedata
 from collections import defaultdict
 from dataclasses import dataclass, fields
@@ -28,13 +29,15 @@ from ..analysis.stats import wilson
 from ..check import RULE_KINDS
 from ..config import Config
 from ..errors import RenderError
-from ..model import ALL_LEADERS, Archetype, DeckData, Finding, History, PartitionResult
+from ..model import ALL_LEADERS, OTHER_KEY, TIERS, Archetype, DeckData, Finding, History, PartitionResult
+from ..model import Link as SeasonLink
 from ..slugs import SlugSet
 from . import assets, exports
 from . import charts as ch
 from . import pages as P
 from .memo import PageMemo
-from .notes import Note, Notes, orphan_findings
+from .notes import Note, Notes, orphan_findings, stale_cards
+from . import story as st
 from .search import RANKS, SearchEntry, search_files
 from .sitemap import sitemap_files
 
@@ -333,6 +336,8 @@ class Renderer:
         self._medoid_rows: dict[str, int] | None = None
         self._excluded_decks: Any = None
         self._share_charts: dict[tuple[str, str], Any] = {}
+        self._links: dict[tuple[str, str, str], SeasonLink] | None = None
+        self._flows: dict[tuple[str, str, str], dict[str, dict[str, float]]] = {}
 
     def _assets(self) -> tuple[dict[str, bytes], dict[str, str]]:
         """The shared static files (content-hashed) and their paths by logical name."""
@@ -514,7 +519,8 @@ class Renderer:
                              map_chart=map_c, silhouette_chart=sil_c,
                              share_chart=self._share_chart(r.leader, f"shares-{lslug}") if with_shares else None,
                              notes=tuple(notes),
-                             map_data=f"seasons/{s.season_slug[r.season]}/map-{lslug}.js" if map_c is not None else "")
+                             map_data=f"seasons/{s.season_slug[r.season]}/map-{lslug}.js" if map_c is not None else "",
+                             other_reason=other_reason(r.k_reason))
 
     # -- pages
     def front(self) -> None:
@@ -663,7 +669,7 @@ class Renderer:
             season=s.season_link(a.season), leader=s.leader_link(a.leader),
             history=P.Link(text=f"{name} across seasons", href=f"archetypes/{slug}/index.html"),
             decks=int(a.n_decks), partition_decks=int(r.n_decks), share=float(a.share),
-            win=win_rate(a.wins, a.losses, s.min_games), signature=s.signature_links(a), note=s.note_view(note),
+            win=win_rate(a.wins, a.losses, s.min_games), signature=s.signature_links(a), note=self._season_note(a, note),
             stability=a.stability, firmness=firmness_words(a.stability),
             cards=tuple(P.CardRow(card=s.card_link(c.card), card_type=c.card_type, share=c.share,
                                   mean_copies=c.mean_copies, at_1=c.at_1, at_2=c.at_2, at_3_plus=c.at_3_plus,
@@ -677,9 +683,116 @@ class Renderer:
                        P.Link(text="Representative deck (CSV)", href=f"archetypes/{slug}/{sslug}-decklist.csv")),
             min_games=s.min_games,
             previous=P.Link(text=before[-1].season, href=s.arch_href(before[-1])) if before else None,
-            next=P.Link(text=after[0].season, href=s.arch_href(after[0])) if after else None))
+            next=P.Link(text=after[0].season, href=s.arch_href(after[0])) if after else None,
+            **self._identity_fields(r, a, before)))
         self.out[f"archetypes/{slug}/{sslug}-cards.csv"] = exports.card_table_csv(a)
         self.out[f"archetypes/{slug}/{sslug}-decklist.csv"] = exports.decklist_csv(a)
+
+    # -- identity across seasons: names, how sure each link is, the story card by card, notes' seasons
+    def _link_of(self, a: Archetype) -> SeasonLink | None:
+        h = self.site.history
+        if h is None:
+            return None
+        if self._links is None:
+            self._links = {(l.season, l.leader, l.slug): l for l in h.links}
+        return self._links.get((a.season, a.leader, a.slug))
+
+    def _identity_fields(self, r: PartitionResult, a: Archetype, before: list[Archetype]) -> dict[str, Any]:
+        """The archetype page's former names, match, story and tier words."""
+        s = self.s
+        name = s.name_of(a)
+        former = tuple(dict.fromkeys(s.name_of(x) for x in before if s.name_of(x) != name))
+        link = self._link_of(a)
+        match = None
+        if link is not None and link.kind != "new" and before:
+            match = P.MatchView(kind=link.kind, similarity=float(link.similarity),
+                                words=st.match_words(float(link.similarity)), season=before[-1].season)
+        story = None
+        if before:
+            prev = before[-1]
+            came, went, moved = st.card_changes(prev, a)
+
+            def view(c: st.Change) -> P.CardChange:
+                return P.CardChange(card=s.card_link(c.card), share_before=c.share_before, share_after=c.share_after,
+                                    copies_before=c.copies_before, copies_after=c.copies_after)
+            story = P.StoryView(before=P.Link(text=prev.season, href=s.arch_href(prev)),
+                                came_in=tuple(map(view, came)), went_out=tuple(map(view, went)),
+                                moved=tuple(map(view, moved)), sources=self._sources(prev, a))
+        return {"former_names": former, "match": match, "story": story, "tiers": tier_words()}
+
+    def _result_of(self, season: str, leader: str) -> PartitionResult | None:
+        for r in self.s.results:
+            if r.season == season and r.leader == leader:
+                return r
+        return None
+
+    def _flow(self, before: PartitionResult, after: PartitionResult) -> dict[str, dict[str, float]]:
+        key = (before.season, after.season, before.leader)
+        if key not in self._flows:
+            self._flows[key] = st.flows(before, after, self.site.data.cards)
+        return self._flows[key]
+
+    def _sources(self, prev: Archetype, a: Archetype) -> tuple[tuple[P.Link, float], ...]:
+        """Earlier archetypes whose decks the later season's rule places in ``a``: each with the
+        share of ``a``'s placed decks it gives (placed decks weighed by the earlier shares)."""
+        before, after = self._result_of(prev.season, a.leader), self._result_of(a.season, a.leader)
+        if before is None or after is None:
+            return ()
+        flow = self._flow(before, after)
+        into = {b.key: b.share * flow.get(b.key, {}).get(a.key, 0.0) for b in before.archetypes}
+        total = sum(into.values())
+        if total <= 0:
+            return ()
+        by_key = {b.key: b for b in before.archetypes}
+        out = sorted(((k, v / total) for k, v in into.items() if v / total >= 0.01), key=lambda t: (-t[1], t[0]))
+        return tuple((self.s.arch_link(by_key[k]), v) for k, v in out)
+
+    def _flow_tables(self, leader: str) -> tuple[P.FlowTable, ...]:
+        s = self.s
+        mine = [r for r in s.results if r.leader == leader and r.archetypes]
+        out = []
+        for before, after in zip(mine, mine[1:]):
+            flow = self._flow(before, after)
+            if not flow:
+                continue
+            later = list(after.archetypes)
+            columns = tuple(s.name_of(b) for b in later) + ("Other decks",)
+            rows = tuple(P.FlowRow(archetype=s.arch_link(a), share=float(a.share),
+                                   to=tuple((col, flow.get(a.key, {}).get(key, 0.0))
+                                            for col, key in zip(columns, [b.key for b in later] + [OTHER_KEY])))
+                         for a in before.archetypes if a.key in flow)
+            out.append(P.FlowTable(season=before.season, next=after.season, columns=columns, rows=rows))
+        return tuple(out)
+
+    def _profiles_of(self, slug: str) -> list[tuple[str, dict[str, float]]]:
+        return [(x.season, x.profile) for x in self._seasons_of(slug)]
+
+    def _season_note(self, a: Archetype, note: Note | None) -> P.NoteView | None:
+        """The note as shown on ``a``'s page: with the season it was written for, when another,
+        and the cards it names that ``a`` no longer plays."""
+        view = self.s.note_view(note)
+        if view is None or note is None:
+            return view
+        written = note.season if note.season and note.season != a.season else ""
+        stale = stale_cards(note, self._profiles_of(self.s.slug_of(a)), a.season)
+        return dataclasses.replace(view, written_for=written, stale_cards=stale)
+
+    def _stale_note_findings(self) -> list[Finding]:
+        """A ``note-stale`` warning for each note naming a card its archetype no longer plays in its latest season."""
+        out = []
+        for slug in sorted(self.s.by_slug):
+            note = self.s.note_of(self._seasons_of(slug)[-1])
+            if note is None:
+                continue
+            profiles = self._profiles_of(slug)
+            latest = profiles[-1][0]
+            gone = stale_cards(note, profiles, latest)
+            if gone:
+                written = f" (written for {note.season})" if note.season else ""
+                out.append(Finding("note-stale", f"{note.path}: the note{written} names {', '.join(gone)}, which "
+                                   f"archetype '{slug}' no longer plays in {latest}; update the note or add "
+                                   f"'season: <season>' to its front matter", season=latest))
+        return out
 
     def history_page(self, slug: str) -> None:
         s = self.s
@@ -740,13 +853,16 @@ class Renderer:
         if isinstance(given, dict) and given.get("winrates"):
             trend_rows = [{**row, "archetype": self._latest_name(row["slug"]) if row.get("slug") in s.by_slug
                            else row["archetype"]} for row in given["winrates"]]
-        trend_c = ch.winrate_chart(trend_rows, f"winrate-{lslug}", looks=self._looks_by_name(leader)) if trend_rows else None
+        trend_c = (ch.winrate_chart(trend_rows, f"winrate-{lslug}", looks=self._looks_by_name(leader),
+                                    order=ch.latest_share_order(self._share_rows(leader), s.seasons))
+                   if trend_rows else None)
         path = s.leader_link(leader).href
         name = s.leader_name(leader)
         base = self._base(path, name, f"Archetypes of {name}, season by season.",
                           charts=share_c is not None or trend_c is not None)
         self._emit("leader.html", P.LeaderPage(**base, name=name, seasons=tuple(rows), share_chart=share_c,
-                                               trend_chart=trend_c, min_games=s.min_games))
+                                               trend_chart=trend_c, min_games=s.min_games,
+                                               flows=self._flow_tables(leader), tiers=tier_words()))
 
     def method(self) -> None:
         cfg = self.site.cfg
@@ -756,7 +872,7 @@ class Renderer:
         settings = tuple((k, str(cfg[k]).lower() if isinstance(cfg[k], bool) else str(cfg[k])) for k in keys)
         base = self._base("method.html", "How it works", "How the archetypes, maps and tables are made, in plain words.")
         self._emit("method.html", P.MethodPage(**base, note=self.s.note_view(self.site.notes.method),
-                                               settings=settings, min_games=self.s.min_games))
+                                               settings=settings, min_games=self.s.min_games, tiers=tier_words()))
 
     def not_found(self) -> None:
         """404.html. Hosts serve it at the missing page's own depth, so links
@@ -800,6 +916,7 @@ class Renderer:
         s = self.s
         self.warnings.extend(self.site.notes.findings)
         self.warnings.extend(orphan_findings(self.site.notes, set(s.by_slug)))
+        self.warnings.extend(self._stale_note_findings())
         self.front()
         for i, season in enumerate(s.seasons):
             self.season(season, i)
@@ -822,6 +939,26 @@ class Renderer:
         for path, body in self.assets.items():
             self.out.setdefault(path, body)
         return dict(sorted(self.out.items())), self.warnings
+
+
+def other_reason(k_reason: str) -> str:
+    """The clauses of a partition's ``k_reason`` that say what its other decks are: how many decks fit
+    no archetype, and the groups given up (whose decks are among them)."""
+    parts = [p.strip().rstrip(".") for p in re.split(r"(?<=\.)\s+|;\s+", k_reason or "")]
+    keep = [p for p in parts if "fit no archetype" in p or "given up" in p]
+    return ("; ".join(keep) + ".") if keep else ""
+
+
+def tier_words() -> tuple[tuple[str, str], ...]:
+    """(tier word, what it means) for every tier of :data:`sitegen.model.TIERS`."""
+    out = []
+    for i, (name, least) in enumerate(TIERS):
+        if i == 0:
+            out.append((name, f"played by {least:.0%} of the decks or more"))
+        else:
+            out.append((name, f"played by {least:.0%} or more and under {TIERS[i - 1][1]:.0%}" if least > 0
+                        else f"played by under {TIERS[i - 1][1]:.0%} of the decks"))
+    return tuple(out)
 
 
 def render_site(site: SiteInput) -> tuple[dict[str, bytes], list[Finding]]:
