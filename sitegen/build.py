@@ -174,6 +174,7 @@ def build(
         from .load import load_data, open_season_folder
         from .runner import Analyses
         from .site.charts import checked_by
+        from .site.classify import relabelling
         from .site.notes import load_notes
         from .site.render import SiteInput, render_site
 
@@ -204,6 +205,7 @@ def build(
                 linked, history = link_seasons(results, data.seasons, cfg["analysis.link_threshold"])
             content = cfg.path("site.content")
             notes = load_notes(content) if content is not None else load_notes(cfg.root / "content")
+            before_overrides = linked
             linked, override_findings = apply_overrides(linked, notes.front_matter_by_slug())
             trends = trend_rows(linked, data.seasons, cfg["trends.min_games"])
             last = _last_build(cache_dir)
@@ -216,6 +218,7 @@ def build(
                     cfg=cfg, data=data, results=tuple(linked), history=history, notes=notes,
                     findings=data.findings, templates_dirs=templates_dirs(cfg), trends=trends,
                     export_blocks=blocks, page_memo=pages,
+                    relabelled=relabelling(before_overrides, linked),
                 ))
                 if pages is not None and pages.reused:
                     progress.say(f"  {pages.reused:,} page(s) unchanged, taken from the last build")

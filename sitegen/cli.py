@@ -42,6 +42,18 @@ def _parser() -> argparse.ArgumentParser:
                    help="rebuild when the config, data, notes or templates change, and reload open pages")
     s.add_argument("-q", "--quiet", action="store_true", help="do not log requests")
 
+    c = sub.add_parser("classify", help="place decklists in the last build's archetypes",
+                       description="Place each decklist in an archetype by the rule of the last build (its models in "
+                                   "the site folder; nothing is analysed again): print its archetype, distance and "
+                                   "nearest alternative.")
+    c.add_argument("config", help="site config file (its site.output holds the last build)")
+    c.add_argument("lists", nargs="*", metavar="LIST", help="text decklists (the README's format) or folders of them")
+    c.add_argument("--decks", help="a deck table (deck id, leader, optional season), with --cards")
+    c.add_argument("--cards", help="a long-form table (deck id, card, quantity), with --decks")
+    c.add_argument("--season", help="place every list in this season (default: a list's Season line, else the latest)")
+    c.add_argument("--leader", help="the leader of every list (default: each list's Leader line)")
+    c.add_argument("--format", choices=("text", "csv", "json"), default="text", help="output format (default text)")
+
     n = sub.add_parser("new", help="start a site project in a new folder",
                        description="Make DIR with a commented site.toml, a small sample of invented deck data, "
                                    "content/ for notes and templates/ for overrides.")
@@ -72,6 +84,11 @@ def main(argv: list[str] | None = None) -> int:
             from .serve import serve
 
             serve(Path(args.target), host=args.host, port=args.port, watch=args.watch, quiet=args.quiet)
+        elif args.command == "classify":
+            from .classify import classify
+
+            sys.stdout.write(classify(args.config, [Path(x) for x in args.lists], decks=args.decks, cards=args.cards,
+                                      season=args.season, leader=args.leader, fmt=args.format))
         elif args.command == "new":
             from .scaffold import new_site
 

@@ -73,6 +73,9 @@ class SiteInput:
     export_blocks: exports.ExportBlocks | None = None
     #: The last build's page keys, to reuse pages whose context is unchanged (see memo.PageMemo).
     page_memo: PageMemo | None = None
+    #: Per (season, leader), the archetype key each placement key's decks end up under after the notes'
+    #: overrides (see classify.relabelling); partitions not named keep their keys.
+    relabelled: dict | None = None
 
 
 # -- template environment ---------------------------------------------------
@@ -361,6 +364,7 @@ class Renderer:
         if analysed:
             nav.append(P.Link(text="Latest season", href=s.season_href(analysed[-1])))
         nav.append(P.Link(text="How it works", href="method.html"))
+        nav.append(P.Link(text="Place a decklist", href="classify.html"))
         root = _rel_root(path) if root is None else root
         # An icon of the site's own, so browsers do not ask the host for a missing /favicon.ico.
         icon = root + urls["icon_svg"] if "icon_svg" in urls else ""
@@ -912,6 +916,12 @@ class Renderer:
                                        rank=RANKS["card"]))
         self.out.update(search_files(entries))
 
+    def classify(self) -> None:
+        """classify.html and the models it places decklists by (see classify.py)."""
+        from .classify import files_and_page
+
+        self.out.update(files_and_page(self))
+
     def run(self) -> tuple[dict[str, bytes], list[Finding]]:
         s = self.s
         self.warnings.extend(self.site.notes.findings)
@@ -931,6 +941,7 @@ class Renderer:
         self.method()
         self.not_found()
         self.search()
+        self.classify()
         self.out.update(exports.export_files(self.site.data, s.results, s.page_slug, self.site.export_blocks))
         pages = sorted(p for p in self.out if p.endswith(".html") and p != "404.html")
         files, warns = sitemap_files(self.site.cfg["site.base_url"], pages)
