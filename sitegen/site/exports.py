@@ -97,6 +97,29 @@ def card_table_csv(arch: Archetype) -> bytes:
     return csv_bytes(CARD_TABLE_HEADER, rows)
 
 
+#: Columns of an archetype's card-results CSV (the site-wide file puts season, leader, archetype first).
+CARD_RESULT_HEADER = ("card", "copies", "decks_with", "wins_with", "games_with", "rate_with", "decks_without",
+                      "wins_without", "games_without", "rate_without", "diff", "low", "high", "p_value", "verdict")
+
+
+def card_result_verdict(r) -> str:
+    """'holds up', 'could be chance' or 'small sample' (see sitegen.analysis.results)."""
+    return "small sample" if r.small else ("holds up" if r.survives else "could be chance")
+
+
+def card_result_cells(r) -> tuple[str, ...]:
+    """One card result as CSV cells (rates and interval as fractions, 4 places; p-value 6 significant digits)."""
+    return (safe_cell(r.card), r.copies, str(r.decks_with), str(r.wins_with), str(r.games_with),
+            fixed(r.wins_with / r.games_with), str(r.decks_without), str(r.wins_without), str(r.games_without),
+            fixed(r.wins_without / r.games_without), fixed(r.diff), fixed(r.low), fixed(r.high),
+            "" if r.p_value is None else f"{r.p_value:.6g}", card_result_verdict(r))
+
+
+def card_results_csv(arch: Archetype) -> bytes:
+    """An archetype's card results as CSV (see :data:`CARD_RESULT_HEADER`)."""
+    return csv_bytes(CARD_RESULT_HEADER, [card_result_cells(r) for r in arch.card_results])
+
+
 def decklist_csv(arch: Archetype) -> bytes:
     """An archetype's representative (medoid) deck as CSV."""
     rows = [(safe_cell(arch.medoid_deck_id), safe_cell(line.card_type), safe_cell(line.card), str(line.quantity))

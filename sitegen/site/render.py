@@ -643,6 +643,7 @@ class Renderer:
         rank = {x: i for i, x in enumerate(s.seasons)}
         before = [x for x in own if rank[x.season] < rank[a.season]]
         after = [x for x in own if rank[x.season] > rank[a.season]]
+        asked = self._questions(r, a, similar)
         base = self._base(path, f"{name}, {a.season}",
                           f"The {name} archetype of {s.leader_name(a.leader)} in season {a.season}: cards and a sample deck.")
         self._emit("archetype.html", P.ArchetypePage(
@@ -660,12 +661,30 @@ class Renderer:
             seasons=self._season_rows(slug, a.season), first_seen=first, last_seen=last,
             link_text=self._link_text(a),
             downloads=(P.Link(text="Card table (CSV)", href=f"archetypes/{slug}/{sslug}-cards.csv"),
-                       P.Link(text="Representative deck (CSV)", href=f"archetypes/{slug}/{sslug}-decklist.csv")),
+                       P.Link(text="Representative deck (CSV)", href=f"archetypes/{slug}/{sslug}-decklist.csv"))
+            + asked.pop("downloads"), **asked,
             min_games=s.min_games,
             previous=P.Link(text=before[-1].season, href=s.arch_href(before[-1])) if before else None,
             next=P.Link(text=after[0].season, href=s.arch_href(after[0])) if after else None))
         self.out[f"archetypes/{slug}/{sslug}-cards.csv"] = exports.card_table_csv(a)
         self.out[f"archetypes/{slug}/{sslug}-decklist.csv"] = exports.decklist_csv(a)
+
+    # -- the analyst's questions: card results, matchups, comparisons (fields of ArchetypePage)
+    def _questions(self, r: PartitionResult, a: Archetype, similar: list) -> dict[str, Any]:
+        """The archetype page's card results, matchups and comparison links, with their files."""
+        s = self.s
+        slug, sslug = s.slug_of(a), s.season_slug[a.season]
+        downloads: tuple[P.Link, ...] = ()
+        rows = tuple(P.CardResultRow(
+            card=s.card_link(c.card), copies=c.copies, decks_with=c.decks_with, games_with=c.games_with,
+            rate_with=c.wins_with / c.games_with, decks_without=c.decks_without, games_without=c.games_without,
+            rate_without=c.wins_without / c.games_without, diff=c.diff, low=c.low, high=c.high, p_value=c.p_value,
+            verdict=exports.card_result_verdict(c), small=c.small) for c in a.card_results)
+        if rows:
+            href = f"archetypes/{slug}/{sslug}-card-results.csv"
+            self.out[href] = exports.card_results_csv(a)
+            downloads += (P.Link(text="Card results (CSV)", href=href),)
+        return dict(downloads=downloads, card_results=rows)
 
     def history_page(self, slug: str) -> None:
         s = self.s
