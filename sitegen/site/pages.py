@@ -278,6 +278,7 @@ class ArchetypePage(Page):
                                                 default=())
     matchups_small: int = _f("Opponents met in too few games to rank.", default=0)
     has_matchups: bool = _f("True when the site has a matches table.", default=False)
+    matchups_min_games: int = _f("Games below which a matchup is not ranked (matchups.min_games).", default=0)
     compare: tuple[Link, ...] = _f("Side-by-side comparisons with each closest archetype.", default=())
 
 

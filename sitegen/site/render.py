@@ -28,7 +28,7 @@ from ..analysis.stats import wilson
 from ..check import RULE_KINDS
 from ..config import Config
 from ..errors import RenderError
-from ..model import ALL_LEADERS, Archetype, DeckData, Finding, History, PartitionResult
+from ..model import ALL_LEADERS, OTHER_KEY, Archetype, DeckData, Finding, History, PartitionResult
 from ..slugs import SlugSet
 from . import assets, exports
 from . import charts as ch
@@ -40,6 +40,8 @@ from .sitemap import sitemap_files
 
 #: Closest archetypes listed on an archetype page.
 SIMILAR_SHOWN = 3
+#: Best and worst matchups listed on an archetype page.
+MATCHUPS_SHOWN = 3
 #: Most map points drawn on one season page, shared among its leaders by their
 #: number of points: each point is ~200 bytes of inline chart data, and this
 #: keeps a season page well under 1 MB however many leaders it has.
@@ -70,6 +72,8 @@ class SiteInput:
     export_blocks: exports.ExportBlocks | None = None
     #: The last build's page keys, to reuse pages whose context is unchanged (see memo.PageMemo).
     page_memo: PageMemo | None = None
+    #: Each season's head-to-head results (analysis.matchups.SeasonMatchups by season), or None without matches.
+    matchups: dict | None = None
 
 
 # -- template environment ---------------------------------------------------
@@ -349,6 +353,7 @@ class Renderer:
         if analysed:
             nav.append(P.Link(text="Latest season", href=s.season_href(analysed[-1])))
         nav.append(P.Link(text="How it works", href="method.html"))
+        nav.append(P.Link(text="Data", href="data.html"))
         root = _rel_root(path) if root is None else root
         # An icon of the site's own, so browsers do not ask the host for a missing /favicon.ico.
         icon = root + urls["icon_svg"] if "icon_svg" in urls else ""
@@ -527,14 +532,15 @@ class Renderer:
                                for r in s.results if r.season == season),
                               key=lambda b: (-b.decks, b.name)))
         path = s.season_href(season)
+        heads = self._matchup_view(season)
         base = self._base(path, f"Season {season}", f"Archetypes of every {s.word} in season {season}.",
-                          charts=any(b.map_chart or b.silhouette_chart for b in blocks))
+                          charts=any(b.map_chart or b.silhouette_chart for b in blocks) or bool(heads and heads.chart))
         self._emit("season.html", P.SeasonPage(
             **base, season=season, decks=s.decks_in_season[season], leaders=blocks,
             previous=s.season_link(s.seasons[i - 1]) if i > 0 else None,
             next=s.season_link(s.seasons[i + 1]) if i + 1 < len(s.seasons) else None,
             notes=self._emptied_notes(season) + self._notes_for(season, None), has_results=s.has_results,
-            min_games=s.min_games))
+            min_games=s.min_games, matchups=heads))
         for b in blocks:
             if b.map_chart is not None:
                 self._emit_data(b.map_data, b.map_chart)
@@ -684,7 +690,113 @@ class Renderer:
             href = f"archetypes/{slug}/{sslug}-card-results.csv"
             self.out[href] = exports.card_results_csv(a)
             downloads += (P.Link(text="Card results (CSV)", href=href),)
-        return dict(downloads=downloads, card_results=rows)
+        heads = self._season_heads(a.season)
+        if heads is not None:
+            mine = [m for m in heads if m.archetype.href == s.arch_href(a) and not m.mirror]
+            tested = [m for m in mine if not m.small]
+            best = sorted((m for m in tested if m.rate > 0.5), key=lambda m: (-m.rate, m.opponent.text))[:MATCHUPS_SHOWN]
+            worst = sorted((m for m in tested if m.rate < 0.5), key=lambda m: (m.rate, m.opponent.text))[:MATCHUPS_SHOWN]
+            extra = dict(matchups_best=tuple(best), matchups_worst=tuple(worst),
+                         matchups_small=sum(1 for m in mine if m.small), has_matchups=True,
+                         matchups_min_games=int(self.site.cfg["matchups.min_games"]))
+        else:
+            extra = {}
+        return dict(downloads=downloads, card_results=rows, **extra)
+
+    def _group_label(self, season: str, leader: str, key: str) -> P.Link:
+        """A group of a season named with its leader, linked to its page (none for other decks)."""
+        groups = getattr(self, "_groups_by_key", None)
+        if groups is None:
+            groups = self._groups_by_key = {(g.season, g.leader, g.key): g for r in self.s.results for g in r.groups}
+        g = groups.get((season, leader, key))
+        lead = self.s.leader_name(leader)
+        if g is None:
+            return P.Link(text=f"{lead} · {key}", href="")
+        name = self.s.name_of(g)  # a computed name starts with its leader already
+        return P.Link(text=name if name.startswith(lead) else f"{lead} · {name}",
+                      href="" if g.is_other else self.s.arch_href(g))
+
+    def _season_heads(self, season: str) -> list[P.MatchupRow] | None:
+        """Every matchup of a season as page rows (see analysis/matchups.py), or None without matches."""
+        given = self.site.matchups
+        if given is None:
+            return None
+        made = getattr(self, "_heads", None)
+        if made is None:
+            made = self._heads = {}
+        if season not in made:
+            found = given.get(season)
+            min_games = int(self.site.cfg["matchups.min_games"])
+            rows = []
+            for c in (found.cells if found is not None else ()):
+                low, high = c.interval
+                rows.append(P.MatchupRow(
+                    archetype=self._group_label(season, *c.group), opponent=self._group_label(season, *c.opponent),
+                    wins=c.wins, losses=c.losses, draws=c.draws, games=c.games, rate=c.rate, low=low, high=high,
+                    small=c.games < min_games, mirror=c.mirror))
+            made[season] = rows
+        return made[season]
+
+    def _matchup_view(self, season: str) -> P.MatchupView | None:
+        """The season page's head-to-head heat map and table, or None without matches."""
+        rows = self._season_heads(season)
+        if rows is None:
+            return None
+        found = self.site.matchups.get(season)
+        order = self._matchup_order(season)
+        min_games = int(self.site.cfg["matchups.min_games"])
+        rank = {label: i for i, label in enumerate(order)}
+        rows = sorted(rows, key=lambda m: (rank.get(m.archetype.text, len(rank)), rank.get(m.opponent.text, len(rank))))
+        chart = ch.matchup_chart(
+            [{"archetype": m.archetype.text, "opponent": m.opponent.text, "win_rate": m.rate, "low": m.low,
+              "high": m.high, "games": m.games, "draws": m.draws, "small": m.small, "mirror": m.mirror} for m in rows],
+            [o for o in order if any(m.archetype.text == o for m in rows)],
+            f"matchups-{self.s.season_slug[season]}", min_games) if rows else None
+        return P.MatchupView(chart=chart, rows=tuple(rows), games=found.matches if found else 0,
+                             draws=found.draws if found else 0, skipped=found.skipped if found else 0,
+                             min_games=min_games, download=P.Link(text="Every season's matchups (CSV)",
+                                                                  href="data/matchups.csv"))
+
+    def _matchup_order(self, season: str) -> list[str]:
+        """Labels of a season's groups: by leader, then largest first, other decks last."""
+        out = []
+        for r in sorted((r for r in self.s.results if r.season == season), key=lambda r: self.s.leader_name(r.leader)):
+            for g in sorted(r.groups, key=lambda g: (g.is_other, -g.n_decks, g.key)):
+                out.append(self._group_label(season, g.leader, g.key).text)
+        return out
+
+    def data_page(self) -> None:
+        """data.html and the site-wide card-results and matchup files it lists."""
+        s = self.s
+        rows = [(a.season, a.leader, s.slug_of(a), r) for res in s.results for a in res.archetypes for r in a.card_results]
+        header = ("season", "leader", "archetype") + exports.CARD_RESULT_HEADER
+        self.out["data/card-results.csv"] = exports.csv_bytes(
+            header, [(exports.safe_cell(x), exports.safe_cell(y), exports.safe_cell(z), *exports.card_result_cells(r))
+                     for x, y, z, r in rows])
+        self.out["data/card-results.json"] = exports.lines_json({"card_results": [
+            dict(zip(header, (x, y, z, r.card, r.copies, r.decks_with, r.wins_with, r.games_with,
+                              round(r.wins_with / r.games_with, 6), r.decks_without, r.wins_without, r.games_without,
+                              round(r.wins_without / r.games_without, 6), r.diff, r.low, r.high, r.p_value,
+                              exports.card_result_verdict(r)))) for x, y, z, r in rows]})
+        heads = self.site.matchups
+        if heads is not None:
+            min_games = int(self.site.cfg["matchups.min_games"])
+            header = exports.MATCHUP_HEADER
+            found = []
+            for season in s.seasons:
+                for c in (heads[season].cells if season in heads else ()):
+                    low, high = c.interval
+                    mine = s.page_slug.get((season, *c.group), OTHER_KEY)
+                    theirs = s.page_slug.get((season, *c.opponent), OTHER_KEY)
+                    found.append((season, c.group[0], mine, c.opponent[0], theirs, c.wins, c.losses, c.draws, c.games,
+                                  round(c.rate, 6), round(low, 6), round(high, 6), c.games < min_games, c.mirror))
+            self.out["data/matchups.csv"] = exports.csv_bytes(header, [
+                tuple(exports.safe_cell(v) for v in row[:5]) + tuple(str(v) for v in row[5:9])
+                + tuple(exports.fixed(v) for v in row[9:12]) + tuple("yes" if v else "" for v in row[12:])
+                for row in found])
+            self.out["data/matchups.json"] = exports.lines_json({"matchups": [dict(zip(header, row)) for row in found]})
+        base = self._base("data.html", "Data downloads", "Every file of this site to download, with its columns described.")
+        self._emit("data.html", P.DataPage(**base, downloads=exports.downloads(heads is not None)))
 
     def history_page(self, slug: str) -> None:
         s = self.s
@@ -820,6 +932,7 @@ class Renderer:
         self.not_found()
         self.search()
         self.out.update(exports.export_files(self.site.data, s.results, s.page_slug, self.site.export_blocks))
+        self.data_page()
         pages = sorted(p for p in self.out if p.endswith(".html") and p != "404.html")
         files, warns = sitemap_files(self.site.cfg["site.base_url"], pages)
         self.out.update(files)
