@@ -107,3 +107,85 @@ def test_small_samples_are_flagged_not_tested():
     counts, wins, losses, cards = _planted(n=30)
     rows = R.card_results(counts, np.arange(30), cards, np.minimum(wins, 1), 1 - np.minimum(wins, 1))
     assert rows and all(r.small and r.p_value is None for r in rows)
+
+
+# ---------------------------------------------------------------- on a built site
+
+@pytest.fixture(scope="module")
+def small_demo(tmp_path_factory):
+    """A small demo site (2 seasons, 3 leaders) with its matches, built once."""
+    import importlib.util
+    from pathlib import Path
+
+    from sitegen import config
+    from sitegen.build import build
+
+    root = Path(__file__).resolve().parents[1]
+    spec = importlib.util.spec_from_file_location("demo_generate", root / "demo_data" / "generate.py")
+    gen = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(gen)
+    work = tmp_path_factory.mktemp("questions")
+    gen.generate(work / "data", seasons=2, leaders=3, decks_per_season=1200, decklists=0, matches_per_season=3000)
+    cfg = config.from_dict({"site": {"output": "site"}, "cache": {"folder": "cache"},
+                            "data": {"decks": "data/decks.csv", "deck_cards": "data/deck_cards.parquet",
+                                     "cards": "data/cards.csv", "matches": "data/matches.csv"},
+                            "analysis": {"map_points": 100, "map_iterations": 50, "workers": 1}}, root=work)
+    build(cfg=cfg, quiet=True)
+    return work
+
+
+def test_comparison_pages_show_shares_recounted_from_the_decks(small_demo):
+    # Reference: the shares recounted with pandas from deck_cards.parquet and the assignments export.
+    import re
+    from html import unescape
+
+    import pandas as pd
+
+    site = small_demo / "site"
+    rows = pd.read_parquet(small_demo / "data" / "deck_cards.parquet")
+    assigned = pd.read_csv(site / "data" / "assignments.csv", dtype=str, keep_default_na=False)
+    pages = sorted(site.glob("archetypes/*/*-vs-*.html"))
+    assert pages
+    for page in pages[:6]:
+        slug_a = page.parent.name
+        season_slug, slug_b = page.stem.split("-vs-")
+        text = page.read_text(encoding="utf-8")
+        tables = re.findall(r"<tbody>(.*?)</tbody>", text, flags=re.S)
+        first = re.findall(r"<tr>\s*<td data-sort=\"([^\"]*)\">.*?data-sort=\"([0-9.]+)\".*?</td>.*?"
+                           r"data-sort=\"[0-9.]*\".*?data-sort=\"([0-9.]+)\"", tables[0], flags=re.S)
+        assert first, page
+        members = {}
+        for slug in (slug_a, slug_b):
+            ids = assigned.loc[assigned["archetype"] == slug, ["deck_id", "season"]]
+            season = next(s for s in ids["season"].unique() if _slug(s) == season_slug)
+            members[slug] = set(ids.loc[ids["season"] == season, "deck_id"])
+        for card, share_a, share_b in first[:5]:
+            card = unescape(card)
+            for slug, shown in ((slug_a, share_a), (slug_b, share_b)):
+                decks = members[slug]
+                playing = rows.loc[(rows["card"] == card) & rows["deck_id"].isin(decks), "deck_id"].nunique()
+                assert float(shown) == pytest.approx(playing / len(decks), abs=1e-4), (page.name, card, slug)
+            assert float(share_a) - float(share_b) >= 0.1  # listed only from a 10-point gap
+
+
+def _slug(season: str) -> str:
+    return season.lower().replace(" ", "-")
+
+
+def test_archetype_pages_carry_card_results_matchups_and_cautions(small_demo):
+    site = small_demo / "site"
+    pages = [p for p in site.glob("archetypes/*/*.html") if p.name != "index.html" and "-vs-" not in p.name]
+    with_results = [p for p in pages if "Cards and winning" in p.read_text(encoding="utf-8")]
+    assert with_results
+    text = with_results[0].read_text(encoding="utf-8")
+    assert "association, not cause" in text and "could be chance" in text
+    assert 'class="table-scroll" role="region" tabindex="0" aria-label="Card results in' in text
+    assert "Best and worst matchups" in text and "compare-links" in text
+    # Every download the data page links to exists.
+    data_page = (site / "data.html").read_text(encoding="utf-8")
+    links = re.findall(r'<a href="(data/[^"]+)"', data_page)
+    assert {"data/assignments.csv", "data/card-results.csv", "data/matchups.csv"} <= set(links)
+    assert all((site / link).is_file() for link in links)
+
+
+import re  # noqa: E402  (used by the page checks above)

@@ -42,6 +42,15 @@ from .sitemap import sitemap_files
 SIMILAR_SHOWN = 3
 #: Best and worst matchups listed on an archetype page.
 MATCHUPS_SHOWN = 3
+#: Cards listed in each direction on a comparison page, and the least gap in share (points) to list one.
+COMPARE_SHOWN = 15
+COMPARE_GAP = 0.1
+
+
+def _key_rank(a: Archetype) -> tuple[int, str]:
+    """Order of archetypes within a partition (a1, a2, ... a10), for one page per pair."""
+    digits = a.key[1:]
+    return (int(digits), a.key) if digits.isdigit() else (1 << 30, a.key)
 #: Most map points drawn on one season page, shared among its leaders by their
 #: number of points: each point is ~200 bytes of inline chart data, and this
 #: keeps a season page well under 1 MB however many leaders it has.
@@ -701,7 +710,56 @@ class Renderer:
                          matchups_min_games=int(self.site.cfg["matchups.min_games"]))
         else:
             extra = {}
-        return dict(downloads=downloads, card_results=rows, **extra)
+        others = sorted(((cosine(a.profile, b.profile), b) for b in r.archetypes if b.key != a.key),
+                        key=lambda t: (-t[0], t[1].key))
+        compare = []
+        for sim, b in others:
+            first, second = (a, b) if _key_rank(a) < _key_rank(b) else (b, a)
+            href = f"archetypes/{s.slug_of(first)}/{sslug}-vs-{s.slug_of(second)}.html"
+            compare.append(P.Link(text=f"{s.name_of(a)} against {s.name_of(b)} ({sim:.0%} alike)", href=href))
+            if first is a:
+                self.comparison(r, a, b, sim, href)
+        return dict(downloads=downloads, card_results=rows, compare=tuple(compare), **extra)
+
+    def comparison(self, r: PartitionResult, a: Archetype, b: Archetype, similarity: float, path: str) -> None:
+        """Two archetypes of one leader and season side by side: the cards whose share differs most."""
+        s = self.s
+        copies_a = {c.card: c.mean_copies for c in a.inclusion}
+        copies_b = {c.card: c.mean_copies for c in b.inclusion}
+        deck_a = {line.card: int(line.quantity) for line in a.medoid}
+        deck_b = {line.card: int(line.quantity) for line in b.medoid}
+
+        def row(card: str) -> P.ComparisonRow:
+            return P.ComparisonRow(card=s.card_link(card), share_a=a.profile.get(card, 0.0),
+                                   share_b=b.profile.get(card, 0.0), copies_a=copies_a.get(card, 0.0),
+                                   copies_b=copies_b.get(card, 0.0), deck_a=deck_a.get(card, 0),
+                                   deck_b=deck_b.get(card, 0))
+
+        cards = sorted(set(a.profile) | set(b.profile))
+        gap = {c: a.profile.get(c, 0.0) - b.profile.get(c, 0.0) for c in cards}
+        more_a = [c for c in sorted(cards, key=lambda c: (-gap[c], c)) if gap[c] >= COMPARE_GAP][:COMPARE_SHOWN]
+        more_b = [c for c in sorted(cards, key=lambda c: (gap[c], c)) if -gap[c] >= COMPARE_GAP][:COMPARE_SHOWN]
+        differ = sorted((c for c in set(deck_a) | set(deck_b) if deck_a.get(c, 0) != deck_b.get(c, 0)),
+                        key=lambda c: (-abs(deck_a.get(c, 0) - deck_b.get(c, 0)), c))
+        others = tuple(x for x in self._comparison_links(r, a) if x.href != path)
+        title = f"{s.name_of(a)} and {s.name_of(b)}, {a.season}"
+        base = self._base(path, title, f"Two close archetypes of {s.leader_name(a.leader)} in {a.season}, side by side.")
+        self._emit("comparison.html", P.ComparisonPage(
+            **base, a=s.arch_link(a), b=s.arch_link(b), season=s.season_link(a.season), leader=s.leader_link(a.leader),
+            decks_a=int(a.n_decks), decks_b=int(b.n_decks), similarity=similarity,
+            more_a=tuple(map(row, more_a)), more_b=tuple(map(row, more_b)), deck_diff=tuple(map(row, differ)),
+            others=others))
+
+    def _comparison_links(self, r: PartitionResult, a: Archetype) -> list[P.Link]:
+        """Links to every comparison page of ``a`` (closest first is not needed here: by name)."""
+        s = self.s
+        sslug = s.season_slug[a.season]
+        out = []
+        for b in sorted((b for b in r.archetypes if b.key != a.key), key=s.name_of):
+            first, second = (a, b) if _key_rank(a) < _key_rank(b) else (b, a)
+            out.append(P.Link(text=f"against {s.name_of(b)}",
+                              href=f"archetypes/{s.slug_of(first)}/{sslug}-vs-{s.slug_of(second)}.html"))
+        return out
 
     def _group_label(self, season: str, leader: str, key: str) -> P.Link:
         """A group of a season named with its leader, linked to its page (none for other decks)."""
@@ -789,7 +847,8 @@ class Renderer:
                     mine = s.page_slug.get((season, *c.group), OTHER_KEY)
                     theirs = s.page_slug.get((season, *c.opponent), OTHER_KEY)
                     found.append((season, c.group[0], mine, c.opponent[0], theirs, c.wins, c.losses, c.draws, c.games,
-                                  round(c.rate, 6), round(low, 6), round(high, 6), c.games < min_games, c.mirror))
+                                  None if math.isnan(c.rate) else round(c.rate, 6), round(low, 6), round(high, 6),
+                                  c.games < min_games, c.mirror))
             self.out["data/matchups.csv"] = exports.csv_bytes(header, [
                 tuple(exports.safe_cell(v) for v in row[:5]) + tuple(str(v) for v in row[5:9])
                 + tuple(exports.fixed(v) for v in row[9:12]) + tuple("yes" if v else "" for v in row[12:])
