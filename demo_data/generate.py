@@ -86,6 +86,14 @@ SHARE_MIN, SHARE_MAX = 0.08, 0.40
 BREW_SHARE = 0.03
 MAX_GAMES = 12
 SPLIT_EVERY = 3  # a split in seasons 2, 5, 8, ...; a merge in seasons 3, 6, 9, ...
+# Head-to-head results: drawn from a random stream of their own, so the other files stay as they were.
+MATCH_STREAM = 19  # the matches' generator is seeded with (seed, MATCH_STREAM)
+MATCH_SEASONS = 2  # matches are written for the last seasons only
+MATCHES_PER_SEASON = 10000
+DRAW_SHARE = 0.03
+#: Planted matchups among each season's four largest archetypes (by rank): (first, second, chance the first wins).
+PLANTED_EDGES = ((0, 1, 0.72), (2, 3, 0.28), (0, 2, 0.70), (1, 3, 0.5))
+OTHER_EDGE = 0.08  # every other pair of archetypes: the first wins with a chance drawn from 0.5 +- this
 
 
 # ---------------------------------------------------------------- names
@@ -380,12 +388,14 @@ def _block(rng: np.random.Generator, plan: _Plan, s: int, lead: int, n: int):
 
 def generate(out_dir, *, seed: int = DEFAULT_SEED, decks_per_season: int = 4000, seasons: int = 5,
              leaders: int = 5, cards_per_leader: int = 300, neutral_cards: int = 150, decklists: int = 300,
-             fmt: str = "parquet") -> dict:
+             fmt: str = "parquet", matches_per_season: int = MATCHES_PER_SEASON) -> dict:
     """Write the demo data files into ``out_dir`` and return a summary (counts and paths).
 
     Files: decks.csv, deck_cards.parquet (or .csv with ``fmt="csv"``),
-    cards.csv, truth.csv, truth.json and ``decklists/`` with ``decklists``
-    text decklists of the first season.
+    cards.csv, truth.csv, truth.json, ``decklists/`` with ``decklists``
+    text decklists of the first season, and matches.csv with
+    ``matches_per_season`` games in each of the last :data:`MATCH_SEASONS`
+    seasons (none with 0), their planted chances in matches_truth.json.
     """
     if fmt not in ("csv", "parquet"):
         raise ValueError(f"fmt must be 'csv' or 'parquet', got {fmt!r}")
@@ -504,6 +514,11 @@ def generate(out_dir, *, seed: int = DEFAULT_SEED, decks_per_season: int = 4000,
                                                neutral_cards, seed), encoding="utf-8")
     paths["decklists"] = out / "decklists"
     _write_decklists(paths["decklists"], decks, season_info[0][0], decklists, d, c, k, names)
+    for stale in ("matches.csv", "matches_truth.json"):
+        (out / stale).unlink(missing_ok=True)
+    if matches_per_season > 0:
+        paths["matches"], paths["matches_truth"] = _write_matches(out, decks, [x[0] for x in season_info],
+                                                                  matches_per_season, seed)
     return {"decks": base, "rows": len(d), "cards": n_cards, "archetypes": len(plan.archetypes),
             "splits": len(plan.splits), "merges": len(plan.merges), "paths": {k_: str(p) for k_, p in paths.items()}}
 
@@ -546,6 +561,55 @@ def _truth_json(plan: _Plan, names, leader_names, season_info, cpl: int, n_neutr
     return json.dumps(doc, indent=1, ensure_ascii=False) + "\n"
 
 
+def _write_matches(out: Path, decks: pd.DataFrame, seasons: list[str], per_season: int, seed: int):
+    """matches.csv (deck_id, opponent_id, result of the first deck: win, loss or draw) and
+    matches_truth.json (each season's planted chance that one archetype beats another).
+
+    Two decks of the season meet at random, whatever their leaders. Among the
+    season's four largest archetypes the :data:`PLANTED_EDGES` are planted; any
+    other pair of archetypes gets a chance within :data:`OTHER_EDGE` of even, and
+    a brew is even against everything. A game is a draw with chance :data:`DRAW_SHARE`.
+    """
+    rng = np.random.default_rng([seed, MATCH_STREAM])  # a stream of its own: the other files stay as they were
+    frames, truth = [], {}
+    for season in seasons[-MATCH_SEASONS:]:
+        mine = decks[decks["season"] == season]
+        ids = mine["deck_id"].to_numpy(dtype=object)
+        labels = mine["archetype"].to_numpy(dtype=object)
+        sizes = pd.Series(labels[labels != "brew"]).value_counts()
+        names = sorted(sizes.index.tolist())
+        rank = sorted(names, key=lambda a: (-int(sizes[a]), a))
+        chance = {}
+        for i, x in enumerate(names):
+            for y in names[i + 1:]:
+                p = 0.5 + float(rng.uniform(-OTHER_EDGE, OTHER_EDGE))
+                chance[(x, y)], chance[(y, x)] = p, 1.0 - p
+        planted = []
+        for i, j, p in PLANTED_EDGES:
+            if max(i, j) < len(rank):
+                x, y = rank[i], rank[j]
+                chance[(x, y)], chance[(y, x)] = p, 1.0 - p
+                planted.append({"archetype": x, "opponent": y, "chance": p})
+        n = len(ids)
+        if n < 2:
+            continue
+        first = rng.integers(0, n, size=per_season)
+        second = (first + rng.integers(1, n, size=per_season)) % n  # never the same deck
+        p_win = np.array([chance.get((a, b), 0.5) for a, b in zip(labels[first], labels[second])])
+        u = rng.random(per_season)
+        draw = rng.random(per_season) < DRAW_SHARE
+        result = np.where(draw, "draw", np.where(u < p_win, "win", "loss"))
+        frames.append(pd.DataFrame({"deck_id": ids[first], "opponent_id": ids[second], "result": result}))
+        truth[season] = {"planted": planted,
+                         "chances": [{"archetype": a, "opponent": b, "chance": round(p, 6)}
+                                     for (a, b), p in sorted(chance.items())]}
+    path = out / "matches.csv"
+    pd.concat(frames, ignore_index=True).to_csv(path, index=False, lineterminator="\n")
+    truth_path = out / "matches_truth.json"
+    truth_path.write_text(json.dumps(truth, indent=1, sort_keys=True) + "\n", encoding="utf-8")
+    return path, truth_path
+
+
 def _write_decklists(folder: Path, decks: pd.DataFrame, season: str, n: int, d, c, k, names) -> None:
     """``n`` decks of the first season, evenly spaced by deck id, one text file each."""
     folder.mkdir(parents=True, exist_ok=True)
@@ -579,11 +643,13 @@ def main(argv=None) -> int:
     p.add_argument("--decklists", type=int, default=DEFAULTS["decklists"], help="text decklists to write")
     p.add_argument("--format", dest="fmt", choices=("csv", "parquet"), default=DEFAULTS["fmt"],
                    help="file format of deck_cards")
+    p.add_argument("--matches-per-season", type=int, default=MATCHES_PER_SEASON,
+                   help=f"games written to matches.csv in each of the last {MATCH_SEASONS} seasons (0: none)")
     a = p.parse_args(argv)
     try:
         summary = generate(a.out, seed=a.seed, decks_per_season=a.decks_per_season, seasons=a.seasons,
                            leaders=a.leaders, cards_per_leader=a.cards_per_leader, neutral_cards=a.neutral_cards,
-                           decklists=a.decklists, fmt=a.fmt)
+                           decklists=a.decklists, fmt=a.fmt, matches_per_season=a.matches_per_season)
     except ValueError as exc:
         print(f"generate.py: {exc}", file=sys.stderr)
         return 2

@@ -85,7 +85,7 @@ def output_dir(cfg: Config, override: Path | str | None = None) -> Path:
 
 
 #: The data settings, each a file or folder a build reads.
-_DATA_KEYS = ("data.deck_cards", "data.decks", "data.cards", "data.decklists", "data.parquet_folder")
+_DATA_KEYS = ("data.deck_cards", "data.decks", "data.cards", "data.decklists", "data.parquet_folder", "data.matches")
 
 
 def checked_output(cfg: Config, override: Path | str | None = None) -> tuple[Path, bool]:
@@ -191,11 +191,14 @@ def build(
                 else:
                     progress.say(f"  {len(folder.files)} season folder(s), read and analysed one season at a time")
             if data is not None:
+                matches = _read_matches(cfg, data, progress)  # a bad matches table stops the build early
                 data, results, run = _analyse_tables(data, cfg, runs, progress)
             else:
                 data, results, run = _analyse_folder(folder, cfg, runs, cache, progress)
             if data.excluded:
                 progress.say(f"  {len(data.excluded):,} deck(s) break a rule and are left out")
+            if folder is not None:  # tables read whole had their matches read before the analysis
+                matches = _read_matches(cfg, data, progress)
             with progress.stage("drawing maps"):
                 results = runs.draw_maps(results, data.seasons)
                 run = replace(run, mapped=runs.mapped)
@@ -208,6 +211,7 @@ def build(
             before_overrides = linked
             linked, override_findings = apply_overrides(linked, notes.front_matter_by_slug())
             trends = trend_rows(linked, data.seasons, cfg["trends.min_games"])
+            heads = _matchups(matches, data, linked)
             last = _last_build(cache_dir)
             blocks = _previous_blocks(last, out) if cache_dir is not None else None
             pages = _previous_pages(last, out, templates_dirs(cfg)) if cache_dir is not None else None
@@ -217,7 +221,7 @@ def build(
                 files, render_findings = render_site(SiteInput(
                     cfg=cfg, data=data, results=tuple(linked), history=history, notes=notes,
                     findings=data.findings, templates_dirs=templates_dirs(cfg), trends=trends,
-                    export_blocks=blocks, page_memo=pages,
+                    export_blocks=blocks, page_memo=pages, matchups=heads,
                     relabelled=relabelling(before_overrides, linked),
                 ))
                 if pages is not None and pages.reused:
@@ -243,6 +247,27 @@ def build(
         )
         _write_stamp(cache_dir, stamp, report, blocks.new_index if blocks is not None else [], pages, check_salt)
     return report
+
+
+def _read_matches(cfg: Config, data, progress: Progress):
+    """The checked matches table (data.matches), or None; a bad table stops the build before anything is written."""
+    if cfg.path("data.matches") is None:
+        return None
+    from .load.matches import read_matches
+
+    with progress.stage("reading matches"):
+        matches = read_matches(cfg, data.decks["deck_id"])
+        progress.say(f"  {len(matches):,} matches")
+    return matches
+
+
+def _matchups(matches, data, linked):
+    """Each season's head-to-head results (analysis/matchups.py), or None without a matches table."""
+    if matches is None:
+        return None
+    from .analysis.matchups import matchups
+
+    return matchups(matches, data.decks, linked, data.seasons)
 
 
 def _analyse_tables(data, cfg: Config, runs, progress: Progress):
@@ -373,7 +398,7 @@ def input_stamp(cfg: Config, out: Path) -> str:
     h.update(str(out).encode())
     h.update(os.environ.get("SOURCE_DATE_EPOCH", "").encode())
     roots = [cfg.path(k) for k in ("data.deck_cards", "data.decks", "data.cards", "data.decklists",
-                                   "data.parquet_folder", "site.content")]
+                                   "data.parquet_folder", "data.matches", "site.content")]
     roots += list(templates_dirs(cfg)) + [Path(__file__).resolve().parent]
     for root in roots:
         if root is None:

@@ -57,6 +57,7 @@ SETTINGS: tuple[Setting, ...] = (
     _S("data.cards", "", str, "Optional card table (CSV or Parquet): card name, card type, further columns."),
     _S("data.decklists", "", str, "Folder of plain-text decklists, instead of data.deck_cards and data.decks."),
     _S("data.parquet_folder", "", str, "Folder of Parquet files partitioned by season: season=NAME/ folders each holding decks.parquet and deck_cards.parquet; instead of data.deck_cards and data.decks."),
+    _S("data.matches", "", str, "Optional matches table (CSV or Parquet): one row per match or game, with the two deck ids and the result for the first deck: win, loss or draw."),
     # -- which column means what
     _S("columns.deck_id", "deck_id", str, "Deck id column, in both the deck table and the long-form table."),
     _S("columns.card", "card", str, "Card name column of the long-form table."),
@@ -72,6 +73,9 @@ SETTINGS: tuple[Setting, ...] = (
     _S("columns.card_name", "card", str, "Card name column of the card table."),
     _S("columns.card_type", "type", str, "Card type column of the card table."),
     _S("columns.card_extra", [], list, "Further card-table columns to show in tables; empty shows all of them."),
+    _S("columns.match_deck", "deck_id", str, "Matches table: the first deck's id column (the result is this deck's)."),
+    _S("columns.match_opponent", "opponent_id", str, "Matches table: the opposing deck's id column."),
+    _S("columns.match_result", "result", str, "Matches table: the first deck's result column, one of win, loss, draw (any case)."),
     # -- seasons
     _S("seasons.source", "column", str, "Where a deck's season comes from: 'column' or 'calendar'.", choices=("column", "calendar")),
     _S("seasons.calendar", [], list, "Named date ranges, each {name, start, end} (dates inclusive), applied to columns.date."),
@@ -100,6 +104,8 @@ SETTINGS: tuple[Setting, ...] = (
     _S("analysis.scheduler", "", str, "Address of a Dask scheduler to send partition analyses to; empty runs them here."),
     # -- trends
     _S("trends.min_games", 100, int, "Win rates from fewer games are flagged as small samples and not ranked.", minimum=0),
+    # -- head-to-head results
+    _S("matchups.min_games", 30, int, "Matchups from fewer won or lost games are greyed as small samples and not ranked.", minimum=1),
     # -- cache
     _S("cache.folder", ".sitegen-cache", str, "Folder of stored partition analyses, relative to the config file."),
 )

@@ -159,6 +159,35 @@ class SignatureCard:
 
 
 @dataclass(frozen=True)
+class CardResult:
+    """How the games of an archetype's decks that play a card went against those that do not
+    (:mod:`sitegen.analysis.results`).
+
+    ``copies``: ``any`` (decks playing it at all), ``1``, ``2`` or ``3+``; the
+    ``with`` side is the decks playing it so, the ``without`` side the decks
+    not playing it. ``diff``: win rate with minus without, with its 95%
+    Newcombe interval ``low``..``high``; ``p_value``: Fisher's exact test, None
+    for a small sample; ``survives``: kept by the Benjamini-Hochberg rule over
+    the archetype's tested comparisons; ``small``: too few games or decks to test.
+    """
+
+    card: str
+    copies: str
+    decks_with: int
+    wins_with: int
+    games_with: int
+    decks_without: int
+    wins_without: int
+    games_without: int
+    diff: float
+    low: float
+    high: float
+    p_value: float | None
+    survives: bool
+    small: bool
+
+
+@dataclass(frozen=True)
 class DeckLine:
     """One card of a decklist, with its type (empty when no card table)."""
 
@@ -201,6 +230,8 @@ class Archetype:
     #: Mean Jaccard index of the archetype's decks with its best match when the
     #: rule is run again on random halves of the partition (None: not measured).
     stability: float | None = None
+    #: Card results: the decks playing each card against those that do not (empty without results).
+    card_results: tuple[CardResult, ...] = ()
 
 
 @dataclass(frozen=True)

@@ -22,7 +22,7 @@ gen = importlib.util.module_from_spec(_spec)
 _spec.loader.exec_module(gen)
 
 SMALL = dict(seed=7, decks_per_season=400, seasons=3, leaders=3, cards_per_leader=160, neutral_cards=60, decklists=20)
-FILES = ("cards.csv", "deck_cards.parquet", "decks.csv", "truth.csv", "truth.json")
+FILES = ("cards.csv", "deck_cards.parquet", "decks.csv", "truth.csv", "truth.json", "matches.csv", "matches_truth.json")
 
 
 def _digests(folder: Path) -> dict[str, str]:
@@ -61,6 +61,26 @@ def test_same_seed_same_bytes(small, tmp_path):
     gen.generate(tmp_path, **SMALL)
     assert _digests(tmp_path) == _digests(out)
     assert len(_digests(out)) == len(FILES) + SMALL["decklists"]
+
+
+def test_matches_leave_the_other_files_as_they_were(small, tmp_path):
+    # The matches come from a random stream of their own: without them every other file has the same bytes.
+    out, _ = small
+    gen.generate(tmp_path, **{**SMALL, "matches_per_season": 0})
+    without, with_matches = _digests(tmp_path), _digests(out)
+    assert "matches.csv" not in without and "matches.csv" in with_matches
+    assert without == {k: v for k, v in with_matches.items() if not k.startswith("matches")}
+
+
+def test_matches_name_decks_of_one_season_and_allowed_results(small):
+    # Checked with pandas against the deck table the generator wrote.
+    out, _ = small
+    decks = pd.read_csv(out / "decks.csv", dtype=str).set_index("deck_id")
+    matches = pd.read_csv(out / "matches.csv", dtype=str)
+    assert len(matches) > 0 and set(matches["result"]) <= {"win", "loss", "draw"}
+    assert (matches["deck_id"] != matches["opponent_id"]).all()
+    seasons = decks.loc[matches["deck_id"], "season"].to_numpy()
+    assert (seasons == decks.loc[matches["opponent_id"], "season"].to_numpy()).all()
 
 
 def test_other_seed_other_decks(small, tmp_path):

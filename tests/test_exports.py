@@ -37,6 +37,9 @@ def _hostile(seed: int):
         "season": pd.Series([rng.choice(seasons + ["Zextra"]) for _ in ids], dtype="str"),
         "leader": pd.Series([rng.choice(["L1", "-L2", "Ł3", 'q"']) for _ in ids], dtype="str"),
     })
+    if seed % 4 != 1:  # reported results (nullable, as the loader gives them), or none at all
+        for col in ("wins", "losses"):
+            decks[col] = pd.array([rng.choice([None, 0, 3, 12, 2**40]) for _ in ids], dtype="Int64")
     data = DeckData(decks=decks, cards=pd.DataFrame(), card_info=None, seasons=tuple(seasons[:3]))
     results = []
     for _ in range(rng.randint(0, 4)):
@@ -72,7 +75,8 @@ def test_assignment_exports_are_what_json_and_csv_write(seed):
     writer.writerow(exports.ASSIGNMENT_COLUMNS)
     for row in rows:
         writer.writerow([exports.safe_cell(row[c]) for c in exports.ASSIGNMENT_COLUMNS[:4]]
-                        + [exports.fixed(row[c], 6) for c in exports.ASSIGNMENT_COLUMNS[4:]])
+                        + [exports.fixed(row[c], 6) for c in exports.ASSIGNMENT_COLUMNS[4:7]]
+                        + ["" if row[c] is None else str(row[c]) for c in ("wins", "losses")])
     written = exports.assignments_csv(table)
     assert written == buf.getvalue().encode("utf-8")
     # And read back by the csv module: every row whole, formula-looking text defused (OWASP).
@@ -222,3 +226,18 @@ def test_one_item_per_line_json_is_what_the_json_module_reads(doc):
             assert json.dumps(item, sort_keys=True, ensure_ascii=False) + "," in lines or \
                 json.dumps(item, sort_keys=True, ensure_ascii=False) in lines
     assert data.endswith(b"}\n")
+
+
+@pytest.mark.parametrize("seed", [0, 2, 3, 5])
+def test_assignments_carry_each_decks_wins_losses_and_leader(seed):
+    # Reference: the deck table itself, looked up row by row with pandas (nullable counts become null).
+    data, results, slugs = _by_season(seed)
+    rows = json.loads(exports.assignments_json(exports.assignment_table(data, results, slugs)))
+    by_id = data.decks.set_index("deck_id")
+    assert rows
+    for row in rows:
+        deck = by_id.loc[row["deck_id"]]
+        assert row["leader"] == deck["leader"]
+        for col in ("wins", "losses"):
+            want = None if col not in by_id.columns or pd.isna(deck[col]) else int(deck[col])
+            assert row[col] == want

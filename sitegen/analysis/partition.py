@@ -17,7 +17,7 @@ from threadpoolctl import threadpool_limits
 
 from ..model import OTHER_KEY, Archetype, MapLayout, MapSample, PartitionInput, PartitionResult, Placement
 from ..slugs import SlugSet, slugify
-from . import cluster, describe, embed, features, membership, stability
+from . import cluster, describe, embed, features, membership, results, stability
 from .params import AnalysisParams
 
 ASSIGNMENT_COLUMNS = ("deck_id", "archetype", "distance", "x", "y")
@@ -177,7 +177,16 @@ class _Context:
             profile=describe.profile(self.present, members, self.cards),
             wins=wins, losses=losses, is_other=is_other,
             mean_distance=round(float(self.distances(members).mean()), 6), has_results=known,
+            card_results=self.card_results(members, sub) if known and not is_other else (),
         )
+
+    def card_results(self, members: np.ndarray, sub: pd.DataFrame) -> tuple:
+        """The group's card results (:mod:`.results`) from its decks' wins and losses."""
+        def counts(col: str) -> np.ndarray:
+            return pd.to_numeric(sub[col], errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan) \
+                if col in sub else np.zeros(len(members))
+
+        return results.card_results(self.counts, members, self.cards, counts("wins"), counts("losses"))
 
 
 def _find(rows, present, weights, counts, least, part, params) -> membership.Membership:

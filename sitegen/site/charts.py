@@ -830,3 +830,63 @@ def bar_share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str
     caption = f"{title}: share of decks per archetype, with deck counts."
     table = [(v["archetype"], _pct(v["share"]), v["decks"]) for v in ordered]
     return _finish(chart_id, spec, caption, ("Archetype", "Share", "Decks"), table)
+
+
+def matchup_chart(rows: Sequence[Mapping[str, Any]], order: Sequence[str], chart_id: str, min_games: int) -> Chart:
+    """A season's head-to-head heat map: each cell the row archetype's win rate against the column's.
+
+    ``rows``: dicts with ``archetype``, ``opponent`` (labels in ``order``),
+    ``win_rate``, ``low``, ``high``, ``games``, ``draws``, ``small`` and
+    ``mirror``. Cells with fewer than ``min_games`` games are drawn grey (their
+    rate is in the tooltip and the table, not in the colour); mirrors are 50%
+    by construction and drawn grey too.
+    """
+    values = []
+    for r in rows:
+        small, mirror = bool(r["small"]), bool(r["mirror"])
+        values.append({
+            "archetype": str(r["archetype"]), "opponent": str(r["opponent"]),
+            "win_rate": _num(r["win_rate"]), "low": _num(r["low"]), "high": _num(r["high"]),
+            "games": int(r["games"]), "draws": int(r["draws"]), "small": small, "mirror": mirror,
+            "shown": not small and not mirror,
+            "sample": ("mirror: 50% by construction" if mirror else
+                       f"small sample: fewer than {min_games} games" if small else "enough games"),
+        })
+    labels = list(order)
+    side = max(240, min(900, 22 * len(labels)))
+    x = {"field": "opponent", "type": "nominal", "title": "Against", "sort": labels,
+         "axis": {"labelAngle": -45, "labelLimit": 160}}
+    y = {"field": "archetype", "type": "nominal", "title": "Win rate of", "sort": labels,
+         "axis": {"labelLimit": 200}}
+    tooltip = [
+        {"field": "archetype", "type": "nominal", "title": "Win rate of"},
+        {"field": "opponent", "type": "nominal", "title": "Against"},
+        {"field": "win_rate", "type": "quantitative", "title": "Win rate", "format": ".1%"},
+        {"field": "low", "type": "quantitative", "title": "Interval from", "format": ".1%"},
+        {"field": "high", "type": "quantitative", "title": "Interval to", "format": ".1%"},
+        {"field": "games", "type": "quantitative", "title": "Games"},
+        {"field": "draws", "type": "quantitative", "title": "Draws (not in the rate)"},
+        {"field": "sample", "type": "nominal", "title": "Sample"},
+    ]
+    layers = []
+    if any(not v["shown"] for v in values):
+        layers.append({"transform": [{"filter": {"field": "shown", "equal": False}}],
+                       "mark": {"type": "rect", "color": "#d9d9d9", "stroke": BACKGROUND, "strokeWidth": 1},
+                       "encoding": {"x": x, "y": y, "tooltip": tooltip}})
+    if any(v["shown"] for v in values):
+        layers.append({"transform": [{"filter": {"field": "shown", "equal": True}}],
+                       "mark": {"type": "rect", "stroke": BACKGROUND, "strokeWidth": 1},
+                       "encoding": {"x": x, "y": y, "tooltip": tooltip,
+                                    "color": {"field": "win_rate", "type": "quantitative", "title": "Win rate",
+                                              "scale": {"scheme": "blueorange", "domain": [0.25, 0.75],
+                                                        "domainMid": 0.5, "clamp": True, "reverse": True},
+                                              "legend": {"format": ".0%", "orient": "bottom"}}}})
+    spec = {"width": side, "height": side, "data": {"values": values}, "layer": layers}
+    caption = ("Head-to-head win rates: each cell is the row archetype's share of won games against the column's "
+               "(draws left out), blue above 50%, orange below. Grey cells are small samples, with fewer than "
+               f"{min_games} games, or mirrors, 50% by construction. The table gives each 95% Wilson interval.")
+    table = [(v["archetype"], v["opponent"], _pct(v["win_rate"]),
+              "" if v["mirror"] else f"{_pct(v['low'])} to {_pct(v['high'])}", v["games"], v["draws"],
+              "mirror" if v["mirror"] else ("small sample" if v["small"] else "")) for v in values]
+    return _finish(chart_id, spec, caption,
+                   ("Win rate of", "Against", "Win rate", "95% interval", "Games", "Draws", "Note"), table)

@@ -97,6 +97,105 @@ def card_table_csv(arch: Archetype) -> bytes:
     return csv_bytes(CARD_TABLE_HEADER, rows)
 
 
+#: Columns of an archetype's card-results CSV (the site-wide file puts season, leader, archetype first).
+CARD_RESULT_HEADER = ("card", "copies", "decks_with", "wins_with", "games_with", "rate_with", "decks_without",
+                      "wins_without", "games_without", "rate_without", "diff", "low", "high", "p_value", "verdict")
+
+
+def card_result_verdict(r) -> str:
+    """'holds up', 'could be chance' or 'small sample' (see sitegen.analysis.results)."""
+    return "small sample" if r.small else ("holds up" if r.survives else "could be chance")
+
+
+def card_result_cells(r) -> tuple[str, ...]:
+    """One card result as CSV cells (rates and interval as fractions, 4 places; p-value 6 significant digits)."""
+    return (safe_cell(r.card), r.copies, str(r.decks_with), str(r.wins_with), str(r.games_with),
+            fixed(r.wins_with / r.games_with), str(r.decks_without), str(r.wins_without), str(r.games_without),
+            fixed(r.wins_without / r.games_without), fixed(r.diff), fixed(r.low), fixed(r.high),
+            "" if r.p_value is None else f"{r.p_value:.6g}", card_result_verdict(r))
+
+
+def card_results_csv(arch: Archetype) -> bytes:
+    """An archetype's card results as CSV (see :data:`CARD_RESULT_HEADER`)."""
+    return csv_bytes(CARD_RESULT_HEADER, [card_result_cells(r) for r in arch.card_results])
+
+
+#: Columns of ``data/matchups.csv`` (and keys of ``data/matchups.json``).
+MATCHUP_HEADER = ("season", "leader", "archetype", "opponent_leader", "opponent", "wins", "losses", "draws", "games",
+                  "win_rate", "low", "high", "small", "mirror")
+
+_CARD_RESULT_COLUMNS = (
+    ("card", "The card."),
+    ("copies", "Which decks count as playing it: any (1 or more copies), 1, 2 or 3+ copies."),
+    ("decks_with, wins_with, games_with", "Decks playing it so (with reported results), their won games, their won plus lost games."),
+    ("rate_with", "wins_with / games_with."),
+    ("decks_without, wins_without, games_without", "The same for the archetype's decks not playing the card."),
+    ("rate_without", "wins_without / games_without."),
+    ("diff", "rate_with - rate_without."),
+    ("low, high", "95% interval of diff: Newcombe's hybrid score interval (method 10 of Newcombe 1998)."),
+    ("p_value", "Two-sided Fisher exact test on the won and lost games; empty for a small sample."),
+    ("verdict", "holds up (kept by the Benjamini-Hochberg rule at a 5% false discovery rate over the archetype's "
+                "tested rows), could be chance, or small sample (fewer than 50 games or 10 decks on a side: not tested)."),
+)
+
+
+def downloads(with_matches: bool) -> tuple:
+    """Every download of a site, with its columns described, for the data page."""
+    from .pages import Download
+
+    where = (("season", "The season."), ("leader", "The leader of the partition (* when leaders are pooled)."),
+             ("archetype", "The archetype's slug, as in its page's address; other for decks that fit no archetype."))
+    out = [
+        Download(title="Every deck and its archetype", href="data/assignments.csv", linked=True,
+                 description="One row per deck, by season, leader and deck id; also as JSON (data/assignments.json, "
+                             "one object per deck).",
+                 columns=(("deck_id", "The deck's id."), where[0], ("leader", "The deck's leader."),
+                          ("archetype", "Its archetype's slug; other when it fits none; empty when it was not "
+                                        "analysed (left out by a rule)."),
+                          ("distance", "Cosine distance of the deck to its archetype's centre (0 is at the centre)."),
+                          ("x, y", "Its place on the season's map, empty when it was not drawn."),
+                          ("wins, losses", "The deck's reported wins and losses, empty when not reported."))),
+        Download(title="Every archetype", href="data/archetypes.json", linked=True,
+                 description="Each archetype (slug, name, season, leader, decks, share, signature cards, representative "
+                             "deck, wins, losses, card table) and each partition (decks, how many archetypes and why).",
+                 columns=(("archetypes", "One object per archetype and season."),
+                          ("partitions", "One object per season and leader."))),
+        Download(title="Card results of every archetype", href="data/card-results.csv", linked=True,
+                 description="How the games of decks playing each card went against those of decks not playing it, "
+                             "inside each archetype; also as JSON (data/card-results.json). An association, not a cause.",
+                 columns=where + _CARD_RESULT_COLUMNS),
+    ]
+    if with_matches:
+        out.append(Download(
+            title="Head-to-head results", href="data/matchups.csv", linked=True,
+            description="Each season's archetypes against each other from the matches table; a game between two "
+                        "archetypes is in two rows, one from each side; also as JSON (data/matchups.json).",
+            columns=where + (("opponent_leader, opponent", "The opposing archetype's leader and slug."),
+                             ("wins, losses", "Games the archetype won and lost against it (a mirror: both are its games)."),
+                             ("draws", "Drawn games, not counted in the win rate."),
+                             ("games", "wins + losses; a mirror's games once."),
+                             ("win_rate", "wins / (wins + losses); 0.5 for a mirror, by construction."),
+                             ("low, high", "95% Wilson interval of the win rate (0.5 and 0.5 for a mirror)."),
+                             ("small", "yes when games are fewer than matchups.min_games: not ranked."),
+                             ("mirror", "yes when the two sides are the same archetype."))))
+    out += [
+        Download(title="An archetype's card table", href="archetypes/<slug>/<season>-cards.csv", linked=False,
+                 description="On each archetype page: the share of its decks playing each card and the copies played.",
+                 columns=tuple((c, d) for c, d in zip(CARD_TABLE_HEADER, (
+                     "The card.", "Its type (empty without a card table).", "Share of the decks playing it.",
+                     "Mean copies in the decks playing it.", "Share of the decks playing 1 copy.", "... 2 copies.",
+                     "... 3 or more copies.", "mainstay (90% or more), regular (50% or more) or occasional.")))),
+        Download(title="An archetype's representative deck", href="archetypes/<slug>/<season>-decklist.csv",
+                 linked=False, description="On each archetype page: its medoid deck.",
+                 columns=(("deck_id", "The deck's id."), ("type", "Card type."), ("card", "The card."),
+                          ("quantity", "Copies."))),
+        Download(title="An archetype's card results", href="archetypes/<slug>/<season>-card-results.csv",
+                 linked=False, description="On each archetype page with results: the rows of data/card-results.csv "
+                                           "for that archetype.", columns=_CARD_RESULT_COLUMNS),
+    ]
+    return tuple(out)
+
+
 def decklist_csv(arch: Archetype) -> bytes:
     """An archetype's representative (medoid) deck as CSV."""
     rows = [(safe_cell(arch.medoid_deck_id), safe_cell(line.card_type), safe_cell(line.card), str(line.quantity))
@@ -112,9 +211,11 @@ def _slug_of(result: PartitionResult, page_slugs: dict[tuple[str, str, str], str
 
 
 #: Column order of ``assignments.csv``; ``assignments.json`` has the same keys, sorted.
-ASSIGNMENT_COLUMNS = ("deck_id", "season", "leader", "archetype", "distance", "x", "y")
+ASSIGNMENT_COLUMNS = ("deck_id", "season", "leader", "archetype", "distance", "x", "y", "wins", "losses")
 _TEXT_COLUMNS = ASSIGNMENT_COLUMNS[:4]
-_NUMBER_COLUMNS = ASSIGNMENT_COLUMNS[4:]
+_NUMBER_COLUMNS = ASSIGNMENT_COLUMNS[4:7]
+#: Whole numbers from the deck table: empty in CSV and null in JSON when not reported.
+_COUNT_COLUMNS = ASSIGNMENT_COLUMNS[7:]
 _ARROW_TEXT = pa.large_string()
 
 
@@ -237,7 +338,19 @@ def assignment_table(data: DeckData, results: Sequence[PartitionResult],
         values = np.concatenate(numbers[name]) if numbers[name] else np.empty(0)
         chosen = values[safe_hit] if len(values) else np.nan
         columns[name] = _float_column(np.where(missing, np.nan, chosen))
+    for name in _COUNT_COLUMNS:
+        columns[name] = _count_column(decks[name] if name in decks.columns else None, n, order)
     return AssignmentTable(columns)
+
+
+def _count_column(values: pd.Series | None, n: int, order: np.ndarray) -> Column:
+    """A whole-number deck column (wins, losses) in file order: ints, None where not reported."""
+    if values is None:
+        return Column([None], np.zeros(n, dtype=np.int64))
+    codes, uniques = pd.factorize(pd.to_numeric(values, errors="coerce").astype("Int64"), use_na_sentinel=True)
+    distinct = [int(u) for u in uniques] + [None]
+    codes = np.where(np.asarray(codes) < 0, len(distinct) - 1, codes).astype(np.int64)
+    return Column(distinct, codes[order])
 
 
 def assignment_rows(data: DeckData, results: Sequence[PartitionResult],
@@ -289,6 +402,7 @@ def assignments_csv(table: AssignmentTable) -> bytes:
     cols = table.columns
     cells = [cols[c].cells(_safe_csv_cells) for c in _TEXT_COLUMNS]
     cells += [cols[c].cells(lambda values: _csv_cells([fixed(v, 6) for v in values])) for c in _NUMBER_COLUMNS]
+    cells += [cols[c].cells(lambda values: ["" if v is None else str(v) for v in values]) for c in _COUNT_COLUMNS]
     pieces: list[pa.Array | str] = []
     for cell in cells:
         pieces += [cell, ","]
@@ -327,6 +441,8 @@ def _json_rows(table: AssignmentTable) -> bytes | memoryview:
         pieces.append((" {\n" if i == 0 else ",\n") + f'  "{key}": ')
         if key in _TEXT_COLUMNS:
             pieces.append(cols[key].cells(lambda values: list(map(encode, values))))
+        elif key in _COUNT_COLUMNS:
+            pieces.append(cols[key].cells(lambda values: ["null" if v is None else str(v) for v in values]))
         else:
             pieces.append(cols[key].cells(lambda values: list(map(_json_number, values))))
     pieces.append("\n },\n")
@@ -362,7 +478,7 @@ def archetypes_doc(results: Sequence[PartitionResult], season_order: Sequence[st
 
 
 #: Bumped when the bytes of an assignments block change for the same inputs.
-BLOCK_FORMAT = 1
+BLOCK_FORMAT = 2
 
 
 @dataclass
@@ -431,6 +547,9 @@ def _block_key(season: str, rows: np.ndarray, decks: pd.DataFrame, results: Sequ
         h.update(b"by-origin\0" + json.dumps(left_out, ensure_ascii=True).encode("ascii"))
     else:
         for column in ("deck_id", "leader"):
+            _feed(h, decks[column].iloc[rows])
+    for column in _COUNT_COLUMNS:  # the decks left out are in no fingerprint: their results are digested here
+        if column in decks.columns:
             _feed(h, decks[column].iloc[rows])
     for r in results:
         h.update(f"\0{r.leader}\0{r.fingerprint}\0".encode())

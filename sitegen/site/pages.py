@@ -98,6 +98,56 @@ class CardRow:
 
 
 @dataclass(frozen=True, kw_only=True)
+class CardResultRow:
+    """One row of an archetype's card results: its decks playing a card against those that do not."""
+
+    card: Link = _f("The card, linked to its page when it has one.")
+    copies: str = _f("Which decks count as playing it: 'any', '1', '2' or '3+' copies.")
+    decks_with: int = _f("Decks playing it so (with results).")
+    games_with: int = _f("Their games.")
+    rate_with: float = _f("Their win rate (wins / games).")
+    decks_without: int = _f("Decks not playing it (with results).")
+    games_without: int = _f("Their games.")
+    rate_without: float = _f("Their win rate.")
+    diff: float = _f("rate_with minus rate_without.")
+    low: float = _f("Lower end of the 95% Newcombe interval of the difference.")
+    high: float = _f("Upper end of that interval.")
+    p_value: float | None = _f("Two-sided Fisher exact test p-value, or None for a small sample.")
+    verdict: str = _f("'holds up' (kept by the Benjamini-Hochberg rule), 'could be chance' or 'small sample'.")
+    small: bool = _f("True when either side has too few games or decks: flagged, never ranked.")
+
+
+@dataclass(frozen=True, kw_only=True)
+class MatchupRow:
+    """One matchup: an archetype's games against one opponent archetype in one season."""
+
+    archetype: Link = _f("The archetype whose win rate this is (its leader in the text).")
+    opponent: Link = _f("The opposing archetype (its leader in the text).")
+    wins: int = _f("Games the archetype won.")
+    losses: int = _f("Games it lost.")
+    draws: int = _f("Drawn games: shown, not counted in the win rate.")
+    games: int = _f("Won plus lost games.")
+    rate: float = _f("wins / games; 0.5 by construction for a mirror.")
+    low: float = _f("Lower end of the 95% Wilson interval (equal to rate for a mirror).")
+    high: float = _f("Upper end of the 95% Wilson interval (equal to rate for a mirror).")
+    small: bool = _f("True when games are fewer than matchups.min_games: greyed, never ranked.")
+    mirror: bool = _f("True when the two sides are the same archetype.")
+
+
+@dataclass(frozen=True, kw_only=True)
+class MatchupView:
+    """A season's head-to-head results: heat map and table."""
+
+    chart: Any = _f("Chart object of the heat map, or None.")
+    rows: tuple[MatchupRow, ...] = _f("Every matchup with games, by archetype then opponent.")
+    games: int = _f("Matches counted in the season.")
+    draws: int = _f("Of which drawn.")
+    skipped: int = _f("Matches of the season left out: a deck in no archetype's partition.")
+    min_games: int = _f("Games below which a matchup is greyed (matchups.min_games).")
+    download: Link | None = _f("CSV download of the season's matchups, or None.", default=None)
+
+
+@dataclass(frozen=True, kw_only=True)
 class DeckGroup:
     """The cards of one type in a decklist."""
 
@@ -246,6 +296,8 @@ class SeasonPage(Page):
     notes: tuple[str, ...] = _f("Data-quality notes of the season that name no leader.")
     has_results: bool = _f("True when any deck of the season has wins or losses.")
     min_games: int = _f("Games below which a win rate is flagged (trends.min_games).")
+    matchups: MatchupView | None = _f("Head-to-head results of the season, or None without a matches table.",
+                                      default=None)
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -287,6 +339,16 @@ class ArchetypePage(Page):
                                  default=None)
     story: StoryView | None = _f("What changed in its cards since its season before, or None.", default=None)
     tiers: tuple[tuple[str, str], ...] = _f("(tier word, what it means) for the card table.", default=())
+    card_results: tuple[CardResultRow, ...] = _f("Card results: tested rows by difference, then small samples.",
+                                                 default=())
+    card_results_fdr: float = _f("False discovery rate of the Benjamini-Hochberg rule (0.05).", default=0.05)
+    matchups_best: tuple[MatchupRow, ...] = _f("Its best matchups that are not small samples, best first.", default=())
+    matchups_worst: tuple[MatchupRow, ...] = _f("Its worst matchups that are not small samples, worst first.",
+                                                default=())
+    matchups_small: int = _f("Opponents met in too few games to rank.", default=0)
+    has_matchups: bool = _f("True when the site has a matches table.", default=False)
+    matchups_min_games: int = _f("Games below which a matchup is not ranked (matchups.min_games).", default=0)
+    compare: tuple[Link, ...] = _f("Side-by-side comparisons with each closest archetype.", default=())
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -343,6 +405,54 @@ class NotFoundPage(Page):
     home: str = _f("Link to the front page: under site.base_url when set, else /index.html (a site at its host's root).")
 
 
+@dataclass(frozen=True, kw_only=True)
+class Download:
+    """One downloadable file of the site, with its columns described."""
+
+    title: str = _f("What the file holds.")
+    href: str = _f("Path from the site root (a pattern with <slug> and <season> for per-archetype files).")
+    linked: bool = _f("True when href is a real file to link to; False for a pattern.")
+    description: str = _f("A sentence on the file.")
+    columns: tuple[tuple[str, str], ...] = _f("(column, meaning) pairs.")
+
+
+@dataclass(frozen=True, kw_only=True)
+class DataPage(Page):
+    """data.html: every download of the site with its columns described."""
+
+    downloads: tuple[Download, ...] = _f("Every download, site-wide files first.")
+
+
+@dataclass(frozen=True, kw_only=True)
+class ComparisonRow:
+    """One card of a side-by-side comparison of two archetypes."""
+
+    card: Link = _f("The card.")
+    share_a: float = _f("Share of the first archetype's decks playing it.")
+    share_b: float = _f("Share of the second archetype's decks playing it.")
+    copies_a: float = _f("Mean copies in the first archetype's decks playing it (0 when none do).")
+    copies_b: float = _f("Mean copies in the second's.")
+    deck_a: int = _f("Copies in the first archetype's representative deck.")
+    deck_b: int = _f("Copies in the second's representative deck.")
+
+
+@dataclass(frozen=True, kw_only=True)
+class ComparisonPage(Page):
+    """archetypes/<slug>/<season>-vs-<other slug>.html: two archetypes of one leader and season side by side."""
+
+    a: Link = _f("The first archetype.")
+    b: Link = _f("The second archetype.")
+    season: Link = _f("The season.")
+    leader: Link = _f("The leader.")
+    decks_a: int = _f("Decks of the first archetype.")
+    decks_b: int = _f("Decks of the second.")
+    similarity: float = _f("Cosine similarity of their card profiles (0 to 1).")
+    more_a: tuple[ComparisonRow, ...] = _f("Cards played more by the first, largest difference first.")
+    more_b: tuple[ComparisonRow, ...] = _f("Cards played more by the second, largest difference first.")
+    deck_diff: tuple[ComparisonRow, ...] = _f("Cards whose copies differ between the two representative decks.")
+    others: tuple[Link, ...] = _f("Comparisons of the first archetype with the other archetypes of its leader and season.")
+
+
 #: Every page context, for documentation and the field-help test.
 PAGE_KINDS: tuple[type, ...] = (FrontPage, SeasonPage, ArchetypePage, ArchetypeHistoryPage, CardPage, LeaderPage,
-                                MethodPage, NotFoundPage)
+                                MethodPage, NotFoundPage, DataPage, ComparisonPage)
