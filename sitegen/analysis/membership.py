@@ -271,7 +271,7 @@ def merge_alike(present: sp.csr_matrix, weights: sp.csr_matrix, labels: np.ndarr
 
 def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labels: np.ndarray, *,
            least: int, seed: int, merge: bool = True, rows: np.ndarray | None = None,
-           most: int | None = None) -> Membership:
+           most: int | None = None, nulls: "RandomDecks | None" = None) -> Membership:
     """From candidate labels (0..k-1, -1 for none) to the rule every deck is held to.
 
     Until nothing changes: every deck goes to its nearest live centre and is
@@ -280,14 +280,15 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     the rest than a random deck, are given up; then groups without a card of
     their own against another are merged (unless ``merge`` is off, for a
     pinned k), judged on the decks inside their cuts only. The centres
-    returned are the ones the final labels were assigned by.
+    returned are the ones the final labels were assigned by. ``nulls``: the
+    partition's :class:`RandomDecks`, when this runs on part of it.
     """
     n = present.shape[0]
     labels = _compact(labels)
     merged = dropped_small = dropped_loose = 0
     split = 0
     tried: set[bytes] = set()
-    nulls = _Nulls(present, idf, seed)
+    nulls = RandomDecks(present, idf, seed) if nulls is None else nulls
     by_card = sp.csc_matrix(present)
     known: dict = {}
     for _ in range(64):
@@ -370,8 +371,9 @@ def _split_one(present, rows, labels, least, seed, tried, by_card=None) -> np.nd
     return None
 
 
-class _Nulls:
-    """Random decks of one partition, made once for each set of staples asked for."""
+class RandomDecks:
+    """Random decks of one partition, made once for each set of staples asked for (and shared by the
+    reruns on halves of the partition, which draw their random decks from the whole of it)."""
 
     def __init__(self, present: sp.csr_matrix, idf: np.ndarray, seed: int) -> None:
         self._present, self._idf, self._seed = present, idf, seed

@@ -194,8 +194,9 @@ def _find(rows, present, weights, counts, least, part, params) -> membership.Mem
     return _rule(rows, present, weights, features.idf(counts), least, part, params)
 
 
-def _rule(rows, present, weights, idf, least, part, params) -> membership.Membership:
-    """The archetype-finding rule on any set of a partition's decks (the whole, or a half for stability)."""
+def _rule(rows, present, weights, idf, least, part, params, nulls=None) -> membership.Membership:
+    """The archetype-finding rule on any set of a partition's decks (the whole, or a half for stability,
+    which then draws its random decks from the whole: ``nulls``)."""
     pinned = params.pinned(part.season, part.leader)
     if pinned is not None:
         candidates = cluster.pinned_groups(rows, pinned, seed=params.seed, n_init=params.kmeans_starts,
@@ -203,16 +204,17 @@ def _rule(rows, present, weights, idf, least, part, params) -> membership.Member
     else:
         candidates = cluster.dense_groups(rows, min_share=params.min_share, seed=params.seed)
     return membership.settle(present, weights, idf, candidates, least=least, seed=params.seed,
-                             merge=pinned is None, rows=rows, most=params.k_max)
+                             merge=pinned is None, rows=rows, most=params.k_max, nulls=nulls)
 
 
 def _stability(rows, present, weights, counts, labels, part, params) -> np.ndarray:
     """Each found group's stability (:mod:`.stability`): the same rule rerun on random halves."""
     idf = features.idf(counts)
+    nulls = membership.RandomDecks(present, idf, params.seed)
 
     def rerun(picked: np.ndarray) -> np.ndarray:
         least = max(1, math.ceil(params.min_share * len(picked) - 1e-9))
-        return _rule(rows[picked], present[picked], weights[picked], idf, least, part, params).labels
+        return _rule(rows[picked], present[picked], weights[picked], idf, least, part, params, nulls).labels
 
     return stability.stability(labels, rerun, seed=params.seed)
 

@@ -18,10 +18,8 @@ from collections.abc import Callable
 
 import numpy as np
 
-from .cluster import sample_rows
-
 #: Reruns on random halves.
-RUNS = 8
+RUNS = 6
 #: Most decks of a partition the reruns draw their halves from.
 SAMPLE = 2400
 #: Stability from which an archetype is a clear group, and under which it is a weak one.
@@ -51,6 +49,8 @@ def stability(labels: np.ndarray, rerun: Callable[[np.ndarray], np.ndarray], *, 
     ``rerun(rows)`` runs the archetype-finding rule on the decks at the given
     row positions and returns their labels (-1 for other decks).
     """
+    from .cluster import sample_rows  # scikit-learn stays out of the building process, which reads words()
+
     n = len(labels)
     k = int(labels.max(initial=-1)) + 1
     if k == 0:

@@ -108,17 +108,45 @@ def place_decks(cards: pd.DataFrame, deck_ids: list[str], rule) -> np.ndarray:
     return np.where(sim >= np.asarray(rule.cuts)[near], near, -1)
 
 
+def place_rows(presence: sp.csr_matrix, cards: tuple[str, ...], rule) -> np.ndarray:
+    """As :func:`place_decks`, for decks given as card presence over ``cards``."""
+    n = presence.shape[0]
+    if rule is None or len(rule.keys) == 0 or n == 0:
+        return np.full(n, -1)
+    col_of = {c: j for j, c in enumerate(rule.cards)}
+    to = np.array([col_of.get(c, -1) for c in cards], dtype=np.int64)
+    coo = sp.coo_matrix(presence)
+    keep = to[coo.col] >= 0
+    cols = to[coo.col[keep]]
+    idf = np.asarray(rule.idf, dtype=float)
+    m = sp.csr_matrix((idf[cols], (coo.row[keep], cols)), shape=(n, len(rule.cards)))
+    norms = np.sqrt(np.asarray(m.multiply(m).sum(axis=1)).ravel())
+    norms[norms == 0] = 1.0
+    m = sp.diags(1.0 / norms) @ m
+    sims = np.asarray(m @ np.asarray(rule.centres, dtype=float).T)
+    near = np.argmax(sims, axis=1)
+    sim = sims[np.arange(n), near]
+    return np.where(sim >= np.asarray(rule.cuts)[near], near, -1)
+
+
 def flows(before: PartitionResult, after: PartitionResult, cards: pd.DataFrame) -> dict[str, dict[str, float]]:
     """Earlier archetype key -> {later archetype key or :data:`OTHER_KEY`: share of its decks placed there}."""
     if after.placement is None or not before.archetypes:
         return {}
     asg = before.assignments
-    ids = asg["deck_id"].astype(str).tolist()
-    placed = place_decks(cards, ids, after.placement)
+    sample = before.map_sample
+    if sample is not None and len(sample.drawn):
+        # The decks drawn for the earlier map (a fixed sample of every group, with their cards at hand)
+        # stand for their groups: reading a season's card rows again would cost more than all else here.
+        placed = place_rows(sample.presence, sample.cards, after.placement)
+        labels = asg["archetype"].astype(str).to_numpy()[sample.drawn]
+    else:
+        ids = asg["deck_id"].astype(str).tolist()
+        placed = place_decks(cards, ids, after.placement)
+        labels = asg["archetype"].astype(str).to_numpy()
     keys = list(after.placement.keys)
     to = np.array([keys[i] if i >= 0 else OTHER_KEY for i in placed], dtype=object)
     out: dict[str, dict[str, float]] = {}
-    labels = asg["archetype"].astype(str).to_numpy()
     for a in before.archetypes:
         mine = to[labels == a.key]
         if len(mine) == 0:
