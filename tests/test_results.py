@@ -189,3 +189,18 @@ def test_archetype_pages_carry_card_results_matchups_and_cautions(small_demo):
 
 
 import re  # noqa: E402  (used by the page checks above)
+
+
+def test_fisher_p_equals_scipy_on_many_tables():
+    # Reference: scipy.stats.fisher_exact(alternative="two-sided") on the same 2x2 tables, small and large.
+    from scipy.stats import fisher_exact
+    from sitegen.analysis.results import fisher_p
+    rng = np.random.default_rng(7)
+    for _ in range(300):
+        n1, n2 = (int(x) for x in rng.integers(1, 3000, size=2))
+        w1, w2 = int(rng.integers(0, n1 + 1)), int(rng.integers(0, n2 + 1))
+        ref = fisher_exact([[w1, n1 - w1], [w2, n2 - w2]], alternative="two-sided")[1]
+        assert fisher_p(w1, n1, w2, n2) == pytest.approx(ref, rel=1e-6, abs=1e-12), (w1, n1, w2, n2)
+    for table in ((0, 5, 0, 7), (5, 5, 7, 7), (3, 10, 7, 10), (1, 1, 0, 1)):
+        ref = fisher_exact([[table[0], table[1] - table[0]], [table[2], table[3] - table[2]]])[1]
+        assert fisher_p(*table) == pytest.approx(ref, rel=1e-9)

@@ -32,7 +32,7 @@ from collections.abc import Sequence
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.stats import fisher_exact
+from scipy.special import gammaln
 
 from ..model import CardResult
 from .stats import Z_95, wilson
@@ -70,8 +70,28 @@ def newcombe_diff(x1: int, n1: int, x2: int, n2: int, z: float = Z_95) -> tuple[
 
 
 def fisher_p(w1: int, n1: int, w2: int, n2: int) -> float:
-    """Two-sided p-value of Fisher's exact test on wins and losses of two samples (scipy)."""
-    return float(fisher_exact([[w1, n1 - w1], [w2, n2 - w2]], alternative="two-sided")[1])
+    """Two-sided p-value of Fisher's exact test on wins and losses of two samples.
+
+    As scipy.stats.fisher_exact defines it (the tables with the same margins whose hypergeometric
+    probability is at most the observed one's, times 1 + 1e-7, summed), computed over the whole
+    support at once from log-gamma: scipy's own call costs a millisecond a table, and an archetype of
+    a large partition asks for hundreds (tested equal to scipy's).
+    """
+    total, wins = n1 + n2, w1 + w2
+    lo, hi = max(0, n1 - (total - wins)), min(n1, wins)
+    if hi <= lo:
+        return 1.0
+    k = np.arange(lo, hi + 1, dtype=np.float64)
+    log_pmf = (_log_choose(wins, k) + _log_choose(total - wins, n1 - k)) - _log_choose(total, n1)
+    observed = log_pmf[int(w1 - lo)]
+    keep = log_pmf <= observed + math.log1p(1e-7)
+    return float(min(1.0, np.exp(log_pmf[keep]).sum()))
+
+
+def _log_choose(n, k):
+    """log of n choose k (elementwise), from log-gamma."""
+    return gammaln(np.asarray(n, dtype=np.float64) + 1) - gammaln(np.asarray(k, dtype=np.float64) + 1) \
+        - gammaln(np.asarray(n, dtype=np.float64) - k + 1)
 
 
 def bh_reject(p_values: Sequence[float], alpha: float = FDR) -> list[bool]:
