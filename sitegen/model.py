@@ -249,6 +249,9 @@ class Placement:
     keys: tuple[str, ...]
     centres: np.ndarray
     cuts: np.ndarray
+    #: The unit mean direction of all the partition's decks: what a partition without archetypes
+    #: measures its decks' distances to (None when it has no decks).
+    mean: np.ndarray | None = None
 
 
 @dataclass(frozen=True)

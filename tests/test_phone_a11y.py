@@ -353,7 +353,7 @@ def test_map_point_opens_its_archetype(demo_site, served, browser):
     try:
         season = sorted(demo_site.glob("seasons/*/index.html"))[-1].relative_to(demo_site).as_posix()
         page.goto(served + season, wait_until="load")
-        maps = page.locator(".chart-view[data-chart-data]")
+        maps = page.locator(".chart-view[data-chart-data][aria-hidden='true']")  # the maps (the heat map is not hidden)
         page.wait_for_timeout(500)
         assert page.locator(".chart-view[data-chart-data] svg").count() < maps.count()  # maps out of sight wait
         view = maps.last

@@ -319,12 +319,21 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
         return Membership(np.full(n, -1), np.zeros((0, weights.shape[1])), np.zeros(0), np.zeros(n), int(n),
                           dropped_small, dropped_loose, merged, split)
     # Final: centres from the groups' members; every deck placed by exactly these centres and cuts.
+    # A centre left with fewer than ``least`` decks by this last placement is given up too (the others
+    # stay as they are), so every centre kept is an archetype of at least ``least`` decks.
     centres = centres_of(weights, labels, k)
-    sims = similarities(weights, centres)
-    near = np.argmax(sims, axis=1)
-    sim = sims[np.arange(n), near]
-    cuts = cuts_for(nulls(_staples(present, near, k)), centres)
-    final = np.where(sim >= cuts[near], near, -1)
+    while True:
+        k = centres.shape[0]
+        sims = similarities(weights, centres)
+        near = np.argmax(sims, axis=1) if k else np.zeros(n, dtype=np.intp)
+        sim = sims[np.arange(n), near] if k else np.zeros(n)
+        cuts = cuts_for(nulls(_staples(present, near, k)), centres) if k else np.zeros(0)
+        final = np.where(sim >= cuts[near], near, -1) if k else np.full(n, -1)
+        sizes = np.bincount(final[final >= 0], minlength=k)
+        if k == 0 or sizes.min() >= least:
+            break
+        centres = centres[sizes >= least]
+        dropped_small += int((sizes < least).sum())
     return Membership(final, centres, cuts, sim, int((final < 0).sum()), dropped_small, dropped_loose, merged, split)
 
 

@@ -58,8 +58,10 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
         other = ctx.group(OTHER_KEY, everyone, is_other=True) if n else None
         dist = ctx.distances(everyone) if n else np.zeros(0)
         assignments = _assignments(ids, [OTHER_KEY] * n, dist, np.full((n, 2), np.nan))
+        placement = Placement(cards=tuple(cards), idf=features.idf(counts), keys=(),
+                              centres=np.zeros((0, len(cards))), cuts=np.zeros(0), mean=_mean(weights))
         return PartitionResult(part.season, part.leader, n, "too-small", reason, None, (), "", (), other,
-                               assignments, _empty_map(), inclusion, part.fingerprint)
+                               assignments, _empty_map(), inclusion, part.fingerprint, placement=placement)
 
     with np.errstate(invalid="ignore", divide="ignore"):  # identical decks: zero variance is expected
         rows = features.reduce(weights, params.svd_dims, params.seed, params.fit_sample)
@@ -86,7 +88,8 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
         other = ctx.group(OTHER_KEY, rest, is_other=True)
     reason = _k_reason(found, k, len(rest), n, least, params, params.pinned(part.season, part.leader))
     placement = Placement(cards=tuple(cards), idf=features.idf(counts), keys=tuple(f"a{i}" for i in range(1, k + 1)),
-                          centres=np.ascontiguousarray(centres), cuts=np.asarray(cuts, dtype=np.float64))
+                          centres=np.ascontiguousarray(centres), cuts=np.asarray(cuts, dtype=np.float64),
+                          mean=_mean(weights))
     archetypes = _unique_slugs(archetypes, other)
     if other is not None:
         archetypes, other = archetypes[:-1], archetypes[-1]
@@ -248,6 +251,15 @@ def _k_reason(found: membership.Membership, k: int, n_other: int, n: int, least:
             text += ", among them decks of the groups given up"
         text += "."
     return text
+
+
+def _mean(weights) -> np.ndarray | None:
+    """The unit mean direction of a partition's TF-IDF rows (None without decks or cards)."""
+    if weights.shape[0] == 0:
+        return None
+    centre = np.asarray(weights.mean(axis=0)).ravel()
+    norm = np.linalg.norm(centre)
+    return centre / norm if norm > 0 else None
 
 
 def _count(n: int, word: str) -> str:

@@ -491,6 +491,13 @@ def _ordered(values: Iterable[str]) -> list[str]:
     return list(dict.fromkeys(values))
 
 
+def _rate_tooltip() -> list[dict]:
+    """Tooltip fields of a win rate and its 95% interval (fields win_rate, low, high)."""
+    return [{"field": "win_rate", "type": "quantitative", "title": "Win rate", "format": ".1%"},
+            {"field": "low", "type": "quantitative", "title": "Interval from", "format": ".1%"},
+            {"field": "high", "type": "quantitative", "title": "Interval to", "format": ".1%"}]
+
+
 def _legend_bottom() -> dict:
     # charts.js gives a narrow chart one column and labels cut to its width
     return {"orient": "bottom", "columns": 2, "labelLimit": 280, "symbolStrokeWidth": 2}
@@ -710,7 +717,7 @@ def share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str,
         ] + ([
             {"transform": [{"filter": {"field": "archetype", "oneOf": once}}],
              "mark": {"type": "point", "filled": True, "size": 160, "stroke": "#000000", "strokeWidth": 1},
-             "encoding": {"shape": {**style.shape("archetype"), "legend": None}}},
+             "encoding": {"shape": {**style.shape("archetype"), "legend": _legend_bottom()}}},
             {"transform": [{"filter": {"field": "archetype", "oneOf": once}}],
              "mark": {"type": "text", "align": "left", "dx": 9, "fontSize": 11},
              "encoding": {"text": {"field": "archetype", "type": "nominal"}, "color": {"value": "#222222"}}},
@@ -751,9 +758,7 @@ def winrate_chart(rows: Sequence[Mapping[str, Any]], chart_id: str,
     tooltip = [
         {"field": "season", "type": "nominal", "title": "Season"},
         {"field": "archetype", "type": "nominal", "title": "Archetype"},
-        {"field": "win_rate", "type": "quantitative", "title": "Win rate", "format": ".1%"},
-        {"field": "low", "type": "quantitative", "title": "Interval from", "format": ".1%"},
-        {"field": "high", "type": "quantitative", "title": "Interval to", "format": ".1%"},
+        *_rate_tooltip(),
         {"field": "games", "type": "quantitative", "title": "Games"},
         {"field": "sample", "type": "nominal", "title": "Sample"},
     ]
@@ -861,9 +866,7 @@ def matchup_chart(rows: Sequence[Mapping[str, Any]], order: Sequence[str], chart
     tooltip = [
         {"field": "archetype", "type": "nominal", "title": "Win rate of"},
         {"field": "opponent", "type": "nominal", "title": "Against"},
-        {"field": "win_rate", "type": "quantitative", "title": "Win rate", "format": ".1%"},
-        {"field": "low", "type": "quantitative", "title": "Interval from", "format": ".1%"},
-        {"field": "high", "type": "quantitative", "title": "Interval to", "format": ".1%"},
+        *_rate_tooltip(),
         {"field": "games", "type": "quantitative", "title": "Games"},
         {"field": "draws", "type": "quantitative", "title": "Draws (not in the rate)"},
         {"field": "sample", "type": "nominal", "title": "Sample"},
@@ -871,11 +874,11 @@ def matchup_chart(rows: Sequence[Mapping[str, Any]], order: Sequence[str], chart
     layers = []
     if any(not v["shown"] for v in values):
         layers.append({"transform": [{"filter": {"field": "shown", "equal": False}}],
-                       "mark": {"type": "rect", "color": "#d9d9d9", "stroke": BACKGROUND, "strokeWidth": 1},
+                       "mark": {"type": "rect", "color": "#8c8c8c"},
                        "encoding": {"x": x, "y": y, "tooltip": tooltip}})
     if any(v["shown"] for v in values):
         layers.append({"transform": [{"filter": {"field": "shown", "equal": True}}],
-                       "mark": {"type": "rect", "stroke": BACKGROUND, "strokeWidth": 1},
+                       "mark": {"type": "rect"},
                        "encoding": {"x": x, "y": y, "tooltip": tooltip,
                                     "color": {"field": "win_rate", "type": "quantitative", "title": "Win rate",
                                               "scale": {"scheme": "blueorange", "domain": [0.25, 0.75],
@@ -888,5 +891,7 @@ def matchup_chart(rows: Sequence[Mapping[str, Any]], order: Sequence[str], chart
     table = [(v["archetype"], v["opponent"], _pct(v["win_rate"]),
               "" if v["mirror"] else f"{_pct(v['low'])} to {_pct(v['high'])}", v["games"], v["draws"],
               "mirror" if v["mirror"] else ("small sample" if v["small"] else "")) for v in values]
-    return _finish(chart_id, spec, caption,
-                   ("Win rate of", "Against", "Win rate", "95% interval", "Games", "Draws", "Note"), table)
+    chart = _finish(chart_id, spec, caption,
+                    ("Win rate of", "Against", "Win rate", "95% interval", "Games", "Draws", "Note"), table)
+    # The cells (a season of many archetypes has hundreds) live in a data file beside the page.
+    return dataclasses.replace(chart, spec={**chart.spec, "data": {"values": []}}, values=values)

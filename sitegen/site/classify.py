@@ -91,6 +91,10 @@ def _mean_direction(data, r: PartitionResult) -> tuple[list[str], np.ndarray, np
     without archetypes measures distances to), from the data's card rows; None without them."""
     from ..analysis import features
 
+    if r.placement is not None:  # stored by the analysis: the same whether the build held card rows or not
+        if r.placement.mean is None:
+            return None
+        return list(r.placement.cards), np.asarray(r.placement.idf), np.asarray(r.placement.mean)
     cards = data.cards
     if cards is None or len(cards) == 0 or r.assignments is None or len(r.assignments) == 0:
         return None

@@ -145,6 +145,8 @@ class MatchupView:
     skipped: int = _f("Matches of the season left out: a deck in no archetype's partition.")
     min_games: int = _f("Games below which a matchup is greyed (matchups.min_games).")
     download: Link | None = _f("CSV download of the season's matchups, or None.", default=None)
+    data: str = _f("Path from the site root of the script holding the heat map's cells (loaded when it is "
+                   "drawn), or empty.", default="")
 
 
 @dataclass(frozen=True, kw_only=True)

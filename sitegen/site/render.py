@@ -576,6 +576,8 @@ class Renderer:
         for b in blocks:
             if b.map_chart is not None:
                 self._emit_data(b.map_data, b.map_chart)
+        if heads is not None and heads.chart is not None:
+            self._emit_data(heads.data, heads.chart)
 
     def _emptied_notes(self, season: str) -> tuple[str, ...]:
         """Why a season whose every deck was left out has no archetypes, and its rule breakers."""
@@ -941,7 +943,8 @@ class Renderer:
               "high": m.high, "games": m.games, "draws": m.draws, "small": m.small, "mirror": m.mirror} for m in rows],
             [o for o in order if any(m.archetype.text == o for m in rows)],
             f"matchups-{self.s.season_slug[season]}", min_games) if rows else None
-        return P.MatchupView(chart=chart, rows=tuple(rows), games=found.matches if found else 0,
+        data = f"seasons/{self.s.season_slug[season]}/matchups.js" if chart is not None else ""
+        return P.MatchupView(chart=chart, data=data, rows=tuple(rows), games=found.matches if found else 0,
                              draws=found.draws if found else 0, skipped=found.skipped if found else 0,
                              min_games=min_games, download=P.Link(text="Every season's matchups (CSV)",
                                                                   href="data/matchups.csv"))
