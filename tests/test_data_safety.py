@@ -180,7 +180,7 @@ def test_site_with_a_single_card_partition_builds_and_says_why_it_has_no_map(tmp
     page = _doc(project.parent / "site" / "seasons" / "first-tide" / "index.html")
     block = next(s for s in page.iter("section") if "leader-block" in (s.get("class") or "")
                  and "Ilsa Lonewick" in _text(s.find("h2")))
-    assert "no map is drawn" in _text(block) and "Map of the decks" not in _text(block)
+    assert "No map is drawn" in _text(block) and "Map of the decks" not in _text(block)
 
 
 # -- 7. dates with a time zone ---------------------------------------------------------------------

@@ -63,7 +63,7 @@ START_SPREAD = 1e-4
 
 
 #: Why a partition has no map (see :func:`can_map`), as its season page says it.
-NO_MAP = ("no map is drawn: its decks differ along one direction at most (all of them hold one "
+NO_MAP = ("No map is drawn: its decks differ along one direction at most (all of them hold one "
           "single card between them), which leaves nothing to spread on a plane")
 
 

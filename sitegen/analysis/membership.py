@@ -72,7 +72,8 @@ class Membership:
     decks), ``centres`` (k x cards, unit rows), ``cuts`` (k similarities),
     ``similarity`` (each deck's similarity to its nearest centre), and counts
     for the page: ``far`` decks left as random-looking, ``dropped_small`` and
-    ``dropped_loose`` groups given up, ``merged`` pairs joined."""
+    ``dropped_loose`` groups given up, ``merged`` pairs joined (also to keep
+    at most analysis.k_max), ``split`` groups cut in two."""
 
     labels: np.ndarray
     centres: np.ndarray

@@ -102,7 +102,7 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
     drawn = embed.stratified_sample(keys, params.map_points, params.seed)
     if not embed.can_map(rows):
         drawn = drawn[:0]
-        reason += f"; {embed.NO_MAP}"
+        reason += f" {embed.NO_MAP}."
     sample = MapSample(drawn=drawn, rows=np.ascontiguousarray(rows[drawn], dtype=np.float64),
                        presence=present[drawn], cards=tuple(cards)) if len(drawn) else None
     map_points = pd.DataFrame({
