@@ -47,6 +47,7 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
     counts, cards = features.build_matrix(part.cards, ids)
     present = features.presence(counts)
     weights = features.tfidf(counts)
+    idf = features.idf(counts)
     everyone = np.arange(n)
     inclusion = describe.inclusion_table(counts, everyone, cards, part.card_types, params.inclusion_min_share)
     ctx = _Context(part, params, decks, ids, counts, present, weights, cards)
@@ -58,7 +59,7 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
         other = ctx.group(OTHER_KEY, everyone, is_other=True) if n else None
         dist = ctx.distances(everyone) if n else np.zeros(0)
         assignments = _assignments(ids, [OTHER_KEY] * n, dist, np.full((n, 2), np.nan))
-        placement = Placement(cards=tuple(cards), idf=features.idf(counts), keys=(),
+        placement = Placement(cards=tuple(cards), idf=idf, keys=(),
                               centres=np.zeros((0, len(cards))), cuts=np.zeros(0), mean=_mean(weights))
         return PartitionResult(part.season, part.leader, n, "too-small", reason, None, (), "", (), other,
                                assignments, _empty_map(), inclusion, part.fingerprint, placement=placement)
@@ -66,7 +67,9 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
     with np.errstate(invalid="ignore", divide="ignore"):  # identical decks: zero variance is expected
         rows = features.reduce(weights, params.svd_dims, params.seed, params.fit_sample)
     least = max(1, math.ceil(params.min_share * n - 1e-9))
-    found = _find(rows, present, weights, counts, least, part, params)
+    # One set of random decks for the rule and its reruns on halves (the same seed would make the same ones).
+    nulls = membership.RandomDecks(present, idf, params.seed)
+    found = _rule(rows, present, weights, idf, least, part, params, nulls)
     labels = found.labels
     k = len(found.centres)
 
@@ -77,7 +80,7 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
     archetypes = []
     centres = found.centres[order] if k else found.centres
     cuts = found.cuts[order] if k else found.cuts
-    steady = _stability(rows, present, weights, counts, labels, part, params) if k else np.zeros(0)
+    steady = _stability(rows, present, weights, idf, nulls, labels, part, params) if k else np.zeros(0)
     for i, c in enumerate(order, start=1):
         keys[groups[c]] = f"a{i}"
         archetypes.append(replace(ctx.group(f"a{i}", groups[c]), stability=round(float(steady[c]), 3)))
@@ -87,7 +90,7 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
         keys[rest] = OTHER_KEY
         other = ctx.group(OTHER_KEY, rest, is_other=True)
     reason = _k_reason(found, k, len(rest), n, least, params, params.pinned(part.season, part.leader))
-    placement = Placement(cards=tuple(cards), idf=features.idf(counts), keys=tuple(f"a{i}" for i in range(1, k + 1)),
+    placement = Placement(cards=tuple(cards), idf=idf, keys=tuple(f"a{i}" for i in range(1, k + 1)),
                           centres=np.ascontiguousarray(centres), cuts=np.asarray(cuts, dtype=np.float64),
                           mean=_mean(weights))
     archetypes = _unique_slugs(archetypes, other)
@@ -192,14 +195,10 @@ class _Context:
         return results.card_results(self.counts, members, self.cards, counts("wins"), counts("losses"))
 
 
-def _find(rows, present, weights, counts, least, part, params) -> membership.Membership:
-    """Candidate groups (dense regions, or k-means at a pinned k), then the rule of :mod:`.membership`."""
-    return _rule(rows, present, weights, features.idf(counts), least, part, params)
-
-
 def _rule(rows, present, weights, idf, least, part, params, nulls=None) -> membership.Membership:
-    """The archetype-finding rule on any set of a partition's decks (the whole, or a half for stability,
-    which then draws its random decks from the whole: ``nulls``)."""
+    """The archetype-finding rule on any set of a partition's decks (the whole, or a half for stability):
+    candidate groups (dense regions, or k-means at a pinned k), then the rule of :mod:`.membership`, with
+    random decks drawn from the whole partition (``nulls``)."""
     pinned = params.pinned(part.season, part.leader)
     if pinned is not None:
         candidates = cluster.pinned_groups(rows, pinned, seed=params.seed, n_init=params.kmeans_starts,
@@ -210,10 +209,8 @@ def _rule(rows, present, weights, idf, least, part, params, nulls=None) -> membe
                              merge=pinned is None, rows=rows, most=params.k_max, nulls=nulls)
 
 
-def _stability(rows, present, weights, counts, labels, part, params) -> np.ndarray:
+def _stability(rows, present, weights, idf, nulls, labels, part, params) -> np.ndarray:
     """Each found group's stability (:mod:`.stability`): the same rule rerun on random halves."""
-    idf = features.idf(counts)
-    nulls = membership.RandomDecks(present, idf, params.seed)
 
     def rerun(picked: np.ndarray) -> np.ndarray:
         least = max(1, math.ceil(params.min_share * len(picked) - 1e-9))
