@@ -337,3 +337,33 @@ def test_ari_ceiling_puts_tiny_archetypes_and_brews_among_the_other_decks():
     score = stress.score_labels(truth, list(ruled), {}, {}, 0.02)
     reference = adjusted_rand_score(truth[:199] + ["b0"], truth[:196] + ["o0", "o1", "o2", "o3"])
     assert score.ceiling == pytest.approx(reference) and score.ari == pytest.approx(reference) and score.ceiling < 1
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_informed_classifier_is_scikit_learns_bernoulli_naive_bayes(seed):
+    # Source: scikit-learn's BernoulliNB (alpha 0.5, class priors from the data) fitted on the planted truth
+    # predicts the same labels as informed_labels without its leave-one-out step.
+    from sklearn.naive_bayes import BernoulliNB
+    planted = stress.planted_partition(StressSettings("power", 4, n_tail=1, n_variants=1, variant_keep=0.7,
+                                                      brew_share=0.05, partial_share=0.2, seed=40 + seed), 400)
+    present = stress.presence_matrix(planted)
+    truth = planted.truth.to_numpy().astype(str)
+    assert present.shape == (400, planted.part.cards["card"].nunique()) and present.sum() == len(planted.part.cards)
+    reference = BernoulliNB(alpha=0.5).fit(present, truth).predict(present)
+    ours = stress.informed_labels(present, truth, leave_one_out=False)
+    assert list(ours) == list(reference)
+    # Leave-one-out can only take away the clue of a deck's own one-off cards: never right more often.
+    fair = stress.informed_labels(present, truth)
+    assert (fair == truth).mean() <= (ours == truth).mean() and (fair == truth).mean() > 0.8
+
+
+def test_informed_classifier_cannot_tell_a_close_variant_deck_without_its_own_card():
+    # Planted by hand: a parent plays X and, 4 times in 5, Y; its variant plays X and, 4 times in 5, Z.
+    # The 20 decks holding X alone are as likely to be either: every one gets the same label, so 10 are
+    # wrong for any rule reading card presence; the 80 others are placed right.
+    rows = [[1, 1, 0]] * 40 + [[1, 0, 0]] * 10 + [[1, 0, 1]] * 40 + [[1, 0, 0]] * 10
+    truth = ["P"] * 50 + ["V"] * 50
+    guess = stress.informed_labels(np.asarray(rows, dtype=float), truth, leave_one_out=False)
+    alone = np.asarray([r == [1, 0, 0] for r in rows])
+    assert len(set(guess[alone])) == 1 and (guess[alone] == np.asarray(truth, dtype=object)[alone]).sum() == 10
+    assert (guess[~alone] == np.asarray(truth, dtype=object)[~alone]).all()
