@@ -478,7 +478,7 @@ def test_demo_decklists_match_the_demo_tables(tmp_path):
 def test_counts_kept_in_the_narrowest_signed_type_numpy_promotes_to(top):
     # Reference: numpy's min_scalar_type, which for a negative value gives the least signed type
     # holding it; a signed type holds ``top`` exactly when it holds -(top + 1) (two's complement).
-    from sitegen.load.normalise import narrow_counts
+    from sitegen.load.numbers import narrow_counts
 
     values = np.array([1, top, 1], dtype=np.int64)
     got = narrow_counts(values)
