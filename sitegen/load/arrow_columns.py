@@ -38,7 +38,7 @@ def arrow_numbers(column: pa.ChunkedArray) -> pd.Series:
 
 def as_categories(column: pa.ChunkedArray, guess: pd.Series | None = None) -> pd.Series:
     """A text column as a pandas categorical of its distinct values: nulls become ''.
-    ``guess``: the categories it probably has, in order (see :func:`read_table`)."""
+    ``guess``: the categories it probably has, in order (see :func:`~.tables.read_table`)."""
     if not (pa.types.is_dictionary(column.type) and pa.types.is_string(column.type.value_type)):
         return pd.Series(pd.Categorical(as_text(column)))
     runs = runs_as_categories(column, guess)

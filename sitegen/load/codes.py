@@ -17,8 +17,6 @@ from .names import clean_name, clean_text, look_alikes
 
 #: Integer codes of distinct values: numpy gathers with 32-bit indices several times faster than with 64-bit.
 CODE = np.int32
-
-
 _NARROW_CODES = (np.dtype(np.int8), np.dtype(np.int16), np.dtype(np.int32))
 
 
@@ -68,8 +66,6 @@ def _category_codes(series: pd.Series) -> tuple[np.ndarray, list]:
 
 # Characters clean_text trims (Python's str.isspace set, C0 controls, DEL, BOM), for a vectorised pre-check.
 _EDGE_CLASS = "[\\x00-\\x20\\x7f\\x85\\xa0\\x{1680}\\x{2000}-\\x{200a}\\x{2028}\\x{2029}\\x{202f}\\x{205f}\\x{3000}\\x{feff}]"
-
-
 _NEEDS_TRIM = f"^{_EDGE_CLASS}|{_EDGE_CLASS}$"
 
 
@@ -77,7 +73,7 @@ def text_codes(series: pd.Series, *, names: bool = False,
            merged: list[tuple[str, list[tuple[str, int]]]] | None = None) -> tuple[np.ndarray, list[str]]:
     """Integer codes of the cleaned values and the cleaned distinct values.
 
-    ``names``: the values are names, cleaned by :func:`clean_name` (one form for look-alike
+    ``names``: the values are names, cleaned by :func:`~.names.clean_name` (one form for look-alike
     spellings) rather than only trimmed; spellings that became one are appended to ``merged``
     as (name, [(spelling as written, rows)...]).
     """
@@ -141,7 +137,7 @@ def distinct_codes(series: pd.Series) -> tuple[np.ndarray, list[str], np.ndarray
 
 def needs_trim(values: pa.Array) -> np.ndarray:
     """For each text of ``values`` (no nulls), whether it starts or ends with a character
-    :func:`clean_text` trims. Each text's first and last byte are looked at first: ASCII
+    :func:`~.names.clean_text` trims. Each text's first and last byte are looked at first: ASCII
     letters, digits and punctuation there clear it; only the rest (spaces, controls, any
     non-ASCII byte) are matched against the pattern, usually a handful of a million."""
     if not pa.types.is_string(values.type) or values.null_count:
@@ -162,7 +158,7 @@ def needs_trim(values: pa.Array) -> np.ndarray:
 
 
 def trimmed_column(series: pd.Series) -> pd.Series:
-    """A text column cleaned as :func:`clean_text` does, with a fresh index; only the rows
+    """A text column cleaned as :func:`~.names.clean_text` does, with a fresh index; only the rows
     that need it are touched (for columns of mostly distinct values: players, titles)."""
     values = arrow_text(series)
     if values is None:

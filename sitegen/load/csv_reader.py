@@ -19,7 +19,6 @@ from .arrow_columns import arrow_numbers, as_categories
 #: Bytes looked at to tell text from binary before parsing.
 _SNIFF_BYTES = 1 << 16
 
-
 #: Largest single CSV cell the csv module accepts when diagnosing a file.
 _FIELD_LIMIT = 1 << 20
 

@@ -75,7 +75,7 @@ def look_alikes(written: list[str], cleaned: list[str], codes: np.ndarray,
 
 def look_alike_findings(merged: list[tuple[str, list[tuple[str, int]]]], what: str) -> list[Finding]:
     """One ``name-variants`` finding per name that look-alike spellings became, each shown by
-    :func:`visible` so that the spellings look different in the message."""
+    :func:`~sitegen.errors.visible` so that the spellings look different in the message."""
     return [Finding("name-variants", f"{what} written {len(spellings)} ways that look alike: "
                     + ", ".join(f"{visible(w)} ({n} rows)" for w, n in spellings)
                     + f"; all read as {visible(name)} (Unicode NFC, invisible format characters removed)")

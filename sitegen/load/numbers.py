@@ -15,12 +15,9 @@ from ..model import narrowest_int
 #: rows stays far inside every integer type the numbers pass through (no sum can wrap).
 QUANTITY_MAX = 1000
 
-
 #: Most wins, or losses, one deck may record: a million games per deck, so the sums over ten million
 #: decks (10**13) stay exact in int64 and in float64 (exact to 2**53).
 GAMES_MAX = 1_000_000
-
-
 _WHOLE = re.compile(r"[+]?\d+")
 
 

@@ -88,7 +88,7 @@ def _leaf(meta: pq.FileMetaData, raw: str) -> int | None:
 
 
 class _RowGroups:
-    """One text column of a Parquet file as :func:`runs_as_categories` reads it: its chunks
+    """One text column of a Parquet file as :func:`~.arrow_columns.runs_as_categories` reads it: its chunks
     read dictionary-encoded one row group at a time as they are iterated, so no more than one
     row group's indices are held (115 MB at 28.8M rows, when read whole). Its ``null_count``
     comes from the row groups' statistics; without them it is unknown (-1) and the column is
@@ -118,7 +118,7 @@ def _numbers_by_row_group(parquet: pq.ParquetFile, raw: str) -> pd.Series | None
     groups' statistics allow, so it is never held whole as the 64-bit numbers a writer stores
     (230 MB at 28.8M rows, against 29 MB for copies of a card as int8). None when a row group
     has no statistics, or nulls, or values its statistics did not say: then the column is read
-    whole (:func:`arrow_numbers`)."""
+    whole (:func:`~.arrow_columns.arrow_numbers`)."""
     meta = parquet.metadata
     leaf = _leaf(meta, raw)
     if leaf is None or meta.num_row_groups == 0:

@@ -28,8 +28,6 @@ from .parquet_reader import not_parquet, parquet_header, read_parquet
 
 
 CSV_SUFFIXES = (".csv",)
-
-
 PARQUET_SUFFIXES = (".parquet", ".pq")
 
 
