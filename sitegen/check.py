@@ -17,6 +17,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from .config import Config
+from .load.settings import LoadSettings
 from .model import DeckData, Finding
 
 __all__ = ["RULE_KINDS", "check_rules", "deck_totals"]
@@ -76,16 +77,16 @@ def _run_sums(values: np.ndarray, starts: np.ndarray) -> np.ndarray:
     return out
 
 
-def check_rules(data: DeckData, cfg: Config) -> DeckData:
+def check_rules(data: DeckData, cfg: Config | LoadSettings) -> DeckData:
     """A copy of ``data`` with rule findings added and, if asked, breakers excluded.
 
     Findings come per deck in deck_id order: ``copies-over-limit`` (one
     per deck, naming each card over the limit), ``deck-too-small``,
-    ``deck-too-large``.
+    ``deck-too-large``. ``cfg``: the config, or the load stage's settings
+    read from it (:class:`~sitegen.load.settings.LoadSettings`).
     """
-    max_copies = cfg["rules.max_copies"]
-    min_cards = cfg["rules.min_cards"]
-    max_cards = cfg["rules.max_cards"]
+    rules = LoadSettings.of(cfg).rules
+    max_copies, min_cards, max_cards = rules.max_copies, rules.min_cards, rules.max_cards
     cards = data.cards
     decks = data.decks.set_index("deck_id")[["season", "leader"]]
 
@@ -119,5 +120,5 @@ def check_rules(data: DeckData, cfg: Config) -> DeckData:
             add(str(deck_id), 1, "deck-too-small", f"deck {deck_id} holds 0 cards; the least is {min_cards}")
     found.sort(key=lambda item: (item[0], item[1]))
     breakers = frozenset(deck_id for deck_id, _, _ in found)
-    excluded = breakers if cfg["rules.exclude_breakers"] else frozenset()
+    excluded = breakers if rules.exclude_breakers else frozenset()
     return dataclasses.replace(data, findings=data.findings + tuple(f for _, _, f in found), excluded=excluded)

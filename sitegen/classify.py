@@ -84,7 +84,7 @@ class Models:
             if not self.seasons:
                 raise ClassifyError(f"{self.site / INDEX_PATH}: the last build has no seasons with decks")
             return self.seasons[-1]
-        from .load.normalise import clean_name
+        from .load.names import clean_name
 
         name = clean_name(wanted)
         if name not in self.paths:
@@ -93,7 +93,7 @@ class Models:
         return name
 
     def leader(self, season: str, wanted: str, deck: str) -> str:
-        from .load.normalise import clean_name, variant_key
+        from .load.names import clean_name, variant_key
 
         by = self.paths[season]
         if self.pooled and ALL_LEADERS in by:
@@ -125,7 +125,7 @@ class _Prepared:
     """A model document with its centres as arrays and its card lookups."""
 
     def __init__(self, doc: dict[str, Any]) -> None:
-        from .load.normalise import variant_key
+        from .load.names import variant_key
 
         self.doc = doc
         self.cards: list[str] = doc["cards"]
@@ -148,7 +148,7 @@ class _Prepared:
             self.mean[doc["mean"]["i"]] = doc["mean"]["w"]
 
     def column(self, card: str) -> int | None:
-        from .load.normalise import clean_name, variant_key
+        from .load.names import clean_name, variant_key
 
         name = clean_name(card)
         if name in self.index:
@@ -234,7 +234,7 @@ def read_lists(paths: Sequence[Path]) -> list[Deck]:
     """Text decklists (the README's format, sitegen.load.decklists), each file one deck; a folder
     stands for its *.txt files. Every file's problems are reported together."""
     from .load.decklists import _parse_file
-    from .load.normalise import clean_name
+    from .load.names import clean_name
 
     files: list[Path] = []
     for p in paths:
@@ -296,7 +296,7 @@ def read_tables(cfg: Config, decks_path: Path, cards_path: Path) -> list[Deck]:
             if len(errors) >= 20:
                 break
             continue
-        from .load.normalise import clean_name
+        from .load.names import clean_name
 
         name = clean_name(card)
         deck.cards[name] = deck.cards.get(name, 0) + int(q)

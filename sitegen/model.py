@@ -40,6 +40,9 @@ class Finding:
     deck_id: str | None = None
     season: str | None = None
     leader: str | None = None
+    #: The number the message states, for a finding that is added up over the seasons of a
+    #: folder read one at a time (see :func:`sitegen.load.names.added_up_rows`); None otherwise.
+    count: int | None = field(default=None, compare=False)
 
 
 @dataclass(frozen=True)
@@ -53,7 +56,7 @@ class DeckData:
     are categoricals whose categories are sorted (deck_id's are the deck
     table's ids, so a code is a row of ``decks``), quantity is the narrowest
     signed integer type that holds the largest count (int8 as a rule: see
-    :func:`sitegen.load.normalise.narrow_counts`).
+    :func:`sitegen.load.numbers.narrow_counts`).
     ``card_info``: the card table, ``card`` and ``type`` first, then any
     further columns, or None when no card table was given. ``seasons``:
     season names in publication order.

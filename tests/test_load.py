@@ -478,9 +478,30 @@ def test_demo_decklists_match_the_demo_tables(tmp_path):
 def test_counts_kept_in_the_narrowest_signed_type_numpy_promotes_to(top):
     # Reference: numpy's min_scalar_type, which for a negative value gives the least signed type
     # holding it; a signed type holds ``top`` exactly when it holds -(top + 1) (two's complement).
-    from sitegen.load.normalise import narrow_counts
+    from sitegen.load.numbers import narrow_counts
 
     values = np.array([1, top, 1], dtype=np.int64)
     got = narrow_counts(values)
     assert got.dtype == np.min_scalar_type(-top - 1)
     assert got.tolist() == values.tolist()
+
+
+def test_load_settings_hold_every_column_and_rule_setting(tmp_path):
+    # Reference: the settings declared in sitegen.config (what a config file may give), so a
+    # column or rule setting added there cannot be left out of what the load stage reads.
+    from sitegen.config import SETTINGS
+    from sitegen.load.settings import LoadSettings
+
+    cfg = config(tmp_path, columns={"card_extra": ["rarity"], "match_result": "outcome"},
+                 rules={"max_copies": 4}, data={"cards": "cards.csv"})
+    got = LoadSettings.from_config(cfg)
+    for setting in SETTINGS:
+        if setting.section == "columns":
+            want = cfg[setting.key]
+            assert getattr(got.columns, setting.name) == (tuple(want) if isinstance(want, list) else want)
+        elif setting.section == "rules":
+            assert getattr(got.rules, setting.name) == cfg[setting.key]
+    assert got.columns.card_extra == ("rarity",) and got.columns.match_result == "outcome"
+    assert got.rules.max_copies == 4
+    assert got.cards == tmp_path / "cards.csv" and got.decklists is None
+    assert LoadSettings.of(got) is got

@@ -242,7 +242,7 @@ def test_card_names_agree_with_python_csv_module(names, terminator):
     # NFC, per Python's unicodedata.
     import unicodedata
 
-    from sitegen.load.normalise import clean_text, variant_key
+    from sitegen.load.names import clean_text, variant_key
 
     def as_name(text: str) -> str:
         text = "".join(c for c in clean_text(text) if unicodedata.category(c) != "Cf")

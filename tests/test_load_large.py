@@ -192,12 +192,12 @@ def test_card_categories_come_sorted_as_python_sorts():
     _, cards = _planted(8)
     cards.loc[cards.index[::3], "card"] = "Émile"  # non-ASCII sorts after every ASCII name
     table = pa.Table.from_pandas(cards, preserve_index=False)
-    from sitegen.load.tables import _chunks_as_categories
+    from sitegen.load.arrow_columns import chunks_as_categories
 
     names = table.column("card").combine_chunks()
     # 15 chunks, each with a dictionary of its own in order of first appearance (as row groups read).
     column = pa.chunked_array([names.slice(i, 10_000).dictionary_encode() for i in range(0, len(cards), 10_000)])
-    got = _chunks_as_categories(column)
+    got = chunks_as_categories(column)
     assert list(got.cat.categories) == sorted(set(cards["card"]))
     assert got.astype(str).tolist() == cards["card"].tolist()
 
@@ -207,11 +207,11 @@ def test_dates_parsed_once_per_text_equal_python_fromisoformat():
     # 6 000 rows of 5 distinct texts: the loader parses each distinct text once.
     import datetime as dt
 
-    from sitegen.load.normalise import _parse_dates
+    from sitegen.load.seasons import parse_dates
 
     texts = ["2026-03-01", "2026-03-02", "not a date", "", " 2026-02-28 "]
     column = pd.Series([texts[i % 5] for i in range(6000)], dtype="str")
-    dates, bad, empty = _parse_dates(column)
+    dates, bad, empty = parse_dates(column)
 
     def reference(text):
         try:
@@ -231,7 +231,7 @@ def test_trim_check_agrees_with_python_unicode_data():
     # first, so texts ending in multi-byte characters (accents, CJK spaces) are the hard cases.
     import unicodedata
 
-    from sitegen.load.normalise import _needs_trim
+    from sitegen.load.codes import needs_trim
 
     def trims(c):
         return c.isspace() or unicodedata.category(c) == "Cc" or c == "\ufeff"
@@ -240,7 +240,7 @@ def test_trim_check_agrees_with_python_unicode_data():
     texts = [f"{a}mid{b}" for a in edges for b in edges] + ["", "é", " ", "x"]
     values = pa.array(texts * 3).slice(7)  # a sliced array: its offsets do not start at 0
     expected = [bool(t) and (trims(t[0]) or trims(t[-1])) for t in values.to_pylist()]
-    assert _needs_trim(values).tolist() == expected
+    assert needs_trim(values).tolist() == expected
 
 
 @pytest.mark.parametrize("values", [[1, 2, 3], [1, 300, 2], [-5, 1, 70_000], [1, None, 2]])

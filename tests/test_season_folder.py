@@ -16,6 +16,7 @@ from sitegen.build import build
 from sitegen.check import check_rules
 from sitegen.errors import DataError, DataErrors
 from sitegen.load import load_data, open_season_folder
+from sitegen.load.names import added_up_rows
 
 from _load_helpers import config
 
@@ -65,6 +66,23 @@ def test_season_by_season_equals_the_whole_folder_read(tmp_path):
     pd.testing.assert_frame_equal(rows, whole.cards.astype(as_text))
     assert ("c1", "Ember Fox", 2) in set(map(tuple, rows.values.tolist()))
     assert set(rows["card"]) == {"Ember Fox", "Tide Call", "Stone Wall"}
+
+
+def test_copies_added_up_in_several_seasons_are_counted_once_over_the_folder(tmp_path):
+    # Planted: one deck in each of two seasons lists a card under two spellings, so 2 card rows
+    # in all are added to another row (counted by hand); the folder reports one finding for both.
+    _season(tmp_path, "Season 1", [("a1", "Orm", "2026-01-02")],
+            [("a1", "Ember Fox", 2), ("a1", "ember  fox", 1), ("a1", "Tide Call", 2)])
+    _season(tmp_path, "Season 2", [("b1", "Orm", "2026-02-02")],
+            [("b1", "Ember Fox", 1), ("b1", "EMBER FOX", 1), ("b1", "Tide Call", 3)])
+    cfg = config(tmp_path, data={"parquet_folder": "pq"})
+    seasons, streamed = _streamed(cfg)
+    per_season = [added_up_rows(f) for s in seasons for f in s.findings if added_up_rows(f) is not None]
+    assert per_season == [1, 1]
+    added = [f for f in streamed.findings if added_up_rows(f) is not None]
+    assert [added_up_rows(f) for f in added] == [2]
+    assert added[0].message.startswith("2 card row(s) named a card a deck already listed under another spelling")
+    assert streamed.findings == check_rules(load_data(cfg), cfg).findings
 
 
 def test_a_deck_id_in_two_season_folders_is_an_error_naming_both(tmp_path):

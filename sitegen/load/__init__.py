@@ -22,41 +22,44 @@ from ..config import Config
 from ..errors import ConfigError, DataError, DataErrors
 from ..model import DeckData
 from .decklists import read_decklists
-from .normalise import build, check_decks
+from .deck_table import check_decks
+from .normalise import build
 from .origin import StackedOrigin
+from .settings import LoadSettings
 from .tables import Table, read_table
 
 if TYPE_CHECKING:
     from ..cache import Cache
 
-__all__ = ["load_data", "open_season_folder", "read_decklists", "read_table"]
+__all__ = ["LoadSettings", "load_data", "open_season_folder", "read_decklists", "read_table"]
 
 _DECK_OPTIONAL = ("wins", "losses", "event", "player", "title")
 #: Long-form columns read as categoricals: a few thousand cards and one id per deck over tens of millions of rows.
 _CARD_ROW_CATEGORIES = frozenset({"deck_id", "card"})
 
 
-def _deck_columns(cfg: Config) -> tuple[dict[str, str], dict[str, str]]:
-    required = {"deck_id": cfg["columns.deck_id"], "leader": cfg["columns.leader"]}
-    optional = {c: cfg[f"columns.{c}"] for c in _DECK_OPTIONAL}
-    if cfg["seasons.source"] == "calendar":
-        required["date"] = cfg["columns.date"]
+def _deck_columns(settings: LoadSettings) -> tuple[dict[str, str], dict[str, str]]:
+    columns = settings.columns
+    required = {"deck_id": columns.deck_id, "leader": columns.leader}
+    optional = {c: getattr(columns, c) for c in _DECK_OPTIONAL}
+    if settings.season_source == "calendar":
+        required["date"] = columns.date
     else:
-        required["season"] = cfg["columns.season"]
-        optional["date"] = cfg["columns.date"]
+        required["season"] = columns.season
+        optional["date"] = columns.date
     return required, optional
 
 
-def _card_rows_columns(cfg: Config) -> dict[str, str]:
-    return {"deck_id": cfg["columns.deck_id"], "card": cfg["columns.card"], "quantity": cfg["columns.quantity"]}
+def _card_rows_columns(settings: LoadSettings) -> dict[str, str]:
+    columns = settings.columns
+    return {"deck_id": columns.deck_id, "card": columns.card, "quantity": columns.quantity}
 
 
-def _read_card_table(cfg: Config) -> Table | None:
-    path = cfg.path("data.cards")
-    if path is None:
+def _read_card_table(settings: LoadSettings) -> Table | None:
+    if settings.cards is None:
         return None
-    return read_table(path, setting="data.cards",
-                      required={"card": cfg["columns.card_name"], "type": cfg["columns.card_type"]},
+    return read_table(settings.cards, setting="data.cards",
+                      required={"card": settings.columns.card_name, "type": settings.columns.card_type},
                       all_columns=True)
 
 
@@ -75,11 +78,11 @@ def _read_both(reads) -> list[Table]:
     return tables
 
 
-def _check_inputs(cfg: Config) -> None:
+def _check_inputs(settings: LoadSettings) -> None:
     """A ConfigError when the settings name more than one form of input."""
-    source = str(cfg.source or "<config>")
-    decks_path, cards_path = cfg.path("data.decks"), cfg.path("data.deck_cards")
-    folder, parquet_folder = cfg.path("data.decklists"), cfg.path("data.parquet_folder")
+    source = settings.source
+    decks_path, cards_path = settings.decks, settings.deck_cards
+    folder, parquet_folder = settings.decklists, settings.parquet_folder
     given = [k for k, v in (("data.decks", decks_path), ("data.deck_cards", cards_path),
                             ("data.decklists", folder), ("data.parquet_folder", parquet_folder)) if v is not None]
     if folder is not None and (decks_path or cards_path or parquet_folder):
@@ -90,7 +93,7 @@ def _check_inputs(cfg: Config) -> None:
                           "give either the Parquet folder or the two tables, not both")
 
 
-def load_data(cfg: Config) -> DeckData:
+def load_data(cfg: Config | LoadSettings) -> DeckData:
     """Read, check and normalise the deck data the config names.
 
     Give either ``data.decks`` with ``data.deck_cards``, or
@@ -101,28 +104,30 @@ def load_data(cfg: Config) -> DeckData:
     ``data.parquet_folder`` layout: one sub-folder per season named
     ``season=NAME`` (hive style), each holding ``decks.parquet`` and
     ``deck_cards.parquet``; the season comes from the folder name and
-    replaces any season column in the files.
+    replaces any season column in the files. ``cfg``: the config, or the
+    load stage's settings read from it (:class:`LoadSettings`).
     """
-    source = str(cfg.source or "<config>")
-    _check_inputs(cfg)
-    decks_path, cards_path = cfg.path("data.decks"), cfg.path("data.deck_cards")
-    folder, parquet_folder = cfg.path("data.decklists"), cfg.path("data.parquet_folder")
+    settings = LoadSettings.of(cfg)
+    source = settings.source
+    _check_inputs(settings)
+    decks_path, cards_path = settings.decks, settings.deck_cards
+    folder, parquet_folder = settings.decklists, settings.parquet_folder
     if folder is not None:
         notes: list = []
         decks, cards = read_decklists(folder, findings=notes)
-        (card_table,) = _read_both([lambda: _read_card_table(cfg)])
-        data = build(decks, cards, card_table, cfg)
+        (card_table,) = _read_both([lambda: _read_card_table(settings)])
+        data = build(decks, cards, card_table, settings)
         return dataclasses.replace(data, findings=tuple(notes) + data.findings) if notes else data
     if parquet_folder is not None:
-        decks, cards = _read_parquet_folder(parquet_folder, cfg)
-        (card_table,) = _read_both([lambda: _read_card_table(cfg)])
-        return build(decks, cards, card_table, cfg)
+        decks, cards = _read_parquet_folder(parquet_folder, settings)
+        (card_table,) = _read_both([lambda: _read_card_table(settings)])
+        return build(decks, cards, card_table, settings)
     if decks_path is None or cards_path is None:
         missing = "data.decks" if decks_path is None else "data.deck_cards"
         raise ConfigError(source, missing,
                           "no deck data: give data.decks and data.deck_cards (tables), or data.decklists (a folder of text decklists)",
                           f"set {missing} to the path of the table, relative to the config file")
-    required, optional = _deck_columns(cfg)
+    required, optional = _deck_columns(settings)
     read: dict[str, Table] = {}
     checking: dict[str, Future] = {}
 
@@ -130,12 +135,12 @@ def load_data(cfg: Config) -> DeckData:
         read["decks"] = read_table(decks_path, setting="data.decks", required=required, optional=optional,
                                    numeric=frozenset({"wins", "losses"}))
         # Checked in another thread while the long-form table is read (Arrow and numpy let go of the lock).
-        checking["decks"] = pool.submit(check_decks, read["decks"], cfg)
+        checking["decks"] = pool.submit(check_decks, read["decks"], settings)
         return read["decks"]
 
     def read_cards() -> Table:
         # The deck table's ids, in its order, are the likely categories of the card rows' deck ids.
-        return read_table(cards_path, setting="data.deck_cards", required=_card_rows_columns(cfg),
+        return read_table(cards_path, setting="data.deck_cards", required=_card_rows_columns(settings),
                           numeric=frozenset({"quantity"}), categorical=_CARD_ROW_CATEGORIES,
                           deck_ids=read["decks"].frame["deck_id"] if "decks" in read else None)
 
@@ -143,38 +148,39 @@ def load_data(cfg: Config) -> DeckData:
         decks, cards, card_table = _read_both([
             read_decks,
             read_cards,
-            lambda: _read_card_table(cfg),
+            lambda: _read_card_table(settings),
         ])
         checked = checking["decks"].result()
-    return build(decks, cards, card_table, cfg, checked=checked)
+    return build(decks, cards, card_table, settings, checked=checked)
 
 
-def open_season_folder(cfg: Config, cache: Cache | None = None):
+def open_season_folder(cfg: Config | LoadSettings, cache: Cache | None = None):
     """The config's season folder opened for reading one season at a time
     (:class:`~sitegen.load.folder.SeasonFolder`), or None when the data is
     read whole: no ``data.parquet_folder``, or seasons taken from a calendar
     of dates (a deck's season is then not its folder's). With a ``cache``
     (:class:`~sitegen.cache.Cache`), the first pass over the folder opens
     only the seasons whose files changed since it last looked."""
-    folder = cfg.path("data.parquet_folder")
-    if folder is None or cfg["seasons.source"] == "calendar":
+    settings = LoadSettings.of(cfg)
+    folder = settings.parquet_folder
+    if folder is None or settings.season_source == "calendar":
         return None
-    _check_inputs(cfg)
+    _check_inputs(settings)
     from .folder import open_folder
 
-    required, optional = _deck_columns(cfg)
+    required, optional = _deck_columns(settings)
     required.pop("season", None)
     optional.pop("season", None)
-    (card_table,) = _read_both([lambda: _read_card_table(cfg)])
-    return open_folder(cfg, folder, (required, optional), _card_rows_columns(cfg), card_table, cache)
+    (card_table,) = _read_both([lambda: _read_card_table(settings)])
+    return open_folder(settings, folder, (required, optional), _card_rows_columns(settings), card_table, cache)
 
 
-def _read_parquet_folder(folder: Path, cfg: Config) -> tuple[Table, Table]:
+def _read_parquet_folder(folder: Path, settings: LoadSettings) -> tuple[Table, Table]:
     """The season=NAME/ sub-folders as one deck table and one long-form table (the whole
     folder at once, for seasons taken from a calendar; see load/folder.py otherwise)."""
     from .folder import season_files, with_season
 
-    required, optional = _deck_columns(cfg)
+    required, optional = _deck_columns(settings)
     required.pop("season", None)
     optional.pop("season", None)
     deck_tables: list[Table] = []
@@ -185,7 +191,7 @@ def _read_parquet_folder(folder: Path, cfg: Config) -> tuple[Table, Table]:
             d, c = _read_both([
                 lambda: read_table(files.decks, setting="data.parquet_folder", required=required, optional=optional,
                                    numeric=frozenset({"wins", "losses"})),
-                lambda: read_table(files.cards, setting="data.parquet_folder", required=_card_rows_columns(cfg),
+                lambda: read_table(files.cards, setting="data.parquet_folder", required=_card_rows_columns(settings),
                                    numeric=frozenset({"quantity"}), categorical=_CARD_ROW_CATEGORIES),
             ])
         except DataErrors as exc:

@@ -58,6 +58,10 @@ class Parsed:
     blank_sideboard: int = 0
 
 
+class _Stop(Exception):
+    """Reading a decklist ends here: the error is in the list already."""
+
+
 def _parse_file(path: Path, errors: list[DataError]) -> Parsed | None:
     """One decklist, or None on error (the errors appended to ``errors``).
 
@@ -65,107 +69,144 @@ def _parse_file(path: Path, errors: list[DataError]) -> Parsed | None:
     (:data:`_SIDEBOARD_LINE`) or at the first card line that follows a blank
     line; its cards are read as card lines and kept out of the deck.
     """
-    header: dict[str, str] = {}
-    header_line: dict[str, int] = {}
-    cards: list[tuple[int, str, str]] = []
-    sideboard: list[tuple[int, str, str]] = []
-    marked = 0  # line of the 'Sideboard' line
-    blank_sideboard = 0  # line of the blank line that started an unmarked sideboard
-    blank_after_cards = 0  # line of the last blank line below a card line, 0 after a card line
-    failed = False
     try:
         f = open(path, "rb")
     except OSError as exc:
         errors.append(DataError(path, f"cannot be read: {exc.strerror}", fix="check the file's permissions"))
         return None
-    with f:
-        number = 0
-        while True:
-            raw = f.readline(MAX_LINE_BYTES + 1)
-            if not raw:
-                break
-            number += 1
-            if len(raw) > MAX_LINE_BYTES and not raw.endswith(b"\n"):
-                errors.append(DataError(path, f"line longer than {MAX_LINE_BYTES} bytes", row=number,
-                                        fix="a decklist holds one card per line; check this is a decklist"))
-                return None
-            if b"\x00" in raw:
-                errors.append(DataError(path, "binary data, not text (a NUL byte)", row=number,
-                                        fix="give decklists as UTF-8 text files"))
-                return None
-            try:
-                line = raw.decode("utf-8")
-            except UnicodeDecodeError as exc:
-                errors.append(DataError(path, f"not valid UTF-8 text (bad byte 0x{raw[exc.start]:02x} at byte {exc.start + 1} of the line)",
-                                        row=number, fix="save the file as UTF-8"))
-                return None
-            if number == 1:
-                line = line.lstrip("\ufeff")
-            text = line.strip()
-            if not text:
-                if cards and not blank_after_cards:
-                    blank_after_cards = number
-                continue
-            if _SIDEBOARD_LINE.fullmatch(text):
-                if not cards:
-                    errors.append(DataError(path, "sideboard line before any card of the main deck", row=number,
-                                            value=text, fix="list the main deck's cards first, then the sideboard"))
-                    failed = True
-                elif marked or blank_sideboard:
-                    first = marked or blank_sideboard
-                    errors.append(DataError(path, f"a second sideboard (the first starts on line {first})", row=number,
-                                            value=text, fix=_FIX_SIDEBOARD))
-                    failed = True
-                else:
-                    marked = number
-                continue
-            if text.startswith("#"):
-                continue
-            m = _CARD_LINE.fullmatch(text)
-            if m:
-                if len(cards) + len(sideboard) >= MAX_CARD_LINES:
-                    errors.append(DataError(path, f"more than {MAX_CARD_LINES} card lines", row=number,
-                                            fix="one file holds one deck; split it or check it is a decklist"))
-                    return None
-                if blank_after_cards and not marked:
-                    if blank_sideboard:
-                        errors.append(DataError(
-                            path, f"card lines after a second blank line below the main cards (the sideboard "
-                                  f"starts after the blank line {blank_sideboard})", row=number, value=text,
-                            fix="remove blank lines between cards of one part, or mark the sideboard with a 'Sideboard' line"))
-                        failed = True
-                    else:
-                        blank_sideboard = blank_after_cards
-                blank_after_cards = 0
-                (sideboard if marked or blank_sideboard else cards).append((number, m.group(1), m.group(2)))
-                continue
-            h = _HEADER_LINE.fullmatch(text)
-            if h:
-                key = " ".join(h.group(1).split()).lower()
-                if cards:
-                    errors.append(DataError(path, f"header line '{h.group(1)}:' after the first card line", row=number,
-                                            value=text, fix="move header lines (Leader:, Season:...) above the cards"))
-                    failed = True
-                elif key not in HEADER_KEYS:
-                    known = ", ".join(k.capitalize() for k in HEADER_KEYS)
-                    errors.append(DataError(path, f"unknown header '{h.group(1)}'", row=number, value=text,
-                                            fix=f"use one of {known}, or start a comment line with '#'"))
-                    failed = True
-                elif HEADER_KEYS[key] in header:
-                    errors.append(DataError(path, f"header '{h.group(1)}' given twice (first on line {header_line[HEADER_KEYS[key]]})",
-                                            row=number, value=text, fix="keep one of the two lines"))
-                    failed = True
-                else:
-                    header[HEADER_KEYS[key]] = h.group(2).strip()
-                    header_line[HEADER_KEYS[key]] = number
-                continue
-            errors.append(DataError(path, "not a header line nor a card line", row=number, value=text,
-                                    fix=f"{_FIX_CARD}; header lines look like 'Leader: NAME'; a sideboard starts at a 'Sideboard' line"))
-            failed = True
-    if not cards and not failed:
-        errors.append(DataError(path, "no card lines (the decklist is empty)", row=max(number, 1), fix=_FIX_CARD))
+    reader = _Reader(path, errors)
+    try:
+        with f:
+            for number, text in _text_lines(f, path, errors):
+                reader.read(number, text)
+    except _Stop:
         return None
-    return None if failed else Parsed(header, header_line, cards, sideboard, blank_sideboard)
+    return reader.parsed()
+
+
+def _text_lines(f, path: Path, errors: list[DataError]):
+    """(line number, text stripped) of each line of an open decklist; a line too long, holding a
+    NUL byte or not UTF-8 appends its error and stops the reading (:class:`_Stop`)."""
+    number = 0
+    while True:
+        raw = f.readline(MAX_LINE_BYTES + 1)
+        if not raw:
+            return
+        number += 1
+        if len(raw) > MAX_LINE_BYTES and not raw.endswith(b"\n"):
+            errors.append(DataError(path, f"line longer than {MAX_LINE_BYTES} bytes", row=number,
+                                    fix="a decklist holds one card per line; check this is a decklist"))
+            raise _Stop
+        if b"\x00" in raw:
+            errors.append(DataError(path, "binary data, not text (a NUL byte)", row=number,
+                                    fix="give decklists as UTF-8 text files"))
+            raise _Stop
+        try:
+            line = raw.decode("utf-8")
+        except UnicodeDecodeError as exc:
+            errors.append(DataError(path, f"not valid UTF-8 text (bad byte 0x{raw[exc.start]:02x} at byte {exc.start + 1} of the line)",
+                                    row=number, fix="save the file as UTF-8"))
+            raise _Stop from None
+        if number == 1:
+            line = line.lstrip("\ufeff")
+        yield number, line.strip()
+
+
+class _Reader:
+    """What one decklist's lines have given so far (see :func:`_parse_file`)."""
+
+    def __init__(self, path: Path, errors: list[DataError]) -> None:
+        self.path, self.errors = path, errors
+        self.header: dict[str, str] = {}
+        self.header_line: dict[str, int] = {}
+        self.cards: list[tuple[int, str, str]] = []
+        self.sideboard: list[tuple[int, str, str]] = []
+        self.marked = 0  # line of the 'Sideboard' line
+        self.blank_sideboard = 0  # line of the blank line that started an unmarked sideboard
+        self.blank_after_cards = 0  # line of the last blank line below a card line, 0 after a card line
+        self.failed = False
+        self.lines = 0
+
+    def error(self, message: str, number: int, text: str, fix: str) -> None:
+        """A problem of one line; the decklist is read on, to find the rest."""
+        self.errors.append(DataError(self.path, message, row=number, value=text, fix=fix))
+        self.failed = True
+
+    def read(self, number: int, text: str) -> None:
+        """One line (stripped): blank, sideboard, comment, card or header line, or a problem."""
+        self.lines = number
+        if not text:
+            if self.cards and not self.blank_after_cards:
+                self.blank_after_cards = number
+            return
+        if _SIDEBOARD_LINE.fullmatch(text):
+            self.sideboard_line(number, text)
+            return
+        if text.startswith("#"):
+            return
+        m = _CARD_LINE.fullmatch(text)
+        if m:
+            self.card_line(number, text, m.group(1), m.group(2))
+            return
+        h = _HEADER_LINE.fullmatch(text)
+        if h:
+            self.header_entry(number, text, h.group(1), h.group(2))
+            return
+        self.error("not a header line nor a card line", number, text,
+                   f"{_FIX_CARD}; header lines look like 'Leader: NAME'; a sideboard starts at a 'Sideboard' line")
+
+    def sideboard_line(self, number: int, text: str) -> None:
+        if not self.cards:
+            self.error("sideboard line before any card of the main deck", number, text,
+                       "list the main deck's cards first, then the sideboard")
+        elif self.marked or self.blank_sideboard:
+            first = self.marked or self.blank_sideboard
+            self.error(f"a second sideboard (the first starts on line {first})", number, text, _FIX_SIDEBOARD)
+        else:
+            self.marked = number
+
+    def card_line(self, number: int, text: str, qty: str, name: str) -> None:
+        """A card of the main deck or, after a 'Sideboard' line or a blank line below the main
+        cards, of the sideboard; more than :data:`MAX_CARD_LINES` stops the reading."""
+        if len(self.cards) + len(self.sideboard) >= MAX_CARD_LINES:
+            self.errors.append(DataError(self.path, f"more than {MAX_CARD_LINES} card lines", row=number,
+                                         fix="one file holds one deck; split it or check it is a decklist"))
+            raise _Stop
+        if self.blank_after_cards and not self.marked:
+            if self.blank_sideboard:
+                self.error(f"card lines after a second blank line below the main cards (the sideboard "
+                           f"starts after the blank line {self.blank_sideboard})", number, text,
+                           "remove blank lines between cards of one part, or mark the sideboard with a 'Sideboard' line")
+            else:
+                self.blank_sideboard = self.blank_after_cards
+        self.blank_after_cards = 0
+        (self.sideboard if self.marked or self.blank_sideboard else self.cards).append((number, qty, name))
+
+    def header_entry(self, number: int, text: str, written: str, value: str) -> None:
+        key = " ".join(written.split()).lower()
+        if self.cards:
+            self.error(f"header line '{written}:' after the first card line", number, text,
+                       "move header lines (Leader:, Season:...) above the cards")
+        elif key not in HEADER_KEYS:
+            known = ", ".join(k.capitalize() for k in HEADER_KEYS)
+            self.error(f"unknown header '{written}'", number, text,
+                       f"use one of {known}, or start a comment line with '#'")
+        elif HEADER_KEYS[key] in self.header:
+            self.error(f"header '{written}' given twice (first on line {self.header_line[HEADER_KEYS[key]]})",
+                       number, text, "keep one of the two lines")
+        else:
+            self.header[HEADER_KEYS[key]] = value.strip()
+            self.header_line[HEADER_KEYS[key]] = number
+
+    def parsed(self) -> Parsed | None:
+        """The decklist, or None when a line was wrong or it holds no card line (an error)."""
+        if not self.cards and not self.failed:
+            self.errors.append(DataError(self.path, "no card lines (the decklist is empty)", row=max(self.lines, 1),
+                                         fix=_FIX_CARD))
+            return None
+        if self.failed:
+            return None
+        return Parsed(self.header, self.header_line, self.cards, self.sideboard, self.blank_sideboard)
 
 
 def read_decklists(folder: Path, *, setting: str = "data.decklists",

@@ -21,7 +21,6 @@ from __future__ import annotations
 
 import hashlib
 import json
-import re
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
 from functools import partial
@@ -33,10 +32,15 @@ import pandas as pd
 import pyarrow as pa
 
 from ..check import RULE_KINDS, check_rules
-from ..config import Config
 from ..errors import ConfigError, DataError, DataErrors
 from ..model import CARD_ROW_COLUMNS, DECK_COLUMNS, DeckData, Finding, SeasonRecord, SeasonSummary
 from . import normalise
+from .card_table import checked_card_table
+from .codes import name_rank, text_codes
+from .names import Spellings, added_up_finding, added_up_rows, clean_name, clean_text, merge_look_alikes, spellings_of
+from .problems import ERRORS_PER_PROBLEM
+from .seasons import parse_dates, season_order
+from .settings import LoadSettings
 from .tables import PARQUET_SUFFIXES, Table, count_values, read_table
 
 if TYPE_CHECKING:
@@ -46,8 +50,6 @@ if TYPE_CHECKING:
 RECORD_FORMAT = 1
 #: Bumped when what a first-pass summary holds, or how its key is made, changes.
 SUMMARY_FORMAT = 1
-#: The finding a build makes when two spellings of one card sat in one deck (its count first).
-_ADDED_UP = re.compile(r"^(\d+) card row\(s\) named a card a deck already listed under another spelling")
 
 
 @dataclass(frozen=True)
@@ -107,12 +109,12 @@ def _raise(errors: list[DataError]) -> None:
 class SeasonFolder:
     """A season folder being read season by season (see the module notes)."""
 
-    cfg: Config
+    settings: LoadSettings
     files: list[SeasonFiles]
     deck_columns: tuple[dict[str, str], dict[str, str]]
     card_columns: dict[str, str]
     card_table: Table | None
-    spellings: normalise.Spellings
+    spellings: Spellings
     name_findings: list[Finding]
     first_dates: dict[str, pd.Timestamp]
     #: Every first-pass summary key asked for, so the build keeps those entries when it prunes the cache.
@@ -128,8 +130,7 @@ class SeasonFolder:
         alone (so maps can start while seasons are still read); None when the settings do not fit
         the seasons (the error is raised by :meth:`whole`, after the seasons' own)."""
         try:
-            return normalise._season_order({normalise.clean_name(f.season) for f in self.files}, self.cfg, None,
-                                           self.first_dates)
+            return season_order({clean_name(f.season) for f in self.files}, self.settings, None, self.first_dates)
         except ConfigError:
             return None
 
@@ -163,11 +164,11 @@ class SeasonFolder:
                 deck_ids=decks.frame["deck_id"] if decks is not None else None))
             if decks is None or cards is None:
                 continue
-            data = _collect(errors, partial(normalise.build, decks, cards, self.card_table, self.cfg, self.spellings))
+            data = _collect(errors, partial(normalise.build, decks, cards, self.card_table, self.settings, self.spellings))
             decks = cards = None  # this season's rows now live in data only
             if data is None or errors:
                 continue  # after the first error, only look for more errors
-            data = check_rules(data, self.cfg)
+            data = check_rules(data, self.settings)
             self._keep(data)
             yield data
         _raise(errors)
@@ -178,9 +179,9 @@ class SeasonFolder:
         if self._card_info is None and isinstance(data, DeckData):
             self._card_info = data.card_info
         for f in data.findings:
-            added = _ADDED_UP.match(f.message) if f.kind == "name-variants" else None
-            if added:
-                self._added_up += int(added.group(1))
+            added = added_up_rows(f)
+            if added is not None:
+                self._added_up += added
             else:
                 self._findings.append(f)
 
@@ -188,18 +189,17 @@ class SeasonFolder:
         """Every season's decks (no card rows: they were handed over season by season),
         findings, rule breakers and the season order, as a whole-folder read gives them."""
         if self._card_info is None and self.card_table is not None:  # every season was remembered, none read
-            problems = normalise._Problems()
-            self._card_info, _ = normalise._card_info(self.card_table, self.cfg, problems)
+            self._card_info, _ = checked_card_table(self.card_table, self.settings)
         decks = pd.concat(self._decks, ignore_index=True) if self._decks else pd.DataFrame(columns=list(DECK_COLUMNS))
-        decks = decks.iloc[np.argsort(normalise._rank(decks["deck_id"].tolist()), kind="stable")].reset_index(drop=True)
+        decks = decks.iloc[np.argsort(name_rank(decks["deck_id"].tolist()), kind="stable")].reset_index(drop=True)
         findings = list(self.name_findings)
         if self._added_up:
-            findings.append(normalise.added_up_finding(self._added_up))
+            findings.append(added_up_finding(self._added_up))
         rules = sorted((f for f in self._findings if f.kind in RULE_KINDS),
                        key=lambda f: (f.deck_id or "", RULE_KINDS.index(f.kind)))
         findings += [f for f in self._findings if f.kind not in RULE_KINDS] + rules
         present = set(decks["season"].tolist())
-        seasons = normalise._season_order(present, self.cfg, None, self.first_dates)
+        seasons = season_order(present, self.settings, None, self.first_dates)
         empty = pd.DataFrame({"deck_id": pd.Categorical([], categories=pd.Index([], dtype="str")),
                               "card": pd.Categorical([], categories=pd.Index([], dtype="str")),
                               "quantity": np.zeros(0, dtype=np.int64)})[list(CARD_ROW_COLUMNS)]
@@ -322,7 +322,7 @@ class _DeckIds:
 
 
 def _deck_ids(decks: Table, season: str) -> _DeckIds:
-    codes, ids = normalise._codes(decks.frame["deck_id"])
+    codes, ids = text_codes(decks.frame["deck_id"])
     return _DeckIds(season, Table(decks.file, decks.frame.iloc[:0], decks.origin, decks.names), ids,
                     _first_rows(codes, len(ids)))
 
@@ -338,16 +338,16 @@ def _summary_of(decks: Table | None, names: dict[str, int] | None, ids: _DeckIds
     """What the first pass needs of one season (what could be read of it)."""
     card_counts: dict[str, int] = {}
     for name, n in (names or {}).items():
-        name = normalise.clean_text(name)
+        name = clean_text(name)
         card_counts[name] = card_counts.get(name, 0) + n
     if decks is None:
         return SeasonSummary({}, card_counts, None, np.zeros(0, dtype=np.uint64))
     frame = decks.frame
-    codes, leaders = normalise._codes(frame["leader"])
+    codes, leaders = text_codes(frame["leader"])
     leader_counts = dict(zip(leaders, np.bincount(codes, minlength=len(leaders)).tolist()))
     first_date = None
     if "date" in frame:
-        dates, _, _ = normalise._parse_dates(frame["date"])
+        dates, _, _ = parse_dates(frame["date"])
         if dates.notna().any():
             first_date = dates.min()
     hashes = _id_hashes(ids.ids) if hashed and ids is not None else np.zeros(0, dtype=np.uint64)
@@ -381,7 +381,7 @@ def _ids_in_two_seasons(id_lists: list[list[str]], id_places: list[tuple[np.ndar
     shown: dict[int, int] = {}
     for i in again.tolist():
         table = int(table_of[i])
-        if shown.get(table, 0) >= normalise.ERRORS_PER_PROBLEM:
+        if shown.get(table, 0) >= ERRORS_PER_PROBLEM:
             continue
         shown[table] = shown.get(table, 0) + 1
         other = int(first[codes[i]])
@@ -422,7 +422,7 @@ def _check_ids_across_seasons(files: list[SeasonFiles], summaries: list[SeasonSu
                         [r.table for r in read], [r.season for r in read], errors)
 
 
-def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], dict[str, str]],
+def open_folder(settings: LoadSettings, folder: Path, deck_columns: tuple[dict[str, str], dict[str, str]],
                 card_columns: dict[str, str], card_table: Table | None, cache: Cache | None = None) -> SeasonFolder:
     """Read what must agree across seasons, and check it; DataErrors name every problem found.
 
@@ -435,7 +435,7 @@ def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], d
     errors: list[DataError] = []
     by_name: dict[str, SeasonFiles] = {}
     for f in files:
-        other = by_name.setdefault(normalise.clean_name(f.season), f)
+        other = by_name.setdefault(clean_name(f.season), f)
         if other is not f:
             errors.append(DataError(f.decks.parent, f"names the same season as {other.decks.parent.name!r} "
                                     "(folder names differ only by spaces or look-alike characters)",
@@ -474,21 +474,17 @@ def open_folder(cfg: Config, folder: Path, deck_columns: tuple[dict[str, str], d
         for name, n in summary.leader_counts.items():
             leader_counts[name] = leader_counts.get(name, 0) + n
         if summary.first_date is not None:
-            first_dates[normalise.clean_name(f.season)] = summary.first_date
-    known = None
-    if card_table is not None:
-        problems = normalise._Problems()
-        _, known = normalise._card_info(card_table, cfg, problems)
-        problems.raise_if_any()
-    card_counts, card_look = normalise.merge_look_alikes(card_counts, "card name")
-    leader_counts, leader_look = normalise.merge_look_alikes(leader_counts, cfg["site.leader_word"])
+            first_dates[clean_name(f.season)] = summary.first_date
+    known = checked_card_table(card_table, settings)[1] if card_table is not None else None
+    card_counts, card_look = merge_look_alikes(card_counts, "card name")
+    leader_counts, leader_look = merge_look_alikes(leader_counts, settings.leader_word)
     card_names = list(card_counts)
-    card_spelling, card_findings = normalise.spellings_of(
+    card_spelling, card_findings = spellings_of(
         card_names, np.array([card_counts[n] for n in card_names], dtype=np.int64), known, "card name")
     leader_names = list(leader_counts)
-    leader_spelling, leader_findings = normalise.spellings_of(
-        leader_names, np.array([leader_counts[n] for n in leader_names], dtype=np.int64), None, cfg["site.leader_word"])
-    return SeasonFolder(cfg=cfg, files=files, deck_columns=deck_columns, card_columns=card_columns,
-                        card_table=card_table, spellings=normalise.Spellings(card_spelling, leader_spelling),
+    leader_spelling, leader_findings = spellings_of(
+        leader_names, np.array([leader_counts[n] for n in leader_names], dtype=np.int64), None, settings.leader_word)
+    return SeasonFolder(settings=settings, files=files, deck_columns=deck_columns, card_columns=card_columns,
+                        card_table=card_table, spellings=Spellings(card_spelling, leader_spelling),
                         name_findings=card_look + card_findings + leader_look + leader_findings, first_dates=first_dates,
                         summary_keys=memo.keys if memo is not None else set())

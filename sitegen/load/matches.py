@@ -16,6 +16,7 @@ import pandas as pd
 
 from ..config import Config
 from ..errors import DataError, DataErrors
+from .settings import LoadSettings
 from .tables import read_table
 
 #: The results a row may give, as read (after trimming and lower-casing).
@@ -24,17 +25,20 @@ RESULTS = ("win", "loss", "draw")
 _MOST_ERRORS = 50
 
 
-def read_matches(cfg: Config, deck_ids: pd.Series) -> pd.DataFrame | None:
+def read_matches(cfg: Config | LoadSettings, deck_ids: pd.Series) -> pd.DataFrame | None:
     """The checked matches table: columns ``deck``, ``opponent`` (deck ids as text) and ``result``
     (one of :data:`RESULTS`), in file order; None when ``data.matches`` is not set.
 
-    ``deck_ids``: every deck id of the deck table.
+    ``deck_ids``: every deck id of the deck table. ``cfg``: the config, or
+    the load stage's settings read from it.
     """
-    path = cfg.path("data.matches")
+    settings = LoadSettings.of(cfg)
+    path = settings.matches
     if path is None:
         return None
-    columns = {"match_deck": cfg["columns.match_deck"], "match_opponent": cfg["columns.match_opponent"],
-               "match_result": cfg["columns.match_result"]}
+    names = settings.columns
+    columns = {"match_deck": names.match_deck, "match_opponent": names.match_opponent,
+               "match_result": names.match_result}
     table = read_table(path, setting="data.matches", required=columns)
     frame = table.frame
     deck = frame["match_deck"].astype("string").fillna("").str.strip()
