@@ -7,7 +7,6 @@ from dataclasses import replace
 from .build_settings import BuildSettings
 from .config import Config
 from .progress import Progress
-from .reuse import keys
 
 
 def read_matches(cfg: Config, settings: BuildSettings, data, progress: Progress):
@@ -62,7 +61,7 @@ def analyse_folder(folder, settings: BuildSettings, runs, progress: Progress):
     from .model import SeasonRecord
     from .partitions import split
 
-    memo = runs.season_memo(keys.record_salt(runs.version, settings.values_json, settings.card_table))
+    memo = runs.season_memo(settings.values_json, settings.card_table)
     order = folder.season_order()
     if order is not None:
         runs.plan_maps(order)  # a map starts as soon as its partition is analysed

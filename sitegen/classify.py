@@ -204,12 +204,10 @@ def place_decks(models: Models, decks: Sequence[Deck], season_opt: str | None) -
         if len(model.cuts):
             labels, sim = place(rows, model.centres, model.cuts)
             sims = np.asarray(rows @ model.centres.T)
-            near = np.argmax(sims, axis=1)
         else:
             labels = np.full(len(members), -1)
             sim = np.asarray(rows @ model.mean).ravel() if model.mean is not None else None
             sims = np.zeros((len(members), 0))
-            near = np.zeros(len(members), dtype=int)
         for j, i in enumerate(members):
             group = model.to[labels[j]] if labels[j] >= 0 else -1
             slug, name = names[group] if group >= 0 else (OTHER_KEY, "Other decks")

@@ -96,7 +96,10 @@ def draw_map(sample: MapSample, params: AnalysisParams,
 
 
 def _import_analysis() -> None:
-    from .analysis import partition  # noqa: F401
+    """Worker start-up work: import the analysis code (and its libraries) once, early."""
+    from .analysis import partition
+
+    del partition  # imported for its side effect only
 
 
 def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
@@ -305,11 +308,14 @@ class Analyses:
         for season, partitions in mine.items():
             self.cache.put(season_keys[season], SeasonSplit(partitions=tuple(partitions)))
 
-    def season_memo(self, record_salt: str):
-        """Season records of a season folder, kept in the cache (see sitegen.load.folder), or None."""
+    def season_memo(self, settings_json: str, card_table):
+        """Season records of a season folder, kept in the cache (see sitegen.load.folder) under
+        keys salted with the settings (one canonical text), the card table and the code; or None."""
         from .load.folder import SeasonMemo
 
-        return SeasonMemo(self.cache, record_salt, self.add_known) if self.cache is not None else None
+        if self.cache is None:
+            return None
+        return SeasonMemo(self.cache, keys.record_salt(self.version, settings_json, card_table), self.add_known)
 
     def idle_pool(self) -> ProcessPoolExecutor | None:
         """The local worker pool, for chart checks once every analysis and map is done; None
