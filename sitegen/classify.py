@@ -15,15 +15,17 @@ import io
 import json
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Sequence
+from typing import TYPE_CHECKING, Any, Sequence
 
 import numpy as np
 import scipy.sparse as sp
 
-from .config import Config
 from .errors import ConfigError, DataError, DataErrors, SitegenError
 from .model import ALL_LEADERS, OTHER_KEY
 from .site.classify import INDEX_PATH, MODEL_FORMAT
+
+if TYPE_CHECKING:
+    from .build_settings import BuildSettings
 
 
 class ClassifyError(SitegenError):
@@ -202,12 +204,10 @@ def place_decks(models: Models, decks: Sequence[Deck], season_opt: str | None) -
         if len(model.cuts):
             labels, sim = place(rows, model.centres, model.cuts)
             sims = np.asarray(rows @ model.centres.T)
-            near = np.argmax(sims, axis=1)
         else:
             labels = np.full(len(members), -1)
             sim = np.asarray(rows @ model.mean).ravel() if model.mean is not None else None
             sims = np.zeros((len(members), 0))
-            near = np.zeros(len(members), dtype=int)
         for j, i in enumerate(members):
             group = model.to[labels[j]] if labels[j] >= 0 else -1
             slug, name = names[group] if group >= 0 else (OTHER_KEY, "Other decks")
@@ -262,12 +262,12 @@ def read_lists(paths: Sequence[Path]) -> list[Deck]:
     return decks
 
 
-def read_tables(cfg: Config, decks_path: Path, cards_path: Path) -> list[Deck]:
+def read_tables(settings: BuildSettings, decks_path: Path, cards_path: Path) -> list[Deck]:
     """A deck table (deck id, leader, season when it has that column) and a long-form table (deck id,
-    card, quantity), with the column names of the config's columns.* settings."""
+    card, quantity), with the column names of the config's columns.* settings (``settings.columns``)."""
     from .load.tables import read_table
 
-    col = {k: cfg[f"columns.{k}"] for k in ("deck_id", "leader", "season", "card", "quantity")}
+    col = dict(settings.columns)
     dt = read_table(decks_path, setting="--decks", required={"deck_id": col["deck_id"], "leader": col["leader"]},
                     optional={"season": col["season"]}).frame
     ct = read_table(cards_path, setting="--cards", required={"deck_id": col["deck_id"], "card": col["card"],
@@ -345,17 +345,17 @@ def classify(config: Path | str, lists: Sequence[Path], *, decks: Path | None = 
              season: str | None = None, leader: str | None = None, fmt: str = "text") -> str:
     """The output of ``sitegen classify`` (see the module notes)."""
     from . import config as config_mod
-    from .build import output_dir
+    from .build_settings import BuildSettings
 
-    cfg = config_mod.load(config)
+    settings = BuildSettings.from_config(config_mod.load(config))
     if (decks is None) != (cards is None):
         raise ConfigError("command line", "--decks/--cards", "give both tables (the deck table and the long-form table) or neither")
     if not lists and decks is None:
         raise ConfigError("command line", "LIST", "no decklists given", "give decklist files or folders, or --decks and --cards")
-    models = Models(output_dir(cfg))
+    models = Models(settings.output_dir())
     found = read_lists([Path(p) for p in lists]) if lists else []
     if decks is not None:
-        found += read_tables(cfg, Path(decks), Path(cards))
+        found += read_tables(settings, Path(decks), Path(cards))
     if leader:
         for d in found:
             d.leader = leader

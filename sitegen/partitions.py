@@ -15,8 +15,7 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 import pandas as pd
 
-from .cache import column_bytes, feed_labelled
-from .config import Config
+from .reuse.digest import column_bytes, feed_labelled
 from .model import ALL_LEADERS, DeckData, PartitionInput, coded
 from .resources import usable_cores
 
@@ -32,9 +31,10 @@ def card_types(data: DeckData) -> dict[str, str]:
     return dict(zip(info["card"].astype(str), info["type"].fillna("").astype(str)))
 
 
-def split(data: DeckData, cfg: Config, skip: Collection[str] = ()) -> list[PartitionInput]:
-    """The partitions of ``data`` in publication order (season, then leader name), leaving out
-    those of the seasons in ``skip`` (known unchanged, see :func:`season_keys`).
+def split(data: DeckData, by_leader: bool, skip: Collection[str] = ()) -> list[PartitionInput]:
+    """The partitions of ``data`` in publication order (season, then leader name; one per season
+    without ``by_leader``, the setting ``analysis.by_leader``), leaving out those of the seasons
+    in ``skip`` (known unchanged, see :func:`season_keys`).
 
     Decks in ``data.excluded`` (rule breakers, when the config leaves them
     out) are not in any partition. Rows are taken by their decks' runs of
@@ -43,7 +43,7 @@ def split(data: DeckData, cfg: Config, skip: Collection[str] = ()) -> list[Parti
     """
     decks = data.decks
     n = len(decks)
-    if cfg["analysis.by_leader"]:
+    if by_leader:
         leader_codes, leaders = pd.factorize(decks["leader"], sort=True)
     else:
         leader_codes, leaders = np.zeros(n, dtype=np.int64), pd.Index([ALL_LEADERS])
@@ -87,7 +87,7 @@ def split(data: DeckData, cfg: Config, skip: Collection[str] = ()) -> list[Parti
         season, leader = order[i]
         rows = deck_order[deck_bounds[i]:deck_bounds[i + 1]]
         part_decks = decks.iloc[rows].reset_index(drop=True)
-        if not cfg["analysis.by_leader"]:
+        if not by_leader:
             part_decks["leader"] = ALL_LEADERS
         if by_part is None:
             lengths = run_start[rows + 1] - run_start[rows]
@@ -121,7 +121,7 @@ def season_keys(data: DeckData, salt: str) -> dict[str, str]:
     column), their card rows, which of them are left out, and the card names and types.
 
     The same key means :func:`split` cuts the season into the same partitions, when ``salt``
-    covers the rest (the analysis settings and code, and this module's code). Made only
+    covers the rest (:func:`sitegen.reuse.keys.split_salt`). Made only
     where the loader's order holds (each season's decks one run of rows, card rows grouped by
     deck in deck order, cards as a categorical): then a season's rows are slices, hashed as
     they lie. Otherwise, or with one season, no keys: every season is cut."""

@@ -9,39 +9,23 @@ worker), so the output is the same whichever way they ran.
 """
 from __future__ import annotations
 
-import hashlib
 import os
 import sys
 from dataclasses import replace
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, ThreadPoolExecutor, wait
-from typing import Sequence
+from typing import Iterable, Sequence
 
-import numpy as np
-
-from . import __version__
 from .analysis.params import AnalysisParams
 from .analysis.embed import place_map
-from .cache import Cache, fingerprint
+from .cache import Cache
 from .errors import SitegenError
-from .model import MapLayout, MapSample, PartitionInput, PartitionResult, RunReport
+from .model import DeckData, MapLayout, MapSample, PartitionInput, PartitionResult, RunReport, SeasonSplit
 from .progress import Progress
 from .resources import usable_cores
+from .reuse import keys
+from .reuse.keys import analysis_version, fingerprint
 
-#: Bumped when the way maps are drawn changes in a way the analysis code digest does not see.
-MAP_FORMAT = 1
-
-
-def analysis_version() -> str:
-    """The tool's version plus a digest of the analysis code, so a cached result made by
-    other code (even under the same version number) is never reused."""
-    import hashlib
-    from pathlib import Path
-
-    here = Path(__file__).resolve().parent
-    h = hashlib.sha256(__version__.encode())
-    for path in sorted([here / "model.py", here / "cache.py", *(here / "analysis").glob("*.py")]):
-        h.update(path.name.encode() + b"\0" + path.read_bytes())
-    return f"{__version__}+{h.hexdigest()[:12]}"
+__all__ = ["Analyses", "analyse_all", "analyse_partition", "analysis_version", "draw_map", "worker_count"]
 
 
 _PR_SET_PDEATHSIG = 1
@@ -112,7 +96,10 @@ def draw_map(sample: MapSample, params: AnalysisParams,
 
 
 def _import_analysis() -> None:
-    from .analysis import partition  # noqa: F401
+    """Worker start-up work: import the analysis code (and its libraries) once, early."""
+    from .analysis import partition
+
+    del partition  # imported for its side effect only
 
 
 def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
@@ -181,8 +168,8 @@ class Analyses:
         self._map_hits: set[int] = set()
         self._map_started: list[int] = []
         self._map_running: dict = {}  # future -> partition index
-        #: Further cache keys this build used (season records), kept from pruning.
-        self.other_keys: set[str] = set()
+        # Further cache keys this build used (season splits, records, summaries), kept from pruning.
+        self._other_keys: set[str] = set()
         #: (season, leader) of every map drawn afresh by :meth:`draw_maps`.
         self.mapped: tuple[tuple[str, str], ...] = ()
 
@@ -277,6 +264,59 @@ class Analyses:
         """The fingerprints of the last ``count`` partitions added."""
         return self._fps[len(self._fps) - count:] if count else []
 
+    def added(self, parts: Sequence[PartitionInput]) -> list[tuple[str, str, str]]:
+        """(season, leader, fingerprint) of ``parts``, the partitions :meth:`add` took last."""
+        return [(p.season, p.leader, fp) for p, fp in zip(parts, self.fingerprints(len(parts)))]
+
+    # -- reuse of earlier builds' seasons (the cache keys are made in sitegen.reuse.keys)
+
+    def keep_keys(self, used: Iterable[str]) -> None:
+        """Keep these further cache entries (season splits, records, summaries) when pruning."""
+        self._other_keys.update(used)
+
+    def prune_cache(self) -> None:
+        """Delete every cache entry this build did not use."""
+        if self.cache is not None:
+            self.cache.prune(self.kept_keys)
+
+    def known_seasons(self, data: DeckData, by_leader: bool) -> tuple[dict[str, str], dict[str, tuple]]:
+        """Each season's key (see :func:`sitegen.partitions.season_keys`), and the seasons whose
+        rows are as at a build the cache remembers, with their partitions, added here (their
+        results are all in the cache). Without a cache, none."""
+        from .partitions import season_keys
+
+        if self.cache is None:
+            return {}, {}
+        found_keys = season_keys(data, keys.split_salt(self.version, self.params, by_leader))
+        self.keep_keys(found_keys.values())
+        known = {}
+        for season, key in found_keys.items():
+            found = self.cache.get(key, SeasonSplit)
+            if found is not None and self.add_known(found.partitions):
+                known[season] = found.partitions
+        return found_keys, known
+
+    def remember_splits(self, season_keys: dict[str, str], known: dict[str, tuple],
+                        parts: Sequence[PartitionInput]) -> None:
+        """File how each season not ``known`` was cut (``parts``, just added) under its key."""
+        if self.cache is None:
+            return
+        mine: dict[str, list[tuple[str, str, str]]] = {season: [] for season in season_keys if season not in known}
+        for season, leader, fp in self.added(parts):
+            if season in mine:
+                mine[season].append((season, leader, fp))
+        for season, partitions in mine.items():
+            self.cache.put(season_keys[season], SeasonSplit(partitions=tuple(partitions)))
+
+    def season_memo(self, settings_json: str, card_table):
+        """Season records of a season folder, kept in the cache (see sitegen.load.folder) under
+        keys salted with the settings (one canonical text), the card table and the code; or None."""
+        from .load.folder import SeasonMemo
+
+        if self.cache is None:
+            return None
+        return SeasonMemo(self.cache, keys.record_salt(self.version, settings_json, card_table), self.add_known)
+
     def idle_pool(self) -> ProcessPoolExecutor | None:
         """The local worker pool, for chart checks once every analysis and map is done; None
         without one, or when its workers were forked after this process had used vl-convert."""
@@ -357,9 +397,7 @@ class Analyses:
                 if r.map_sample is None:
                     continue
                 if i not in self._map_key:
-                    h = hashlib.sha256(f"map\0{MAP_FORMAT}\0{r.fingerprint}\0".encode("ascii"))
-                    h.update(self._map_key[previous].encode("ascii") if previous is not None else b"first")
-                    self._map_key[i] = h.hexdigest()
+                    self._map_key[i] = keys.map_key(r.fingerprint, self._map_key[previous] if previous is not None else None)
                     hit = self.cache.get(self._map_key[i], MapLayout) if self.cache is not None else None
                     if hit is not None:
                         self._layouts[i] = hit
@@ -384,7 +422,7 @@ class Analyses:
     @property
     def kept_keys(self) -> set[str]:
         """Every cache key this build used (results and maps): the rest may be pruned."""
-        return set(self._fps) | self._map_keys | self.other_keys
+        return set(self._fps) | self._map_keys | self._other_keys
 
     def _start_map(self, sample, previous):
         if self.scheduler:
@@ -447,11 +485,7 @@ def _fingerprints(parts: Sequence[PartitionInput], params: AnalysisParams, versi
 def _placed_key(result: PartitionResult, layout: MapLayout) -> str:
     """``rows_key`` of a result with a map placed into it: its fingerprint and the map's points
     (a map drawn again from another start may come out the same, and so the same rows)."""
-    if not result.fingerprint:
-        return ""
-    h = hashlib.sha256(f"placed\0{result.fingerprint}\0".encode("ascii"))
-    h.update(np.ascontiguousarray(layout.coords, dtype="<f8"))
-    return h.hexdigest()
+    return keys.placed_key(result.fingerprint, layout.coords) if result.fingerprint else ""
 
 
 def _with_fingerprint(result: PartitionResult, fp: str) -> PartitionResult:

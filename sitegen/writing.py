@@ -36,6 +36,7 @@ from pathlib import Path, PurePosixPath
 from typing import Iterator, Mapping, Sequence
 
 from .errors import BuildBusyError, SitegenError
+from .reuse.digest import file_stat
 
 try:
     import fcntl
@@ -81,11 +82,8 @@ def _entries(folder: Path) -> list[str]:
 
 def _as_recorded(path: Path, recorded: tuple[int, int] | None) -> bool:
     """True when ``path`` is a regular file of the recorded (size, time of change)."""
-    try:
-        st = path.lstat()
-    except OSError:
-        return False
-    return recorded is not None and stat.S_ISREG(st.st_mode) and (st.st_size, st.st_mtime_ns) == tuple(recorded)
+    found = file_stat(path, follow_links=False, regular_only=True)
+    return recorded is not None and found is not None and found == tuple(recorded)
 
 
 def is_own_folder(out: Path) -> bool:

@@ -113,7 +113,7 @@ def test_large_split_equals_pandas_grouping(tmp_path, shuffled):
         cards = cards.sample(frac=1.0, random_state=9).reset_index(drop=True)
     cfg = _write(tmp_path, decks, cards)
     data = load_data(cfg)
-    parts = split(data, cfg)
+    parts = split(data, cfg["analysis.by_leader"])
     merged = _reference_rows(decks, cards).merge(decks, on="deck_id")
     groups = {key: g for key, g in merged.groupby(["season", "leader"], sort=True)}
     assert [(p.season, p.leader) for p in parts] == sorted(groups)

@@ -30,7 +30,7 @@ def loaded(tmp_path_factory):
 
 def _fingerprints(data, cfg) -> dict[tuple[str, str], str]:
     params = AnalysisParams.from_config(cfg)
-    return {(p.season, p.leader): fingerprint(p, params) for p in split(data, cfg)}
+    return {(p.season, p.leader): fingerprint(p, params) for p in split(data, cfg["analysis.by_leader"])}
 
 
 def _changed(before: dict, after: dict) -> set[str]:
@@ -39,9 +39,9 @@ def _changed(before: dict, after: dict) -> set[str]:
 
 def test_split_leaves_out_the_seasons_asked(loaded):
     cfg, data = loaded
-    whole = split(data, cfg)
+    whole = split(data, cfg["analysis.by_leader"])
     assert {p.season for p in whole} == {FIRST, SECOND}
-    rest = split(data, cfg, skip={FIRST})
+    rest = split(data, cfg["analysis.by_leader"], skip={FIRST})
     assert [(p.season, p.leader) for p in rest] == [(p.season, p.leader) for p in whole if p.season == SECOND]
     assert all(a.decks.equals(b.decks) and a.cards.equals(b.cards)
                for a, b in zip(rest, [p for p in whole if p.season == SECOND]))

@@ -310,7 +310,7 @@ def linked_demo(demo_site, repo_root):
 
     cfg = config.load(repo_root / "site.toml")
     data = check_rules(load_data(cfg), cfg)
-    results, _ = analyse_all(split(data, cfg), AnalysisParams.from_config(cfg), Cache(demo_site.parent / "cache"))
+    results, _ = analyse_all(split(data, cfg["analysis.by_leader"]), AnalysisParams.from_config(cfg), Cache(demo_site.parent / "cache"))
     truth = pd.read_csv(repo_root / "demo_data" / "truth.csv", dtype=str).set_index("deck_id")["archetype"]
     planted = json.loads((repo_root / "demo_data" / "truth.json").read_text(encoding="utf-8"))
     seasons = [s["name"] for s in planted["seasons"]]

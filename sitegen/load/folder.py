@@ -19,8 +19,6 @@ same spellings, the same findings in the same order.
 """
 from __future__ import annotations
 
-import hashlib
-import json
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
 from functools import partial
@@ -34,6 +32,7 @@ import pyarrow as pa
 from ..check import RULE_KINDS, check_rules
 from ..errors import ConfigError, DataError, DataErrors
 from ..model import CARD_ROW_COLUMNS, DECK_COLUMNS, DeckData, Finding, SeasonRecord, SeasonSummary
+from ..reuse import keys
 from . import normalise
 from .card_table import checked_card_table
 from .codes import name_rank, text_codes
@@ -46,10 +45,6 @@ from .tables import PARQUET_SUFFIXES, Table, count_values, read_table
 if TYPE_CHECKING:
     from ..cache import Cache
 
-#: Bumped when what a season record holds, or how its key is made, changes.
-RECORD_FORMAT = 1
-#: Bumped when what a first-pass summary holds, or how its key is made, changes.
-SUMMARY_FORMAT = 1
 
 
 @dataclass(frozen=True)
@@ -230,15 +225,7 @@ class SeasonMemo:
     _last_key: str = ""
 
     def key_of(self, files: SeasonFiles, spellings: normalise.Spellings) -> str:
-        h = hashlib.sha256(f"season-record\0{RECORD_FORMAT}\0{self.salt}\0".encode())
-        for path in (files.decks, files.cards):
-            try:
-                st = path.stat()
-                h.update(f"{path}|{st.st_size}|{st.st_mtime_ns}\n".encode())
-            except OSError:
-                h.update(f"{path}|missing\n".encode())
-        h.update(json.dumps([sorted(spellings.cards.items()), sorted(spellings.leaders.items())]).encode())
-        key = h.hexdigest()
+        key = keys.season_record_key(self.salt, (files.decks, files.cards), (spellings.cards, spellings.leaders))
         self.keys.add(key)
         self._last_key = key
         return key
@@ -282,25 +269,15 @@ class SummaryMemo:
     def for_columns(cls, cache: Cache, deck_columns: tuple[dict[str, str], dict[str, str]],
                     card_columns: dict[str, str]) -> SummaryMemo:
         """A memo for a folder read with these column names."""
-        h = hashlib.sha256(f"season-summary\0{SUMMARY_FORMAT}\0".encode())
-        h.update(json.dumps([deck_columns[0], deck_columns[1], card_columns], sort_keys=True).encode())
         # Another pandas or pyarrow may hash ids or read files otherwise: old summaries are not trusted then.
-        h.update(f"{pd.__version__}|{pa.__version__}|{np.__version__}\n".encode())
-        for path in sorted(Path(__file__).resolve().parent.glob("*.py")):
-            h.update(path.name.encode() + b"\0" + path.read_bytes())
-        return cls(cache, h.hexdigest())
+        return cls(cache, keys.summary_salt([deck_columns[0], deck_columns[1], card_columns],
+                                            f"{pd.__version__}|{pa.__version__}|{np.__version__}"))
 
     def key_of(self, files: SeasonFiles) -> str | None:
         """The season's key, or None when a file cannot be looked at (its read will say why)."""
-        h = hashlib.sha256(self.salt.encode())
-        for path in (files.decks, files.cards):
-            try:
-                st = path.stat()
-            except OSError:
-                return None
-            h.update(f"{path}|{st.st_size}|{st.st_mtime_ns}\n".encode())
-        key = h.hexdigest()
-        self.keys.add(key)
+        key = keys.season_summary_key(self.salt, (files.decks, files.cards))
+        if key is not None:
+            self.keys.add(key)
         return key
 
     def get(self, key: str) -> SeasonSummary | None:

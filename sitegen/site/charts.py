@@ -262,16 +262,14 @@ def check_salt(code_salt: str) -> str:
     (``code_salt``), the schema file and the vl-convert release that compiles."""
     from importlib.metadata import PackageNotFoundError, version
 
+    from ..reuse.digest import file_stamp
+
     path, schema_version = _schema_file()
     try:
         compiler = version("vl-convert-python")
     except PackageNotFoundError:  # pragma: no cover - a dependency
         compiler = "?"
-    try:
-        st = path.stat()
-        where = f"{path}\0{st.st_size}\0{st.st_mtime_ns}"
-    except OSError:
-        where = str(path)
+    where = file_stamp(path) or str(path)
     text = f"chart-checks\0{code_salt}\0{where}\0{schema_version}\0{compiler}"
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
 

@@ -28,7 +28,7 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from ..cache import column_bytes
+from ..reuse.digest import feed_column
 from ..model import ALL_LEADERS, OTHER_KEY, Archetype, DeckData, PartitionResult
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -522,15 +522,6 @@ class ExportBlocks:
         return self.old_csv[a:b], json_rows
 
 
-def _feed(h, column: pd.Series) -> None:
-    """A column's values into the digest ``h``, by value whatever their dtype (the bytes partition
-    fingerprints digest, :func:`sitegen.cache.column_bytes`), each piece length-prefixed."""
-    for piece in column_bytes(column):
-        view = memoryview(piece).cast("B")
-        h.update(f"{view.nbytes}:".encode("ascii"))
-        h.update(view)
-
-
 def _block_key(season: str, rows: np.ndarray, decks: pd.DataFrame, results: Sequence[PartitionResult],
                page_slugs: dict[tuple[str, str, str], str], left_out: list[tuple[str, str]]) -> str:
     """A digest of everything one season's block of rows is made from.
@@ -547,10 +538,10 @@ def _block_key(season: str, rows: np.ndarray, decks: pd.DataFrame, results: Sequ
         h.update(b"by-origin\0" + json.dumps(left_out, ensure_ascii=True).encode("ascii"))
     else:
         for column in ("deck_id", "leader"):
-            _feed(h, decks[column].iloc[rows])
+            feed_column(h, column, decks[column].iloc[rows])
     for column in _COUNT_COLUMNS:  # the decks left out are in no fingerprint: their results are digested here
         if column in decks.columns:
-            _feed(h, decks[column].iloc[rows])
+            feed_column(h, column, decks[column].iloc[rows])
     for r in results:
         h.update(f"\0{r.leader}\0{r.fingerprint}\0".encode())
         h.update(json.dumps(sorted(_slug_of(r, page_slugs).items())).encode())
@@ -558,7 +549,7 @@ def _block_key(season: str, rows: np.ndarray, decks: pd.DataFrame, results: Sequ
             h.update(f"\0{r.rows_key}\0".encode())
         elif r.assignments is not None and len(r.assignments):
             for column in ("deck_id", "archetype", "distance", "x", "y"):
-                _feed(h, r.assignments[column])
+                feed_column(h, column, r.assignments[column])
     return h.hexdigest()
 
 

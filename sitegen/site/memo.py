@@ -9,35 +9,20 @@ changed finds most contexts equal, and takes those pages' bytes from the
 output folder instead of rendering them again, provided the file is as the
 last build left it (same size and time of last change).
 
-``salt`` covers what is not in a context: every template file and every
-sitegen source file, by content. A context that pickles differently but
+``salt`` (:func:`sitegen.reuse.keys.render_salt`) covers what is not in a
+context: every template file and the code that renders, by content. A context that pickles differently but
 renders alike (a set in another order, say) only costs a render; nothing
 here can make a page differ from a fresh render.
 """
 from __future__ import annotations
 
-import hashlib
 import pickle
-from collections.abc import Iterable, Mapping
+from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
-from .. import __version__
-
-#: Bumped when how a page's key is made changes.
-MEMO_FORMAT = 1
-
-
-def render_salt(template_dirs: Iterable[Path]) -> str:
-    """A digest of every template file and of sitegen's own code: what renders a context."""
-    h = hashlib.sha256(f"pages\0{MEMO_FORMAT}\0{__version__}\0".encode())
-    package = Path(__file__).resolve().parent.parent
-    for root in [*template_dirs, package]:
-        root = Path(root)
-        h.update(f"\0{root}\0".encode())
-        for path in sorted(p for p in root.rglob("*") if p.is_file() and p.suffix != ".pyc"):
-            h.update(path.relative_to(root).as_posix().encode() + b"\0" + path.read_bytes() + b"\0")
-    return h.hexdigest()
+from ..reuse.digest import file_stat
+from ..reuse.keys import page_key
 
 
 class PageMemo:
@@ -66,10 +51,7 @@ class PageMemo:
             body = pickle.dumps(dict(context), protocol=5)
         except (pickle.PicklingError, TypeError, AttributeError):
             return None
-        h = hashlib.sha256(self.salt.encode())
-        h.update(template.encode("utf-8") + b"\0")
-        h.update(body)
-        key = h.hexdigest()
+        key = page_key(self.salt, template, body)
         self.keys[path] = key
         return key
 
@@ -79,14 +61,14 @@ class PageMemo:
         if key is None or self.folder is None or self.previous.get(path) != key or path not in self.listing:
             return None
         file = self.folder / path
+        found = file_stat(file)
+        if found is None or found != tuple(self.listing[path]):
+            return None
         try:
-            st = file.stat()
-            if (st.st_size, st.st_mtime_ns) != self.listing[path]:
-                return None
             body = file.read_bytes()
         except OSError:
             return None
-        if len(body) != st.st_size:
+        if len(body) != found[0]:
             return None
         self.reused += 1
         return body

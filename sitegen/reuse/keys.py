@@ -1,0 +1,322 @@
+"""Every key and salt a build files its reusable work under, made in this one place.
+
+A *key* names one piece of reusable work (a partition's analysis, a map, a
+season's split, record or summary, a page, an export block); a *salt* is
+what a kind of key depends on besides its own inputs: settings, and the
+code that makes the work. Each code salt names the modules it depends on by
+import (:data:`CODE_ROOTS`), and the files hashed are found from the import
+graph (:func:`sitegen.reuse.digest.code_digest`): code moved to another
+module, or a module renamed, changes the salt and never leaves a stale
+entry in use.
+
+Kinds of key, and where they are filed:
+
+============== ==================================== ======================================
+kind           digest of                            kept in
+============== ==================================== ======================================
+partition      rows, card types, settings, code     the cache (:func:`fingerprint`)
+map            partition key, previous map's key    the cache (:func:`map_key`)
+season split   a season's rows (partitions.py)      the cache (salt: :func:`split_salt`)
+season record  a season's files (stamps), spellings the cache (:func:`season_record_key`)
+season summary a season's files (stamps), columns   the cache (:func:`season_summary_key`)
+page           template name and page context       last-build.json (:func:`page_key`)
+export block   a season's assignments rows          last-build.json (site/exports.py)
+chart checks   schema, compiler, render salt        last-build.json (site/charts.py)
+no-op stamp    names, sizes, times of every input   last-build.json (:func:`input_stamp`)
+============== ==================================== ======================================
+"""
+from __future__ import annotations
+
+import dataclasses
+import hashlib
+import json
+import os
+from collections.abc import Iterable, Sequence
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import pyarrow.compute as pc
+
+from .. import __version__
+from ..model import CARD_ROW_COLUMNS, DECK_COLUMNS, PartitionInput, in_row_order
+from .digest import (code_digest, column_bytes, column_order, feed_labelled, file_stamp, files_under,
+                     narrowest_bytes, row_digests, text_array)
+
+#: Each kind of reusable work and the root modules whose code (with every sitegen module they
+#: import, at any depth) it depends on. A module moved or renamed changes only these names.
+CODE_ROOTS: dict[str, tuple[str, ...]] = {
+    # A partition's analysis and its map (runner.analyse_partition/draw_map), and its key (below).
+    "analysis": ("sitegen.analysis.partition", "sitegen.reuse.keys"),
+    # Cutting a season into partitions.
+    "split": ("sitegen.partitions",),
+    # A season of a season folder: read, checked and cut.
+    "season-record": ("sitegen.load", "sitegen.load.folder", "sitegen.check", "sitegen.partitions"),
+    # The first pass over a season folder.
+    "season-summary": ("sitegen.load.folder",),
+    # What turns a page's context into its bytes (the templates are salted beside it).
+    "pages": ("sitegen.site.render",),
+}
+
+#: Bumped when the partition key's layout changes (it is also the cache entry format's).
+FINGERPRINT_FORMAT = 1
+#: Bumped when the way maps are drawn changes in a way the analysis code digest does not see.
+MAP_FORMAT = 1
+#: Bumped when how a page's key is made changes.
+PAGE_FORMAT = 1
+#: Bumped when what makes a season record's key changes (or what a record holds).
+RECORD_FORMAT = 1
+#: Bumped when what makes a season summary's key changes (or what a summary holds).
+SUMMARY_FORMAT = 1
+
+
+def code_salt(kind: str) -> str:
+    """The digest of the code ``kind`` of work depends on (see :data:`CODE_ROOTS`)."""
+    return code_digest(CODE_ROOTS[kind])
+
+
+# -- partitions and maps -----------------------------------------------------------------------
+
+
+def analysis_version() -> str:
+    """The tool's version plus a digest of the analysis code, so a cached result made by
+    other code (even under the same version number) is never reused."""
+    return f"{__version__}+{code_salt('analysis')[:12]}"
+
+
+def fingerprint(part: PartitionInput, params: Any, version: str = __version__) -> str:
+    """A sha256 hex digest of a partition's rows, the analysis settings and the tool version.
+
+    The same rows in any order give the same digest; changing any value of
+    any deck or card row, any setting, a card's type or the version gives
+    another one. Text counts by its value, whatever its dtype (object,
+    string or category), and so do whole numbers.
+
+    The rows are digested in a canonical form (decks by id; card rows by
+    deck, then card, as numbers into the sorted distinct ids and names),
+    which the partitions a build cuts already have, so their bytes are
+    hashed as they lie: at a million decks, a tenth of the time of hashing
+    each row on its own and sorting the hashes. Rows with no such form (a
+    deck id twice, a missing id or name) are digested row by row instead.
+    """
+    h = hashlib.sha256()
+
+    def feed(label: str, data: bytes | list) -> None:
+        feed_labelled(h, label, data)
+
+    feed("format", str(FINGERPRINT_FORMAT).encode("ascii"))
+    feed("rows", b"canonical-1")  # how rows are digested (below)
+    feed("version", version.encode("utf-8"))
+    feed("season", str(part.season).encode("utf-8"))
+    feed("leader", str(part.leader).encode("utf-8"))
+    for label, frame, first, canonical in (("decks", part.decks, DECK_COLUMNS, _canonical_decks),
+                                           ("cards", part.cards, CARD_ROW_COLUMNS, _canonical_cards)):
+        pieces = canonical(frame)
+        if pieces is None:
+            columns, digests = row_digests(frame, first)
+            pieces = [("rows-digested", [digests.astype("<u8", copy=False)])]
+        else:
+            columns = column_order(frame, first)
+        feed(label + "-columns", json.dumps(columns).encode("utf-8"))
+        for name, data in pieces:
+            feed(f"{label}-{name}", data)
+    feed("card-types", json.dumps(sorted((str(k), str(v)) for k, v in part.card_types.items())).encode("utf-8"))
+    feed("settings", settings_text(params).encode("utf-8"))
+    return h.hexdigest()
+
+
+def settings_text(params: Any) -> str:
+    """A canonical text of settings (any frozen dataclass, dict or None)."""
+    if params is None:
+        body: Any = None
+    elif dataclasses.is_dataclass(params) and not isinstance(params, type):
+        body = {"type": f"{type(params).__module__}.{type(params).__qualname__}", "fields": dataclasses.asdict(params)}
+    elif isinstance(params, dict):
+        body = params
+    else:
+        body = repr(params)
+    return json.dumps(body, sort_keys=True, default=_json_fallback, ensure_ascii=True, separators=(",", ":"))
+
+
+def _json_fallback(value: Any) -> Any:
+    # Sets have no order; tuples and paths have an unambiguous text.
+    if isinstance(value, (set, frozenset)):
+        return sorted(map(repr, value))
+    return repr(value)
+
+
+def _canonical_decks(frame: pd.DataFrame) -> list[tuple[str, list]] | None:
+    """A deck table's bytes, rows by deck id; None when an id is missing or repeated."""
+    if "deck_id" not in frame.columns:
+        return None
+    ids = text_array(frame["deck_id"])
+    if ids is None or ids.null_count:
+        return None
+    if len(ids) > 1 and not pc.all(pc.greater(ids[1:], ids[:-1])).as_py():
+        order = pc.sort_indices(ids)
+        in_order = ids.take(order)
+        if pc.any(pc.equal(in_order[1:], in_order[:-1])).as_py():
+            return None
+        frame = frame.iloc[order.to_numpy()]
+    return [(f"column-{c}", column_bytes(frame[c])) for c in column_order(frame, DECK_COLUMNS)]
+
+
+def _canonical_cards(frame: pd.DataFrame) -> list[tuple[str, list]] | None:
+    """Card rows' bytes: the sorted distinct deck ids and card names, then per row the two
+    positions among them and the other columns, rows in that order; None when a deck id or
+    card name is missing or a (deck, card) pair repeats."""
+    if "deck_id" not in frame.columns or "card" not in frame.columns:
+        return None
+    decks, cards = _sorted_codes(frame["deck_id"]), _sorted_codes(frame["card"])
+    if decks is None or cards is None:
+        return None
+    (deck_codes, deck_names), (card_codes, card_names) = decks, cards
+    if in_row_order(deck_codes, card_codes):
+        order = None
+    else:
+        order = np.lexsort((card_codes, deck_codes))
+        deck_codes, card_codes = deck_codes[order], card_codes[order]
+        if not in_row_order(deck_codes, card_codes):
+            return None  # a (deck, card) pair twice
+    pieces = [("deck-ids", column_bytes(pd.Series(deck_names, dtype="str"))),
+              ("card-names", column_bytes(pd.Series(card_names, dtype="str"))),
+              ("deck-at", narrowest_bytes(deck_codes)), ("card-at", narrowest_bytes(card_codes))]
+    for c in column_order(frame, CARD_ROW_COLUMNS):
+        if c not in ("deck_id", "card"):
+            column = frame[c] if order is None else frame[c].iloc[order]
+            pieces.append((f"column-{c}", column_bytes(column)))
+    return pieces
+
+
+def _sorted_codes(column: pd.Series) -> tuple[np.ndarray, pd.Index] | None:
+    """Each value's position among the column's distinct values sorted (code point order);
+    None when a value is missing. A categorical whose categories are exactly that (a
+    partition cut by a build) needs no work."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        codes = np.asarray(column.array.codes)
+        if codes.size and codes.min() < 0:
+            return None
+        categories = column.cat.categories
+        used = np.zeros(len(categories), dtype=bool)
+        used[codes] = True
+        if used.all() and categories.is_monotonic_increasing:
+            return codes, categories
+    if column.isna().any():
+        return None
+    codes, uniques = pd.factorize(column.astype("str"), sort=True)
+    return codes, pd.Index(uniques, dtype="str")
+
+
+def map_key(partition_key: str, previous_map_key: str | None) -> str:
+    """A map's key: its partition's key and the key of the map it started from (or none)."""
+    h = hashlib.sha256(f"map\0{MAP_FORMAT}\0{partition_key}\0".encode("ascii"))
+    h.update(previous_map_key.encode("ascii") if previous_map_key is not None else b"first")
+    return h.hexdigest()
+
+
+def placed_key(partition_key: str, coords: np.ndarray) -> str:
+    """The rows key of a result with a map placed into it: its partition key and the map's
+    points (a map drawn again from another start may come out the same, and so the same rows)."""
+    h = hashlib.sha256(f"placed\0{partition_key}\0".encode("ascii"))
+    h.update(np.ascontiguousarray(coords, dtype="<f8"))
+    return h.hexdigest()
+
+
+# -- seasons --------------------------------------------------------------------------------
+
+
+def split_salt(analysis_version: str, params: Any, by_leader: bool) -> str:
+    """What cutting a season into partitions and their keys depend on besides its rows
+    (which :func:`sitegen.partitions.season_keys` digests): the analysis settings and code, and
+    the splitting code. Not the data's file names or times: a copy of the same rows elsewhere
+    is still the same season."""
+    h = hashlib.sha256(f"split\0{analysis_version}\0{params!r}\0{by_leader}\0".encode())
+    h.update(code_salt("split").encode("ascii"))
+    return h.hexdigest()
+
+
+def record_salt(analysis_version: str, settings_json: str, card_table: Path | None) -> str:
+    """What a season record depends on besides its own files: settings, the card table,
+    and the code that reads, checks and splits (the analysis code is in ``analysis_version``)."""
+    h = hashlib.sha256(analysis_version.encode())
+    h.update(settings_json.encode())
+    if card_table is not None and card_table.is_file():
+        h.update((file_stamp(card_table) or str(card_table)).encode())
+    h.update(code_salt("season-record").encode("ascii"))
+    return h.hexdigest()
+
+
+def season_record_key(salt: str, files: Sequence[Path], spellings: tuple[dict, dict]) -> str:
+    """A season record's key: the season's files (name, size, time of change), the spellings
+    decided over the whole folder (cards, leaders) and :func:`record_salt`."""
+    h = hashlib.sha256(f"season-record\0{RECORD_FORMAT}\0{salt}\0".encode())
+    for path in files:
+        h.update(f"{file_stamp(path) or f'{path}|missing'}\n".encode())
+    h.update(json.dumps([sorted(spellings[0].items()), sorted(spellings[1].items())]).encode())
+    return h.hexdigest()
+
+
+def summary_salt(columns: Any, library_versions: str) -> str:
+    """What a season summary depends on besides its files: the column names read from them,
+    the loading code and the libraries that read and hash them."""
+    h = hashlib.sha256(f"season-summary\0{SUMMARY_FORMAT}\0".encode())
+    h.update(json.dumps(columns, sort_keys=True).encode())
+    h.update(f"{library_versions}\n".encode())
+    h.update(code_salt("season-summary").encode("ascii"))
+    return h.hexdigest()
+
+
+def season_summary_key(salt: str, files: Sequence[Path]) -> str | None:
+    """A season summary's key: its files (name, size, time of change) and :func:`summary_salt`;
+    None when a file cannot be looked at."""
+    h = hashlib.sha256(salt.encode())
+    for path in files:
+        stamp = file_stamp(path)
+        if stamp is None:
+            return None
+        h.update(f"{stamp}\n".encode())
+    return h.hexdigest()
+
+
+# -- pages, and the last build --------------------------------------------------------------
+
+
+def render_salt(template_dirs: Iterable[Path]) -> str:
+    """A digest of every template file and of the code that renders a page's context."""
+    h = hashlib.sha256(f"pages\0{PAGE_FORMAT}\0{__version__}\0".encode())
+    for root in template_dirs:
+        root = Path(root)
+        h.update(f"\0{root}\0".encode())
+        for path in sorted(p for p in root.rglob("*") if p.is_file() and p.suffix != ".pyc"):
+            h.update(path.relative_to(root).as_posix().encode() + b"\0" + path.read_bytes() + b"\0")
+    h.update(b"\0code\0" + code_salt("pages").encode("ascii"))
+    return h.hexdigest()
+
+
+def page_key(salt: str, template: str, context_pickle: bytes) -> str:
+    """A page's key: the render salt, its template's name and its context (pickled)."""
+    h = hashlib.sha256(salt.encode())
+    h.update(template.encode("utf-8") + b"\0")
+    h.update(context_pickle)
+    return h.hexdigest()
+
+
+def input_stamp(settings_json: str, out: Path, roots: Iterable[Path | None]) -> str:
+    """A digest of everything a build reads: settings, the names, sizes and times of the files
+    under ``roots`` (data, notes, templates and sitegen's own program files). Equal stamps mean
+    the same site."""
+    h = hashlib.sha256()
+    h.update(__version__.encode())
+    h.update(settings_json.encode())
+    h.update(str(out).encode())
+    h.update(os.environ.get("SOURCE_DATE_EPOCH", "").encode())
+    for root in roots:
+        if root is None:
+            continue
+        h.update(f"\0{root}".encode())
+        for f in files_under(root):
+            if f.suffix == ".pyc":
+                continue
+            h.update(f"{file_stamp(f)}\n".encode())
+    return h.hexdigest()
