@@ -173,7 +173,7 @@ def build(
         from .cache import Cache
         from .load import load_data, open_season_folder
         from .runner import Analyses
-        from .site.charts import checked_by
+        from .site.charts import ChartChecks
         from .site.classify import relabelling
         from .site.notes import load_notes
         from .site.render import SiteInput, render_site
@@ -215,14 +215,15 @@ def build(
             last = _last_build(cache_dir)
             blocks = _previous_blocks(last, out) if cache_dir is not None else None
             pages = _previous_pages(last, out, templates_dirs(cfg)) if cache_dir is not None else None
-            check_salt = _trust_chart_checks(last, pages.salt) if pages is not None else None
+            checks = ChartChecks()  # this build's chart checks
+            check_salt = _trust_chart_checks(last, pages.salt, checks) if pages is not None else None
             # The workers are idle while pages render: they check the charts meanwhile.
-            with progress.stage("rendering pages"), checked_by(runs.idle_pool()):
+            with progress.stage("rendering pages"), checks.sent_to(runs.idle_pool()):
                 files, render_findings = render_site(SiteInput(
                     cfg=cfg, data=data, results=tuple(linked), history=history, notes=notes,
                     findings=data.findings, templates_dirs=templates_dirs(cfg), trends=trends,
                     export_blocks=blocks, page_memo=pages, matchups=heads,
-                    relabelled=relabelling(before_overrides, linked),
+                    relabelled=relabelling(before_overrides, linked), chart_checks=checks,
                 ))
                 if pages is not None and pages.reused:
                     progress.say(f"  {pages.reused:,} page(s) unchanged, taken from the last build")
@@ -245,7 +246,8 @@ def build(
             copied_blocks=blocks.reused if blocks is not None else 0,
             reused_pages=pages.reused if pages is not None else 0,
         )
-        _write_stamp(cache_dir, stamp, report, blocks.new_index if blocks is not None else [], pages, check_salt)
+        _write_stamp(cache_dir, stamp, report, blocks.new_index if blocks is not None else [], pages, check_salt,
+                     checks)
     return report
 
 
@@ -471,27 +473,25 @@ def _previous_pages(record: dict | None, out: Path, template_dirs: tuple[Path, .
         return PageMemo(salt)
 
 
-def _trust_chart_checks(record: dict | None, code_salt: str) -> str:
+def _trust_chart_checks(record: dict | None, code_salt: str, checks) -> str:
     """Count the charts the last build checked as checked, when what a check depends on is
     unchanged (site/charts.py :func:`check_salt`); the salt, to keep with this build's."""
-    from .site.charts import check_salt, trust_checks
+    from .site.charts import check_salt
 
     salt = check_salt(code_salt)
     kept = record.get("charts") if record else None
     if isinstance(kept, dict) and kept.get("salt") == salt:
-        trust_checks(kept.get("passed"))
+        checks.trust(kept.get("passed"))
     return salt
 
 
 def _write_stamp(cache_dir: Path | None, stamp: str, report: BuildReport, blocks: list, pages=None,
-                 check_salt: str | None = None) -> None:
+                 check_salt: str | None = None, checks=None) -> None:
     if cache_dir is None:
         return
-    from .site.charts import passed_checks
-
     record = {"stamp": stamp, "output": _output_listing(report.output), "export_blocks": blocks,
               "pages": {"salt": pages.salt, "keys": pages.keys} if pages is not None else None,
-              "charts": {"salt": check_salt, "passed": passed_checks()} if check_salt is not None else None, "report": {
+              "charts": {"salt": check_salt, "passed": checks.passed()} if check_salt is not None else None, "report": {
         "decks": report.decks, "seasons": report.seasons, "leaders": report.leaders,
         "archetypes": report.archetypes, "partitions": report.partitions,
         "partition_keys": [list(k) for k in report.run.analysed + report.run.cached],

@@ -23,6 +23,7 @@ from pathlib import Path
 from typing import Any
 
 from .. import __version__
+from .keys import key_bytes
 
 #: Bumped when how a page's key is made changes.
 MEMO_FORMAT = 1
@@ -63,7 +64,7 @@ class PageMemo:
     def key(self, path: str, template: str, context: Mapping[str, Any]) -> str | None:
         """The page's key (recorded for the next build), or None when its context cannot be pickled."""
         try:
-            body = pickle.dumps(dict(context), protocol=5)
+            body = key_bytes(dict(context))  # a LazyChart stands by its key text (site/keys.py)
         except (pickle.PicklingError, TypeError, AttributeError):
             return None
         h = hashlib.sha256(self.salt.encode())
