@@ -198,13 +198,14 @@ def input_key(kind: Callable[..., Chart], inputs: dict[str, Any]) -> str:
 
     Pickled without pickle's memo (so values shared by reference or copied write alike); a
     :class:`~sitegen.model.PartitionResult` with a ``rows_key`` stands by that key for its two row
-    tables (assignments and map points), which it names.
+    tables (assignments and map points) and the sample its map was drawn from, which it names.
     """
     from ..model import PartitionResult
 
     def plain(value: Any) -> Any:
         if isinstance(value, PartitionResult) and value.rows_key:
-            return ("rows", value.rows_key, dataclasses.replace(value, assignments=None, map_points=None))
+            return ("rows", value.rows_key,
+                    dataclasses.replace(value, assignments=None, map_points=None, map_sample=None))
         return value
 
     buf = io.BytesIO()
