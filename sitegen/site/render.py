@@ -58,7 +58,6 @@ def _key_rank(a: Archetype) -> tuple[int, str]:
     return (int(digits), a.key) if digits.isdigit() else (1 << 30, a.key)
 
 
-
 @dataclass(frozen=True)
 class SiteInput:
     """Everything the pages are made from.
