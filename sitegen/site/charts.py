@@ -473,6 +473,11 @@ def _pct(value: float | None) -> str:
 
 
 # The chart kinds live in chart_kinds.py; they are read from here too (charts.map_chart, ...).
-from .chart_kinds import (  # noqa: E402,F401
-    bar_share_chart, latest_share_order, map_chart, matchup_chart, share_chart, winrate_chart,
-)
+from . import chart_kinds as _kinds  # noqa: E402
+
+bar_share_chart = _kinds.bar_share_chart
+latest_share_order = _kinds.latest_share_order
+map_chart = _kinds.map_chart
+matchup_chart = _kinds.matchup_chart
+share_chart = _kinds.share_chart
+winrate_chart = _kinds.winrate_chart

@@ -33,12 +33,10 @@ from .notes import Notes, orphan_findings
 # cosine and win_rate are also read from here (tests, the page parts mixed into Renderer)
 from .lookup import SiteLookup, _data_url, _rel_root, cosine, win_rate  # noqa: F401
 from .render_identity import IdentityPages
-# isolate, other_reason and tier_words are also read from here (tests, the page parts mixed into Renderer)
-from .templating import (_context, _template_place, firmness_words, isolate,  # noqa: F401
-                         make_environment, other_reason, tier_words)
+# tier_words is also read from here (the page parts mixed into Renderer)
+from .templating import _context, _template_place, firmness_words, make_environment, tier_words
 from .render_questions import QuestionPages
-# SEASON_MAP_POINTS is also read from here (tests)
-from .render_season import SEASON_MAP_POINTS, SeasonPages  # noqa: F401
+from .render_season import SeasonPages
 from .search import RANKS, SearchEntry, search_files
 from .settings import SiteSettings
 from .sitemap import sitemap_files
