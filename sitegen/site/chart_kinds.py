@@ -1,8 +1,9 @@
 """The kinds of chart the pages show: map, share and win-rate trends, share bars, head-to-head heat map.
 
 Each builds a Vega-Lite spec as a Python dict and hands it to :func:`sitegen.site.charts._finish`, which makes
-the :class:`~sitegen.site.charts.Chart` (caption, table alternative, checks). :mod:`sitegen.site.charts` holds
-that machinery and the archetypes' looks, and re-exports every function here.
+the :class:`~sitegen.site.charts.Chart` (caption, table alternative, checks). Each takes ``checks``, the
+build's :class:`~sitegen.site.charts.ChartChecks` (None: the spec is checked at once by a fresh one).
+:mod:`sitegen.site.charts` holds that machinery and the archetypes' looks, and re-exports every function here.
 """
 from __future__ import annotations
 
