@@ -67,7 +67,7 @@ def build(
         from .cache import Cache
         from .load import load_data, open_season_folder
         from .runner import Analyses
-        from .site.charts import checked_by
+        from .site.charts import ChartChecks
         from .site.classify import relabelling
         from .site.notes import load_notes
         from .site.render import SiteInput, render_site
@@ -105,14 +105,15 @@ def build(
             heads = stages.matchups(matches, data, linked)
             blocks = last.export_blocks(out)
             pages = last.page_memo(out, settings.templates_dirs)
-            check_salt = last.trust_chart_checks(pages)
+            checks = ChartChecks()  # this build's chart checks
+            check_salt = last.trust_chart_checks(pages, checks)
             # The workers are idle while pages render: they check the charts meanwhile.
-            with progress.stage("rendering pages"), checked_by(runs.idle_pool()):
+            with progress.stage("rendering pages"), checks.sent_to(runs.idle_pool()):
                 files, render_findings = render_site(SiteInput(
                     cfg=cfg, data=data, results=tuple(linked), history=history, notes=notes,
                     findings=data.findings, templates_dirs=settings.templates_dirs, trends=trends,
                     export_blocks=blocks, page_memo=pages, matchups=heads,
-                    relabelled=relabelling(before_overrides, linked),
+                    relabelled=relabelling(before_overrides, linked), chart_checks=checks,
                 ))
                 if pages is not None and pages.reused:
                     progress.say(f"  {pages.reused:,} page(s) unchanged, taken from the last build")
@@ -128,5 +129,5 @@ def build(
             copied_blocks=blocks.reused if blocks is not None else 0,
             reused_pages=pages.reused if pages is not None else 0,
         )
-        last.write(stamp, out, report.to_record(), blocks, pages, check_salt)
+        last.write(stamp, out, report.to_record(), blocks, pages, check_salt, checks)
     return report

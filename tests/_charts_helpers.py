@@ -92,7 +92,6 @@ def all_charts() -> list[charts.Chart]:
     names = {"a1": MARKUP_NAME}
     return [
         charts.map_chart(result, names, "map"),
-        charts.silhouette_chart(result, "silhouette"),
         charts.share_chart(share_rows(), "share", "Vessa"),
         charts.winrate_chart(winrate_rows(), "winrate"),
         charts.bar_share_chart(bar_rows(), "bars"),

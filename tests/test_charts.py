@@ -116,18 +116,32 @@ def test_checks_sent_to_other_processes_refuse_the_same_specs():
     good = {"mark": "point", "data": {"values": [{"a": 1}]}, "encoding": {"x": {"field": "a", "type": "quantitative"}}}
     bad = {"mark": "pointy", "data": {"values": [{"a": 2}]}}
     # Spawned, not forked: this test process has used vl-convert already (the build forks before it does).
+    checks = charts.ChartChecks()
     with ProcessPoolExecutor(max_workers=2, mp_context=multiprocessing.get_context("spawn")) as pool:
-        with charts.checked_by(pool):
-            charts.validate_spec(good, "fine")
+        with checks.sent_to(pool):
+            checks.check(good, "fine")
+        assert checks.started == 1 and len(checks.passed()) == 1
         reached = []
         with pytest.raises(RenderError, match=r"chart 'elsewhere'.*at mark \(schema path .*mark.*\)"):
-            with charts.checked_by(pool):
-                charts.validate_spec(good, "fine")
-                charts.validate_spec(bad, "elsewhere")
+            with checks.sent_to(pool):
+                checks.check(good, "fine")  # passed already: not sent again
+                checks.check(bad, "elsewhere")
                 reached.append(True)  # no error yet: the check runs in the pool
-        assert reached
+        assert reached and checks.started == 2 and len(checks.passed()) == 1
     with pytest.raises(RenderError, match=r"chart 'here'.*at mark"):
-        charts.validate_spec(bad, "here")  # outside the block: checked at once, and still refused
+        checks.check(bad, "here")  # outside the block: checked at once, and still refused
+
+
+def test_two_builds_in_one_process_share_no_chart_checks():
+    # Each build has its own ChartChecks: what one checked or trusted, another knows nothing of.
+    good = {"mark": "point", "data": {"values": [{"a": 1}]}, "encoding": {"x": {"field": "a", "type": "quantitative"}}}
+    first, second = charts.ChartChecks(), charts.ChartChecks()
+    charts.map_chart(partition(), {}, "m", checks=first)
+    first.check(good, "fine")
+    assert first.started == 2 and len(first.passed()) == 2
+    assert second.started == 0 and second.passed() == []
+    second.check(good, "fine")
+    assert second.started == 1 and first.started == 2
 
 
 def test_nan_in_spec_is_refused():
@@ -139,7 +153,7 @@ def test_nan_in_spec_is_refused():
 def test_unsafe_chart_id_is_refused():
     # The id becomes an HTML id and part of another; quotes or spaces would break the page.
     with pytest.raises(RenderError, match=r"chart id 'a b\"' is not a safe HTML id"):
-        charts.silhouette_chart(partition(), 'a b"')
+        charts.map_chart(partition(), {}, 'a b"')
 
 
 def test_charts_carry_caption_and_alt_table(built):
@@ -209,27 +223,6 @@ def test_map_is_drawn_with_every_point():
     # the map's marks carry no ARIA labels (aria: false), so its symbols are counted in its mark group
     group = re.search(r'<g class="mark-symbol role-mark[^"]*"[^>]*>(.*?)</g>', svg, re.S)
     assert group and len(re.findall(r"<path ", group.group(1))) == 220
-
-
-def test_silhouette_marks_chosen_k():
-    # Planted: k = 10 chosen; the table and the rule both name it.
-    result = partition()
-    chart = charts.silhouette_chart(result, "s")
-    assert [r for r in chart.rows if r[2] == "chosen"] == [(10, "0.250", "chosen")]
-    rules = [layer for layer in chart.spec["layer"] if layer["mark"]["type"] == "rule"]
-    assert rules and rules[0]["data"]["values"] == [{"k": 10, "label": "chosen"}]
-    assert result.k_reason in chart.caption
-    vega = json.dumps(vl_convert.vegalite_to_vega(chart.spec, vl_version=charts.vl_version()))
-    assert '"chosen"' in vega
-
-
-def test_silhouette_without_curve_still_valid():
-    # A partition whose k was pinned may have no curve: the chart says so.
-    result = partition()
-    result = type(result)(**{**result.__dict__, "silhouette": (), "k_reason": "k pinned to 3."})
-    chart = charts.silhouette_chart(result, "s")
-    assert chart.rows == ()
-    assert chart.caption == "No silhouette curve was computed for this partition. k pinned to 3."
 
 
 def test_share_keeps_season_order():
@@ -415,22 +408,33 @@ def test_schema_found_without_importing_altair_is_altairs_own():
     assert charts.schema_url() == altair.SCHEMA_URL
 
 
-def test_a_lazy_chart_is_made_once_when_read_and_pickles_as_its_key():
-    # Planted: a page memo key (site/memo.py) pickles the context; a lazy chart must stand there for
-    # its key alone, and be made at most once, only when a page reads it.
+def _counted_map(made: list, result, **inputs):
+    made.append(1)
+    return charts.map_chart(result, **inputs)
+
+
+def test_a_lazy_chart_is_made_once_when_read_and_keyed_by_its_inputs():
+    # Planted: a page memo key (site/memo.py, site/keys.py) pickles the context; a lazy chart must
+    # stand there for its key text alone, made from its kind and inputs, and be made at most once,
+    # only when a page reads it. Pickled elsewhere (to a worker), it is a LazyChart still.
+    import functools
     import pickle
 
+    from sitegen.site.keys import key_bytes
+
     made = []
-
-    def make():
-        made.append(1)
-        return charts.map_chart(partition(), {}, "map-lazy")
-
-    lazy = charts.LazyChart("rows-1", make)
-    other_maker = charts.LazyChart("rows-1", lambda: charts.map_chart(partition(seed=1), {}, "map-lazy"))
-    assert pickle.dumps({"map": lazy}) == pickle.dumps({"map": other_maker})  # the key, not the chart
-    assert pickle.dumps({"map": lazy}) != pickle.dumps({"map": charts.LazyChart("rows-2", make)})
-    assert pickle.loads(pickle.dumps(lazy)) == "lazy-chart\0rows-1"
+    make = functools.partial(_counted_map, made)
+    result = partition()
+    lazy = charts.LazyChart(make, dict(result=result, names={}, chart_id="map-lazy"))
+    same = charts.LazyChart(make, dict(chart_id="map-lazy", names={}, result=partition()))
+    assert key_bytes({"map": lazy}) == key_bytes({"map": same})  # equal inputs, made apart: one key
+    assert key_bytes({"map": lazy}) != key_bytes(
+        {"map": charts.LazyChart(make, dict(result=partition(seed=1), names={}, chart_id="map-lazy"))})
+    assert key_bytes({"map": lazy}) != key_bytes(  # any input the chart gains changes the key
+        {"map": charts.LazyChart(make, dict(result=result, names={}, chart_id="map-lazy", hrefs={}))})
+    assert lazy.key_text() in key_bytes({"map": lazy}).decode("latin-1")
+    sent = pickle.loads(pickle.dumps(lazy))
+    assert isinstance(sent, charts.LazyChart) and sent.key_text() == lazy.key_text()
     assert made == [] and bool(lazy)
     eager = charts.map_chart(partition(), {}, "map-lazy")
     assert (lazy.id, lazy.spec, lazy.caption, lazy.rows) == (eager.id, eager.spec, eager.caption, eager.rows)

@@ -336,7 +336,7 @@ def test_card_table_listing_one_card_in_two_look_alike_spellings_shows_both(tmp_
 def test_look_alike_names_make_one_page_and_right_to_left_names_are_isolated(tmp_path):
     from _sites import make_project, read_rows, write_rows
 
-    from sitegen.site.render import isolate
+    from sitegen.site.templating import isolate
 
     project = make_project(tmp_path / "guide")
     data = project.parent / "data"

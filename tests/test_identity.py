@@ -9,7 +9,6 @@ import sys
 from html.parser import HTMLParser
 from pathlib import Path
 
-import pytest
 
 from _seasons_helpers import arch, cards, result
 from _site_helpers import small_site
@@ -17,7 +16,8 @@ from sitegen.analysis.describe import archetype_name
 from sitegen.analysis.seasons import link_seasons, name_cards
 from sitegen.model import TIERS, SignatureCard
 from sitegen.site.notes import load_notes
-from sitegen.site.render import other_reason, render_site, tier_words
+from sitegen.site.render import render_site, tier_words
+from sitegen.site.templating import other_reason
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "bench"))
 import stress  # noqa: E402

@@ -236,11 +236,14 @@ def test_a_rebuild_checks_only_the_charts_the_last_build_did_not(project, tmp_pa
 
     from sitegen.site import charts
 
+    made = []
+    real = charts.ChartChecks
+    monkeypatch.setattr(charts, "ChartChecks", lambda: made.append(real()) or made[-1])
+
     def checks_in_a_new_process():
-        monkeypatch.setattr(charts, "_checked", set())
-        before = charts.checks_started
+        made.clear()
         build(project, quiet=True)
-        return charts.checks_started - before
+        return sum(c.started for c in made)
 
     first = checks_in_a_new_process()
     assert first > 0
@@ -259,15 +262,15 @@ def test_a_rebuild_checks_only_the_charts_the_last_build_did_not(project, tmp_pa
     assert checks_in_a_new_process() == first
 
 
-def test_only_digests_are_trusted_from_a_kept_record(monkeypatch):
+def test_only_digests_are_trusted_from_a_kept_record():
     from sitegen.site import charts
 
-    monkeypatch.setattr(charts, "_checked", set())
+    checks = charts.ChartChecks()
     good = "a" * 64
-    charts.trust_checks([good, "A" * 64, "not a digest", 7, None, good[:-1]])
-    assert charts.passed_checks() == [good]
-    charts.trust_checks({"passed": [good]})  # not a list: ignored
-    assert charts.passed_checks() == [good]
+    checks.trust([good, "A" * 64, "not a digest", 7, None, good[:-1]])
+    assert checks.passed() == [good]
+    checks.trust({"passed": [good]})  # not a list: ignored
+    assert checks.passed() == [good]
 
 
 def test_maps_of_pages_taken_from_the_last_build_are_not_made(project, tmp_path, monkeypatch):

@@ -19,7 +19,8 @@ from sitegen.errors import RenderError
 from sitegen.model import Archetype
 from sitegen.site import pages
 from sitegen.site.exports import fixed, safe_cell
-from sitegen.site.render import SEASON_MAP_POINTS, cosine, render_site
+from sitegen.site.render import cosine, render_site
+from sitegen.site.render_season import SEASON_MAP_POINTS
 
 
 def _doc(body: bytes):

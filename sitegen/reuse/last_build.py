@@ -111,31 +111,32 @@ class LastBuild:
         except (ValueError, KeyError, TypeError, AttributeError):
             return PageMemo(salt)
 
-    def trust_chart_checks(self, pages) -> str | None:
-        """Count the charts the last build checked as checked, when what a check depends on is
-        unchanged (site/charts.py :func:`check_salt`); the salt, to keep with this build's.
-        None without a page memo (no cache folder)."""
-        from ..site.charts import check_salt, trust_checks
+    def trust_chart_checks(self, pages, checks) -> str | None:
+        """Count the charts the last build checked as checked in ``checks`` (this build's
+        :class:`sitegen.site.charts.ChartChecks`), when what a check depends on is unchanged
+        (site/charts.py :func:`check_salt`); the salt, to keep with this build's. None without a
+        page memo (no cache folder)."""
+        from ..site.charts import check_salt
 
         if pages is None:
             return None
         salt = check_salt(pages.salt)
         kept = self.record.get("charts") if self.record else None
         if isinstance(kept, dict) and kept.get("salt") == salt:
-            trust_checks(kept.get("passed"))
+            checks.trust(kept.get("passed"))
         return salt
 
     def write(self, stamp: str, out: Path, report: dict[str, Any], blocks=None, pages=None,
-              check_salt: str | None = None) -> None:
-        """Keep this build's record for the next build; a failure only misses a shortcut next time."""
+              check_salt: str | None = None, checks=None) -> None:
+        """Keep this build's record for the next build (with the charts ``checks`` passed); a failure
+        only misses a shortcut next time."""
         if self.folder is None:
             return
-        from ..site.charts import passed_checks
-
         record = {"stamp": stamp, "output": output_listing(out),
                   "export_blocks": blocks.new_index if blocks is not None else [],
                   "pages": {"salt": pages.salt, "keys": pages.keys} if pages is not None else None,
-                  "charts": {"salt": check_salt, "passed": passed_checks()} if check_salt is not None else None,
+                  "charts": {"salt": check_salt, "passed": checks.passed()}
+                  if check_salt is not None and checks is not None else None,
                   "report": report}
         try:
             self.folder.mkdir(parents=True, exist_ok=True)

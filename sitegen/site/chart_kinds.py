@@ -1,8 +1,9 @@
 """The kinds of chart the pages show: map, share and win-rate trends, share bars, head-to-head heat map.
 
 Each builds a Vega-Lite spec as a Python dict and hands it to :func:`sitegen.site.charts._finish`, which makes
-the :class:`~sitegen.site.charts.Chart` (caption, table alternative, checks). :mod:`sitegen.site.charts` holds
-that machinery and the archetypes' looks, and re-exports every function here.
+the :class:`~sitegen.site.charts.Chart` (caption, table alternative, checks). Each takes ``checks``, the
+build's :class:`~sitegen.site.charts.ChartChecks` (None: the spec is checked at once by a fresh one).
+:mod:`sitegen.site.charts` holds that machinery and the archetypes' looks, and re-exports every function here.
 """
 from __future__ import annotations
 
@@ -14,7 +15,7 @@ from typing import Any, Iterable, Mapping, Sequence
 import numpy as np
 
 from ..model import ALL_LEADERS, OTHER_KEY, PartitionResult
-from .charts import (OTHER_GREY, PALETTE, SHAPES, _MAP_HEIGHT, _MID_HEIGHT, _SMALL_HEIGHT, Chart, Look, _finish,
+from .charts import (OTHER_GREY, PALETTE, SHAPES, _MAP_HEIGHT, _MID_HEIGHT, Chart, ChartChecks, Look, _finish,
                      _num, _pct)
 
 
@@ -93,7 +94,8 @@ def _legend_bottom() -> dict:
 
 
 def map_chart(result: PartitionResult, names: Mapping[str, str], chart_id: str,
-              looks: Mapping[str, Look] | None = None, hrefs: Mapping[str, str] | None = None) -> Chart:
+              looks: Mapping[str, Look] | None = None, hrefs: Mapping[str, str] | None = None,
+              checks: ChartChecks | None = None) -> Chart:
     """The t-SNE map of one partition: one point per drawn deck, coloured by archetype.
 
     ``names`` maps archetype keys to display names (falling back to each
@@ -169,52 +171,8 @@ def map_chart(result: PartitionResult, names: Mapping[str, str], chart_id: str,
         "beyond local neighbourhoods." + (" Select a point to open its archetype's page." if "href" in encoding else "")
     )
     rows = [(name, counts.get(name, 0)) for name in style.domain if counts.get(name, 0)]
-    chart = _finish(chart_id, spec, caption, ("Archetype", "Decks drawn"), rows)
+    chart = _finish(chart_id, spec, caption, ("Archetype", "Decks drawn"), rows, checks)
     return dataclasses.replace(chart, spec={**chart.spec, "data": {"values": []}}, values=values, hidden=True)
-
-
-def silhouette_chart(result: PartitionResult, chart_id: str) -> Chart:
-    """Mean silhouette for each k tried, with the chosen k marked and labelled."""
-    curve = [{"k": int(k), "silhouette": _num(s)} for k, s in result.silhouette]
-    curve = [c for c in curve if c["silhouette"] is not None]
-    chosen = result.chosen_k
-    x = {"field": "k", "type": "quantitative", "title": "Number of archetypes (k)",
-         "axis": {"tickMinStep": 1, "format": "d"}, "scale": {"zero": False}}
-    y = {"field": "silhouette", "type": "quantitative", "title": "Mean silhouette", "scale": {"zero": False}}
-    tooltip = [
-        {"field": "k", "type": "quantitative", "title": "k"},
-        {"field": "silhouette", "type": "quantitative", "title": "Mean silhouette", "format": ".3f"},
-    ]
-    layers: list[dict] = [
-        {"mark": {"type": "line", "color": PALETTE[0]}, "encoding": {"x": x, "y": y}},
-        {"mark": {"type": "point", "filled": True, "color": PALETTE[0], "size": 40},
-         "encoding": {"x": x, "y": y, "tooltip": tooltip}},
-    ]
-    if chosen is not None:
-        scored = [c for c in curve if c["k"] == chosen]
-        mark_data = {"values": [{"k": int(chosen), "label": "chosen"}]}
-        layers += [
-            {"data": mark_data, "mark": {"type": "rule", "color": PALETTE[1], "strokeDash": [4, 3]},
-             "encoding": {"x": x}},
-            {"data": mark_data, "mark": {"type": "text", "align": "left", "dx": 4, "baseline": "top",
-                                         "color": PALETTE[1], "fontWeight": "bold"},
-             "encoding": {"x": x, "y": {"value": 2}, "text": {"field": "label", "type": "nominal"}}},
-        ]
-        if scored:
-            layers.append({"data": {"values": scored},
-                           "mark": {"type": "point", "filled": True, "color": PALETTE[1], "size": 140},
-                           "encoding": {"x": x, "y": y, "tooltip": tooltip}})
-    spec = {
-        "width": "container",
-        "height": _SMALL_HEIGHT,
-        "data": {"values": curve},
-        "layer": layers,
-    }
-    lead = ("Mean silhouette for each number of archetypes tried; higher means better separated groups."
-            if curve else "No silhouette curve was computed for this partition.")
-    caption = f"{lead} {result.k_reason}".strip()
-    rows = [(c["k"], f"{c['silhouette']:.3f}", "chosen" if c["k"] == chosen else "") for c in curve]
-    return _finish(chart_id, spec, caption, ("k", "Mean silhouette", "Chosen"), rows)
 
 
 def _group_style(rows: Sequence[Mapping[str, Any]], looks: Mapping[str, Look] | None = None) -> _Style:
@@ -259,7 +217,8 @@ def _in_order(rows: Sequence[Mapping[str, Any]], names: Sequence[str] | None) ->
 
 
 def share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str,
-                seasons: Sequence[str] | None = None, looks: Mapping[str, Look] | None = None) -> Chart:
+                seasons: Sequence[str] | None = None, looks: Mapping[str, Look] | None = None,
+                checks: ChartChecks | None = None) -> Chart:
     """Each archetype's share of decks across seasons, one line per archetype.
 
     ``rows``: dicts with ``season``, ``archetype``, ``share`` (0..1),
@@ -313,12 +272,12 @@ def share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str,
     if once:
         caption += " Seen in one season only (a larger point with its name): " + ", ".join(once) + "."
     table = [(v["season"], v["archetype"], _pct(v["share"]), v["decks"]) for v in values]
-    return _finish(chart_id, spec, caption, ("Season", "Archetype", "Share", "Decks"), table)
+    return _finish(chart_id, spec, caption, ("Season", "Archetype", "Share", "Decks"), table, checks)
 
 
 def winrate_chart(rows: Sequence[Mapping[str, Any]], chart_id: str,
                   seasons: Sequence[str] | None = None, looks: Mapping[str, Look] | None = None,
-                  order: Sequence[str] | None = None) -> Chart:
+                  order: Sequence[str] | None = None, checks: ChartChecks | None = None) -> Chart:
     """Win rate by season with 95% Wilson intervals; small samples drawn hollow.
 
     ``rows``: dicts with ``season``, ``archetype``, ``win_rate``, ``low``,
@@ -379,11 +338,11 @@ def winrate_chart(rows: Sequence[Mapping[str, Any]], chart_id: str,
     table = [(v["season"], v["archetype"], _pct(v["win_rate"]), f"{_pct(v['low'])} to {_pct(v['high'])}",
               v["games"], "yes" if v["small"] else "") for v in values]
     return _finish(chart_id, spec, caption,
-                   ("Season", "Archetype", "Win rate", "95% interval", "Games", "Small sample"), table)
+                   ("Season", "Archetype", "Win rate", "95% interval", "Games", "Small sample"), table, checks)
 
 
 def bar_share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str = "Archetype share",
-                    looks: Mapping[str, Look] | None = None) -> Chart:
+                    looks: Mapping[str, Look] | None = None, checks: ChartChecks | None = None) -> Chart:
     """One partition's archetypes by share of decks, largest first, with deck counts.
 
     ``rows``: dicts with ``archetype``, ``share``, ``decks`` and optionally
@@ -420,10 +379,11 @@ def bar_share_chart(rows: Sequence[Mapping[str, Any]], chart_id: str, title: str
     }
     caption = f"{title}: share of decks per archetype, with deck counts."
     table = [(v["archetype"], _pct(v["share"]), v["decks"]) for v in ordered]
-    return _finish(chart_id, spec, caption, ("Archetype", "Share", "Decks"), table)
+    return _finish(chart_id, spec, caption, ("Archetype", "Share", "Decks"), table, checks)
 
 
-def matchup_chart(rows: Sequence[Mapping[str, Any]], order: Sequence[str], chart_id: str, min_games: int) -> Chart:
+def matchup_chart(rows: Sequence[Mapping[str, Any]], order: Sequence[str], chart_id: str, min_games: int,
+                  checks: ChartChecks | None = None) -> Chart:
     """A season's head-to-head heat map: each cell the row archetype's win rate against the column's.
 
     ``rows``: dicts with ``archetype``, ``opponent`` (labels in ``order``),
@@ -478,6 +438,6 @@ def matchup_chart(rows: Sequence[Mapping[str, Any]], order: Sequence[str], chart
               "" if v["mirror"] else f"{_pct(v['low'])} to {_pct(v['high'])}", v["games"], v["draws"],
               "mirror" if v["mirror"] else ("small sample" if v["small"] else "")) for v in values]
     chart = _finish(chart_id, spec, caption,
-                    ("Win rate of", "Against", "Win rate", "95% interval", "Games", "Draws", "Note"), table)
+                    ("Win rate of", "Against", "Win rate", "95% interval", "Games", "Draws", "Note"), table, checks)
     # The cells (a season of many archetypes has hundreds) live in a data file beside the page.
     return dataclasses.replace(chart, spec={**chart.spec, "data": {"values": []}}, values=values)

@@ -9,11 +9,14 @@ Specs hold their data inline and reach pages only through ``|tojson``.
 """
 from __future__ import annotations
 
+import dataclasses
 import functools
 import hashlib
 import importlib.util
+import io
 import json
 import math
+import pickle
 import re
 from contextlib import contextmanager
 from dataclasses import dataclass
@@ -108,7 +111,6 @@ _CONFIG = {
 
 _ID = re.compile(r"[A-Za-z][A-Za-z0-9_-]*\Z")
 _MAP_HEIGHT = 420
-_SMALL_HEIGHT = 240
 _MID_HEIGHT = 300
 
 
@@ -154,27 +156,63 @@ def data_script(chart_id: str, values: list) -> bytes:
 
 
 class LazyChart:
-    """A :class:`Chart` made when a page first reads it, for charts costly to make (a map
-    holds thousands of points). In a page's memo key (site/memo.py) it stands for itself by
-    ``key``, which must name everything the chart is made from: a page whose context is
-    unchanged is then reused without making its charts at all."""
+    """A :class:`Chart` made when a page first reads it, ``kind(**inputs, checks=checks)``, for
+    charts costly to make (a map holds thousands of points).
 
-    __slots__ = ("key", "_make", "_chart")
+    In a page's memo key (site/keys.py) it stands by :meth:`key_text`, made from ``kind`` and
+    ``inputs`` alone: the very values the chart is drawn from, so a chart kind that gains an input
+    changes its key with no list to keep. A page whose context is unchanged is then reused without
+    making its charts at all. Pickled (sent to another process), it is itself: its kind and inputs
+    (the chart made there when read, checked by a fresh :class:`ChartChecks`).
+    """
 
-    def __init__(self, key: str, make: Callable[[], Chart]) -> None:
-        self.key = key
-        self._make = make
+    __slots__ = ("kind", "inputs", "checks", "_chart", "_key")
+
+    def __init__(self, kind: Callable[..., Chart], inputs: dict[str, Any], checks: ChartChecks | None = None) -> None:
+        self.kind = kind
+        self.inputs = dict(inputs)
+        self.checks = checks
         self._chart: Chart | None = None
+        self._key: str | None = None
 
     def __getattr__(self, name: str) -> Any:
         if name.startswith("_"):
             raise AttributeError(name)
         if self._chart is None:
-            self._chart = self._make()
+            self._chart = self.kind(**self.inputs, checks=self.checks)
         return getattr(self._chart, name)
 
+    def key_text(self) -> str:
+        """A digest of the chart kind (by name) and its inputs (see :func:`input_key`)."""
+        if self._key is None:
+            self._key = f"lazy-chart\0{input_key(self.kind, self.inputs)}"
+        return self._key
+
     def __reduce__(self):
-        return (str, (f"lazy-chart\0{self.key}",))
+        return (LazyChart, (self.kind, self.inputs))
+
+
+def input_key(kind: Callable[..., Chart], inputs: dict[str, Any]) -> str:
+    """A digest of a chart kind (a function pickles by its name) and its inputs by name, equal for
+    equal values wherever they come from.
+
+    Pickled without pickle's memo (so values shared by reference or copied write alike); a
+    :class:`~sitegen.model.PartitionResult` with a ``rows_key`` stands by that key for its two row
+    tables (assignments and map points) and the sample its map was drawn from, which it names.
+    """
+    from ..model import PartitionResult
+
+    def plain(value: Any) -> Any:
+        if isinstance(value, PartitionResult) and value.rows_key:
+            return ("rows", value.rows_key,
+                    dataclasses.replace(value, assignments=None, map_points=None, map_sample=None))
+        return value
+
+    buf = io.BytesIO()
+    pickler = pickle.Pickler(buf, protocol=5)
+    pickler.fast = True
+    pickler.dump((kind, sorted((name, plain(value)) for name, value in inputs.items())))
+    return hashlib.sha256(buf.getvalue()).hexdigest()
 
 
 # -- checking -----------------------------------------------------------------
@@ -250,13 +288,6 @@ def vl_version() -> str:
     return max(same_major, key=lambda v: tuple(int(p) for p in v.split(".")))
 
 
-#: Digests of the spec skeletons that passed both checks (in this process, or in an earlier
-#: build whose :func:`check_salt` was the same, see :func:`trust_checks`).
-_checked: set[str] = set()
-#: How many checks this process has run or sent off (one per skeleton not known to pass).
-checks_started = 0
-
-
 def check_salt(code_salt: str) -> str:
     """What a check's verdict depends on besides the spec: sitegen's code and templates
     (``code_salt``), the schema file and the vl-convert release that compiles."""
@@ -272,18 +303,6 @@ def check_salt(code_salt: str) -> str:
     where = file_stamp(path) or str(path)
     text = f"chart-checks\0{code_salt}\0{where}\0{schema_version}\0{compiler}"
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
-
-
-def passed_checks() -> list[str]:
-    """The digests of every spec skeleton that passed, to keep for the next build."""
-    return sorted(_checked)
-
-
-def trust_checks(digests: Any) -> None:
-    """Count skeletons an earlier build checked (under the same :func:`check_salt`) as passed,
-    so a rebuild does not check its unchanged charts again. Anything but digests is ignored."""
-    if isinstance(digests, list):
-        _checked.update(d for d in digests if isinstance(d, str) and _DIGEST.fullmatch(d))
 
 
 _DIGEST = re.compile(r"[0-9a-f]{64}")
@@ -313,36 +332,85 @@ def _skeleton(node: Any) -> Any:
     return node
 
 
-def validate_spec(spec: dict, chart_id: str = "chart") -> None:
-    """Check a spec against the Vega-Lite schema, then compile it with vl-convert.
+class ChartChecks:
+    """What one build knows of its charts' checks: the spec skeletons that passed, and where checks run.
 
-    Raises :class:`RenderError` naming the chart and, for a schema error,
-    the place in the spec and the schema path that refused it. Specs already
-    checked in this process or trusted from the last build (same JSON text once
-    inline data is cut to its first row, see :func:`_skeleton`) are not checked
-    again; a spec that fails is checked whole, so the error is the one the
-    whole spec gives.
-    Inside :func:`checked_by`, the check runs in another process and its
-    error, if any, is raised when the block ends.
+    Made once per build and handed to every chart kind (their ``checks`` argument), so two builds in
+    one process share nothing. :meth:`trust` takes the digests an earlier build kept (under the same
+    :func:`check_salt`), :meth:`passed` gives this build's to keep; inside :meth:`sent_to`, checks run
+    in a process pool and are waited for when the block ends.
     """
-    try:
-        json.dumps(spec, sort_keys=True, allow_nan=False)
-    except (TypeError, ValueError) as exc:
-        raise RenderError(f"chart '{chart_id}': spec is not plain JSON ({exc}); pass numbers and strings only, no NaN") from exc
-    skeleton = _skeleton(spec)
-    digest = hashlib.sha256(json.dumps(skeleton, sort_keys=True).encode("utf-8")).hexdigest()
-    if digest in _checked:
-        return
-    global checks_started
-    if _elsewhere is not None:
-        executor, pending = _elsewhere
-        if digest not in pending:
-            pending[digest] = executor.submit(check_skeleton, skeleton, spec, chart_id)
-            checks_started += 1
-        return
-    checks_started += 1
-    check_skeleton(skeleton, spec, chart_id)
-    _checked.add(digest)
+
+    def __init__(self) -> None:
+        #: Digests of the spec skeletons that passed both checks (here, or trusted from an earlier build).
+        self._passed: set[str] = set()
+        #: How many checks this build has run or sent off (one per skeleton not known to pass).
+        self.started = 0
+        #: While :meth:`sent_to` is active: the executor checking specs, and the checks sent to it by digest.
+        self._elsewhere: tuple[Any, dict[str, Any]] | None = None
+
+    def passed(self) -> list[str]:
+        """The digests of every spec skeleton that passed, to keep for the next build."""
+        return sorted(self._passed)
+
+    def trust(self, digests: Any) -> None:
+        """Count skeletons an earlier build checked (under the same :func:`check_salt`) as passed,
+        so a rebuild does not check its unchanged charts again. Anything but digests is ignored."""
+        if isinstance(digests, list):
+            self._passed.update(d for d in digests if isinstance(d, str) and _DIGEST.fullmatch(d))
+
+    def check(self, spec: dict, chart_id: str = "chart") -> None:
+        """Check a spec against the Vega-Lite schema, then compile it with vl-convert.
+
+        Raises :class:`RenderError` naming the chart and, for a schema error,
+        the place in the spec and the schema path that refused it. Specs already
+        checked by this object or trusted from the last build (same JSON text once
+        inline data is cut to its first row, see :func:`_skeleton`) are not checked
+        again; a spec that fails is checked whole, so the error is the one the
+        whole spec gives.
+        Inside :meth:`sent_to`, the check runs in another process and its
+        error, if any, is raised when the block ends.
+        """
+        try:
+            json.dumps(spec, sort_keys=True, allow_nan=False)
+        except (TypeError, ValueError) as exc:
+            raise RenderError(f"chart '{chart_id}': spec is not plain JSON ({exc}); pass numbers and strings only, no NaN") from exc
+        skeleton = _skeleton(spec)
+        digest = hashlib.sha256(json.dumps(skeleton, sort_keys=True).encode("utf-8")).hexdigest()
+        if digest in self._passed:
+            return
+        if self._elsewhere is not None:
+            executor, pending = self._elsewhere
+            if digest not in pending:
+                pending[digest] = executor.submit(check_skeleton, skeleton, spec, chart_id)
+                self.started += 1
+            return
+        self.started += 1
+        check_skeleton(skeleton, spec, chart_id)
+        self._passed.add(digest)
+
+    @contextmanager
+    def sent_to(self, executor: Any) -> Iterator[None]:
+        """Within the block, checks go to ``executor`` (a process pool that is idle while pages
+        render) instead of running here; on leaving, every check is waited for and the first
+        failure, in the order the charts were made, is raised. None checks here."""
+        if executor is None:
+            yield
+            return
+        pending: dict[str, Any] = {}
+        self._elsewhere = (executor, pending)
+        try:
+            yield
+        finally:
+            self._elsewhere = None
+        for digest, fut in pending.items():
+            fut.result()  # raises the chart's RenderError
+            self._passed.add(digest)
+
+
+def validate_spec(spec: dict, chart_id: str = "chart", checks: ChartChecks | None = None) -> None:
+    """:meth:`ChartChecks.check` by ``checks``, or by a fresh :class:`ChartChecks` (the spec is checked now)."""
+    (checks if checks is not None else ChartChecks()).check(spec, chart_id)
 
 
 def check_skeleton(skeleton: dict, spec: dict, chart_id: str) -> None:
@@ -372,39 +440,16 @@ def check_skeleton(skeleton: dict, spec: dict, chart_id: str) -> None:
         raise RenderError(f"chart '{chart_id}': Vega-Lite could not compile the spec: {' '.join(lines)[:300]}") from None
 
 
-#: While :func:`checked_by` is active: the executor checking specs, and the checks sent to it by digest.
-_elsewhere: tuple[Any, dict[str, Any]] | None = None
-
-
-@contextmanager
-def checked_by(executor: Any) -> Iterator[None]:
-    """Within the block, chart checks go to ``executor`` (a process pool that is idle while
-    pages render) instead of running here; on leaving, every check is waited for and the
-    first failure, in the order the charts were made, is raised. None checks here."""
-    global _elsewhere
-    if executor is None:
-        yield
-        return
-    pending: dict[str, Any] = {}
-    _elsewhere = (executor, pending)
-    try:
-        yield
-    finally:
-        _elsewhere = None
-    for digest, fut in pending.items():
-        fut.result()  # raises the chart's RenderError
-        _checked.add(digest)
-
-
-def _finish(chart_id: str, spec: dict, caption: str, columns: Sequence[str], rows: Iterable[Sequence]) -> Chart:
-    """Add the shared top-level parts, check the spec, and wrap it as a Chart."""
+def _finish(chart_id: str, spec: dict, caption: str, columns: Sequence[str], rows: Iterable[Sequence],
+            checks: ChartChecks | None = None) -> Chart:
+    """Add the shared top-level parts, check the spec (by ``checks``, see :func:`validate_spec`), and wrap it as a Chart."""
     if not _ID.match(chart_id):
         raise RenderError(
             f"chart id {chart_id!r} is not a safe HTML id; use a letter then letters, digits, '-' or '_'"
         )
     full = {"$schema": schema_url(), "description": caption, **spec,
             "config": {**_CONFIG, **spec.get("config", {})}}
-    validate_spec(full, chart_id)
+    validate_spec(full, chart_id, checks)
     return Chart(chart_id, full, caption, tuple(columns), tuple(tuple(r) for r in rows))
 
 
@@ -426,6 +471,11 @@ def _pct(value: float | None) -> str:
 
 
 # The chart kinds live in chart_kinds.py; they are read from here too (charts.map_chart, ...).
-from .chart_kinds import (  # noqa: E402,F401
-    bar_share_chart, latest_share_order, map_chart, matchup_chart, share_chart, silhouette_chart, winrate_chart,
-)
+from . import chart_kinds as _kinds  # noqa: E402
+
+bar_share_chart = _kinds.bar_share_chart
+latest_share_order = _kinds.latest_share_order
+map_chart = _kinds.map_chart
+matchup_chart = _kinds.matchup_chart
+share_chart = _kinds.share_chart
+winrate_chart = _kinds.winrate_chart

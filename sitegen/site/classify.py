@@ -189,7 +189,7 @@ def files_and_page(renderer) -> dict[str, bytes]:
     (sitegen.site.render.Renderer); returns the files and emits the page through the renderer."""
     s = renderer.s
     site = renderer.site
-    rare = float(site.cfg["analysis.inclusion_min_share"])
+    rare = renderer.settings.inclusion_min_share
     relabelled = getattr(site, "relabelled", None) or {}
     files: dict[str, bytes] = {}
     manifest: dict[str, dict[str, str]] = {}

@@ -1,7 +1,8 @@
 """What every page asks of the built data: names, slugs, links and rows of archetypes, seasons and leaders.
 
 :class:`SiteLookup` is made once per build from the :class:`~sitegen.site.render.SiteInput` and read by every
-page method of :class:`~sitegen.site.render.Renderer` (as ``self.s``); the small pieces beside it are shared
+page method of :class:`~sitegen.site.render.Renderer` (as ``self.s``), with the build's
+:class:`~sitegen.site.settings.SiteSettings`; the small pieces beside it are shared
 by those methods.
 """
 from __future__ import annotations
@@ -21,6 +22,7 @@ from .templating import firmness_words
 
 if TYPE_CHECKING:
     from .render import SiteInput
+    from .settings import SiteSettings
 
 
 # -- small pieces -----------------------------------------------------------
@@ -60,13 +62,12 @@ def _any_value(df: Any, col: str) -> bool:
 class SiteLookup:
     """Lookup tables shared by every page: slugs, names, archetypes by season."""
 
-    def __init__(self, site: SiteInput) -> None:
+    def __init__(self, site: SiteInput, settings: SiteSettings) -> None:
         self.site = site
-        cfg = site.cfg
-        self.cfg = cfg
-        self.min_games = int(cfg["trends.min_games"])
-        self.word = cfg["site.leader_word"]
-        self.words = cfg["site.leader_word_plural"]
+        self.settings = settings
+        self.min_games = settings.min_games
+        self.word = settings.leader_word
+        self.words = settings.leader_word_plural
         data = site.data
         present = {r.season for r in site.results}
         # A season whose every deck was left out (rules.exclude_breakers) has no results, yet keeps its
@@ -186,7 +187,7 @@ class SiteLookup:
     def note_view(self, note: Note | None) -> P.NoteView | None:
         if note is None or note.hidden:
             return None
-        content = self.cfg.path("site.content")
+        content = self.settings.content
         try:
             source = str(note.path.relative_to(content)) if content is not None else note.path.name
         except ValueError:

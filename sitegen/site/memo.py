@@ -23,6 +23,7 @@ from typing import Any
 
 from ..reuse.digest import file_stat
 from ..reuse.keys import page_key
+from .keys import key_bytes
 
 
 class PageMemo:
@@ -48,7 +49,7 @@ class PageMemo:
     def key(self, path: str, template: str, context: Mapping[str, Any]) -> str | None:
         """The page's key (recorded for the next build), or None when its context cannot be pickled."""
         try:
-            body = pickle.dumps(dict(context), protocol=5)
+            body = key_bytes(dict(context))  # a LazyChart stands by its key text (site/keys.py)
         except (pickle.PicklingError, TypeError, AttributeError):
             return None
         key = page_key(self.salt, template, body)

@@ -74,7 +74,6 @@ class LeaderBlock:
     chosen_k: int | None = _f("Number of archetypes chosen, or None.")
     k_reason: str = _f("How that number was chosen, in plain words.")
     map_chart: Any = _f("Chart object of the deck map, or None.")
-    silhouette_chart: Any = _f("Chart object of silhouette by k, or None.")
     share_chart: Any = _f("Chart of this leader's archetype shares across seasons (front page), or None.")
     notes: tuple[str, ...] = _f("Data-quality notes for this leader and season (plain text).")
     map_data: str = _f("Path from the site root of the script holding the map's points (loaded when the map is "

@@ -10,9 +10,7 @@ then the packaged one, so a site can override any template file by file.
 from __future__ import annotations
 
 import base64
-import dataclasses
 import hashlib
-import json
 import math
 from collections import defaultdict
 from dataclasses import dataclass
@@ -22,8 +20,7 @@ from typing import Any
 import jinja2
 import numpy as np
 
-from ..analysis.embed import stratified_sample
-from ..check import RULE_KINDS
+from ..analysis.trends import trend_rows
 from ..config import Config
 from ..errors import RenderError
 from ..model import ALL_LEADERS, Archetype, DeckData, Finding, History, PartitionResult
@@ -36,11 +33,12 @@ from .notes import Notes, orphan_findings
 # cosine and win_rate are also read from here (tests, the page parts mixed into Renderer)
 from .lookup import SiteLookup, _data_url, _rel_root, cosine, win_rate  # noqa: F401
 from .render_identity import IdentityPages
-# isolate, other_reason and tier_words are also read from here (tests, the page parts mixed into Renderer)
-from .templating import (_context, _template_place, firmness_words, isolate,  # noqa: F401
-                         make_environment, other_reason, tier_words)
+# tier_words is also read from here (the page parts mixed into Renderer)
+from .templating import _context, _template_place, firmness_words, make_environment, tier_words
 from .render_questions import QuestionPages
+from .render_season import SeasonPages
 from .search import RANKS, SearchEntry, search_files
+from .settings import SiteSettings
 from .sitemap import sitemap_files
 
 #: Closest archetypes listed on an archetype page.
@@ -56,12 +54,6 @@ def _key_rank(a: Archetype) -> tuple[int, str]:
     """Order of archetypes within a partition (a1, a2, ... a10), for one page per pair."""
     digits = a.key[1:]
     return (int(digits), a.key) if digits.isdigit() else (1 << 30, a.key)
-#: Most map points drawn on one season page, shared among its leaders by their
-#: number of points: each point is ~200 bytes of inline chart data, and this
-#: keeps a season page well under 1 MB however many leaders it has.
-SEASON_MAP_POINTS = 4000
-#: Fewest points a leader's map keeps when the season's budget is shared out.
-MIN_MAP_POINTS = 300
 
 
 @dataclass(frozen=True)
@@ -81,6 +73,7 @@ class SiteInput:
     notes: Notes
     findings: tuple[Finding, ...]
     templates_dirs: tuple[Path, ...]
+    #: The trend rows of analysis.trends.trend_rows (by leader); None: the renderer makes them.
     trends: dict | None = None
     #: The last build's assignments files by season, to copy unchanged seasons from (see exports.ExportBlocks).
     export_blocks: exports.ExportBlocks | None = None
@@ -91,16 +84,25 @@ class SiteInput:
     relabelled: dict | None = None
     #: Each season's head-to-head results (analysis.matchups.SeasonMatchups by season), or None without matches.
     matchups: dict | None = None
+    #: The build's chart checks (what passed, where checks run); None: the renderer makes its own.
+    chart_checks: ch.ChartChecks | None = None
 
 
 # -- template environment ---------------------------------------------------
 
-class Renderer(IdentityPages, QuestionPages):
+class Renderer(SeasonPages, IdentityPages, QuestionPages):
     """Builds every page of one site; see :func:`render_site`."""
 
     def __init__(self, site: SiteInput) -> None:
         self.site = site
-        self.s = SiteLookup(site)
+        #: The settings every page part reads, made once from site.cfg.
+        self.settings = SiteSettings.from_config(site.cfg)
+        self.s = SiteLookup(site, self.settings)
+        #: Every chart of this build is checked by this object (see charts.ChartChecks).
+        self.checks = site.chart_checks if site.chart_checks is not None else ch.ChartChecks()
+        #: Each leader's share and win-rate rows over seasons, as the analysis made them.
+        self.trends = site.trends if site.trends is not None else trend_rows(
+            site.results, site.data.seasons, self.settings.min_games)
         self.env = make_environment(site.templates_dirs)
         self.out: dict[str, bytes] = {}
         self.warnings: list[Finding] = []
@@ -113,7 +115,7 @@ class Renderer(IdentityPages, QuestionPages):
 
     def _assets(self) -> tuple[dict[str, bytes], dict[str, str]]:
         """The shared static files (content-hashed) and their paths by logical name."""
-        files = assets.static_assets(list(self.site.templates_dirs), self.site.cfg.path("cache.folder"))
+        files = assets.static_assets(list(self.site.templates_dirs), self.settings.cache_folder)
         return files, assets.asset_urls(files)
 
     def _base(self, path: str, title: str, description: str, *, charts: bool = False,
@@ -138,7 +140,7 @@ class Renderer(IdentityPages, QuestionPages):
         root = _rel_root(path) if root is None else root
         # An icon of the site's own, so browsers do not ask the host for a missing /favicon.ico.
         icon = root + urls["icon_svg"] if "icon_svg" in urls else ""
-        return dict(site_title=self.site.cfg["site.title"], title=title, description=description, icon=icon,
+        return dict(site_title=self.settings.title, title=title, description=description, icon=icon,
                     root=root, path=path, stylesheets=tuple(styles),
                     scripts=tuple(scripts), nav=tuple(nav), leader_word=s.word, leader_word_plural=s.words,
                     absolute=False, inline_style="", style_hash="", chart_library=library)
@@ -220,81 +222,12 @@ class Renderer(IdentityPages, QuestionPages):
             rows = self._share_rows(leader)
             self._share_charts[key] = (None if len({x["season"] for x in rows}) < 2  # one season: the table says it all
                                        else ch.share_chart(rows, chart_id, f"{self.s.leader_name(leader)}: archetype shares by season",
-                                                           looks=self._looks_by_name(leader)))
+                                                           looks=self._looks_by_name(leader), checks=self.checks))
         return self._share_charts[key]
 
     def _looks_by_name(self, leader: str) -> dict[str, ch.Look]:
         """Each archetype's look under its latest name, the name the trend charts use."""
         return {self._latest_name(slug): look for slug, look in self.s.looks.get(leader, {}).items()}
-
-    def _map_budgets(self, season: str) -> dict[str, int]:
-        """Map points each leader of a season may draw (see :data:`SEASON_MAP_POINTS`)."""
-        sizes = {r.leader: len(r.map_points) if r.map_points is not None else 0
-                 for r in self.s.results if r.season == season}
-        total = sum(sizes.values())
-        if total <= SEASON_MAP_POINTS:
-            return sizes
-        return {k: min(n, max(MIN_MAP_POINTS, SEASON_MAP_POINTS * n // total)) for k, n in sizes.items()}
-
-    def _thin_map(self, r: PartitionResult, budget: int) -> PartitionResult:
-        """The result with at most ``budget`` map points, sampled per archetype with the analysis seed."""
-        points = r.map_points
-        if points is None or len(points) <= budget:
-            return r
-        keep = stratified_sample(points["archetype"].astype(str).tolist(), budget, int(self.site.cfg["analysis.seed"]))
-        return dataclasses.replace(r, map_points=points.iloc[keep].reset_index(drop=True))
-
-    def _map(self, r: PartitionResult, names: dict[str, str], chart_id: str, budget: int | None,
-             looks: dict[str, ch.Look], hrefs: dict[str, str]) -> Any:
-        """The partition's map chart; made only if its page is rendered, when the rows it is drawn
-        from are named by ``rows_key`` (the chart's key then names all it is made from)."""
-        def make() -> ch.Chart:
-            return ch.map_chart(self._thin_map(r, budget) if budget is not None else r, names, chart_id,
-                                looks=looks, hrefs=hrefs)
-
-        if not r.rows_key:
-            return make()
-        key = json.dumps([r.rows_key, r.season, r.leader, int(r.n_decks), chart_id, budget,
-                          int(self.site.cfg["analysis.seed"]), sorted(names.items()),
-                          sorted((k, v.colour, v.shape) for k, v in looks.items()), sorted(hrefs.items()),
-                          [(g.key, g.name, bool(g.is_other)) for g in r.groups]], ensure_ascii=True)
-        return ch.LazyChart(key, make)
-
-    def _block(self, r: PartitionResult, *, with_charts: bool, with_shares: bool = False,
-               map_budget: int | None = None) -> P.LeaderBlock:
-        s = self.s
-        rows = tuple(s.row(a) for a in sorted(r.archetypes, key=lambda a: (-a.n_decks, a.key)))
-        if r.other is not None and r.other.n_decks > 0:
-            rows += (s.row(r.other),)
-        notes = list(self._notes_for(r.season, r.leader))
-        excluded = self._excluded(r.season, r.leader)
-        if excluded:
-            notes.append(excluded)
-        clustered = r.status == "clustered"
-        lslug = s.leader_slug[r.leader]
-        map_c = sil_c = None
-        if with_charts and clustered:
-            names = {a.key: s.name_of(a) for a in r.groups}
-            looks = {a.key: s.look_of(a) for a in r.groups}
-            back = _rel_root(s.season_href(r.season))  # the map is drawn on the season page
-            hrefs = {a.key: back + s.arch_href(a) for a in r.archetypes}
-            if r.map_points is not None and len(r.map_points):
-                map_c = self._map(r, names, f"map-{lslug}", map_budget, looks, hrefs)
-            if r.silhouette:
-                sil_c = ch.silhouette_chart(r, f"silhouette-{lslug}")
-        k_reason = r.k_reason
-        if clustered and r.chosen_k is not None and r.chosen_k != len(r.archetypes):
-            # Analysts' notes merged or hid archetypes after the analysis: say so, so the count agrees with the table.
-            k_reason += (f" Analysts' notes (merge_into, hide) leave {len(r.archetypes)} of them "
-                         f"in the table.")
-        return P.LeaderBlock(name=s.leader_name(r.leader), href=s.leader_link(r.leader).href, anchor=f"leader-{lslug}",
-                             decks=int(r.n_decks), clustered=clustered, reason=r.reason, rows=rows,
-                             chosen_k=len(r.archetypes) if clustered else None, k_reason=k_reason,
-                             map_chart=map_c, silhouette_chart=sil_c,
-                             share_chart=self._share_chart(r.leader, f"shares-{lslug}") if with_shares else None,
-                             notes=tuple(notes),
-                             map_data=f"seasons/{s.season_slug[r.season]}/map-{lslug}.js" if map_c is not None else "",
-                             other_reason=other_reason(r.k_reason))
 
     # -- pages
     def front(self) -> None:
@@ -304,51 +237,14 @@ class Renderer(IdentityPages, QuestionPages):
         blocks = tuple(sorted(blocks, key=lambda b: (-b.decks, b.name)))
         seasons = tuple(P.SeasonRow(season=s.season_link(x), archetype=None, leader=None, decks=s.decks_in_season[x],
                                     share=1.0, win=None, detail="", current=x == latest) for x in reversed(s.seasons))
-        base = self._base("index.html", self.site.cfg["site.title"],
-                          self.site.cfg["site.description"] or "Archetypes of each season at a glance.",
+        base = self._base("index.html", self.settings.title,
+                          self.settings.description or "Archetypes of each season at a glance.",
                           charts=any(b.share_chart for b in blocks))
         self._emit("index.html", P.FrontPage(
             **base, season=s.season_link(latest) if latest else None,
             season_decks=s.decks_in_season.get(latest, 0) if latest else 0, leaders=blocks,
             seasons=seasons, note=s.note_view(self.site.notes.front), has_results=s.has_results,
-            min_games=s.min_games, site_description=self.site.cfg["site.description"]))
-
-    def season(self, season: str, i: int) -> None:
-        s = self.s
-        budgets = self._map_budgets(season)
-        blocks = tuple(sorted((self._block(r, with_charts=True, map_budget=budgets[r.leader])
-                               for r in s.results if r.season == season),
-                              key=lambda b: (-b.decks, b.name)))
-        path = s.season_href(season)
-        heads = self._matchup_view(season)
-        base = self._base(path, f"Season {season}", f"Archetypes of every {s.word} in season {season}.",
-                          charts=any(b.map_chart or b.silhouette_chart for b in blocks) or bool(heads and heads.chart))
-        self._emit("season.html", P.SeasonPage(
-            **base, season=season, decks=s.decks_in_season[season], leaders=blocks,
-            previous=s.season_link(s.seasons[i - 1]) if i > 0 else None,
-            next=s.season_link(s.seasons[i + 1]) if i + 1 < len(s.seasons) else None,
-            notes=self._emptied_notes(season) + self._notes_for(season, None), has_results=s.has_results,
-            min_games=s.min_games, matchups=heads))
-        for b in blocks:
-            if b.map_chart is not None:
-                self._emit_data(b.map_data, b.map_chart)
-        if heads is not None and heads.chart is not None:
-            self._emit_data(heads.data, heads.chart)
-
-    def _emptied_notes(self, season: str) -> tuple[str, ...]:
-        """Why a season whose every deck was left out has no archetypes, and its rule breakers."""
-        if season not in self.s.emptied:
-            return ()
-        notes = ["Every deck of this season breaks a deck-building rule, and rules.exclude_breakers leaves "
-                 "such decks out of the analysis, so the season has no archetypes."]
-        left_out = self._excluded(season, ALL_LEADERS)
-        if left_out:
-            notes.append(left_out)
-        broken = [f.message for f in self.site.data.findings if f.season == season and f.kind in RULE_KINDS]
-        notes += broken[:50]
-        if len(broken) > 50:
-            notes.append(f"and {len(broken) - 50} more rules broken (the build report lists every one).")
-        return tuple(notes)
+            min_games=s.min_games, site_description=self.settings.description))
 
     def _link_text(self, a: Archetype) -> str:
         h = self.site.history
@@ -408,7 +304,7 @@ class Renderer(IdentityPages, QuestionPages):
         if pos is None:
             return ()
         row = d.iloc[pos]
-        cols = ["event", "title"] + (["player"] if self.site.cfg["site.publish_players"] else [])
+        cols = ["event", "title"] + (["player"] if self.settings.publish_players else [])
         out = []
         for col in cols:
             if col in d.columns:
@@ -505,7 +401,7 @@ class Renderer(IdentityPages, QuestionPages):
     def leader(self, leader: str) -> None:
         s = self.s
         mine = [r for r in s.results if r.leader == leader]
-        rows, win_rows = [], []
+        rows = []
         for r in mine:
             for a in sorted(r.groups, key=lambda a: (a.is_other, -a.n_decks, a.key)):
                 if a.n_decks == 0:
@@ -514,20 +410,13 @@ class Renderer(IdentityPages, QuestionPages):
                 rows.append(P.SeasonRow(season=s.season_link(a.season), archetype=None if a.is_other else s.arch_link(a),
                                         leader=None, decks=int(a.n_decks), share=float(a.share), win=w,
                                         detail="" if not a.is_other else "decks that fit no archetype", current=False))
-                if w is not None and not a.is_other:
-                    win_rows.append({"season": a.season, "archetype": self._latest_name(s.slug_of(a)), "win_rate": w.rate, "low": w.low,
-                                     "high": w.high, "games": w.games, "small": w.small})
         lslug = s.leader_slug[leader]
         share_c = self._share_chart(leader, f"shares-{lslug}")
-        # The seasons step's rows (after overrides) when given, else the same rows made here.
-        # Lines are named by each slug's latest name, as on the share chart.
-        given = (self.site.trends or {}).get(leader) or {}
-        trend_rows = win_rows
-        if isinstance(given, dict) and given.get("winrates"):
-            trend_rows = [{**row, "archetype": self._latest_name(row["slug"]) if row.get("slug") in s.by_slug
-                           else row["archetype"]} for row in given["winrates"]]
+        # The trend rows (after overrides); lines are named by each slug's latest name, as on the share chart.
+        trend_rows = [{**row, "archetype": self._latest_name(row["slug"]) if row.get("slug") in s.by_slug
+                       else row["archetype"]} for row in (self.trends.get(leader) or {}).get("winrates") or ()]
         trend_c = (ch.winrate_chart(trend_rows, f"winrate-{lslug}", looks=self._looks_by_name(leader),
-                                    order=ch.latest_share_order(self._share_rows(leader), s.seasons))
+                                    order=ch.latest_share_order(self._share_rows(leader), s.seasons), checks=self.checks)
                    if trend_rows else None)
         path = s.leader_link(leader).href
         name = s.leader_name(leader)
@@ -538,14 +427,9 @@ class Renderer(IdentityPages, QuestionPages):
                                                flows=self._flow_tables(leader), tiers=tier_words()))
 
     def method(self) -> None:
-        cfg = self.site.cfg
-        keys = ("analysis.by_leader", "analysis.k_max", "analysis.min_decks", "analysis.min_share",
-                "analysis.inclusion_min_share", "analysis.map_points", "analysis.link_threshold", "trends.min_games",
-                "analysis.seed")
-        settings = tuple((k, str(cfg[k]).lower() if isinstance(cfg[k], bool) else str(cfg[k])) for k in keys)
         base = self._base("method.html", "How it works", "How the archetypes, maps and tables are made, in plain words.")
         self._emit("method.html", P.MethodPage(**base, note=self.s.note_view(self.site.notes.method),
-                                               settings=settings, min_games=self.s.min_games, tiers=tier_words()))
+                                               settings=self.settings.method_settings, min_games=self.s.min_games, tiers=tier_words()))
 
     def not_found(self) -> None:
         """404.html. Hosts serve it at the missing page's own depth, so links
@@ -554,7 +438,7 @@ class Renderer(IdentityPages, QuestionPages):
         ('/') and the stylesheet is written into the page (allowed by its hash
         in the CSP), so it looks right at any depth and from file:// too. It
         has the search box: its scripts come from the root as well."""
-        base_url = self.site.cfg["site.base_url"].strip()
+        base_url = self.settings.base_url.strip()
         root = base_url.rstrip("/") + "/" if base_url else "/"
         base = self._base("404.html", "Page not found", "There is no page at this address.", root=root)
         base["absolute"] = True
@@ -614,7 +498,7 @@ class Renderer(IdentityPages, QuestionPages):
         self.out.update(exports.export_files(self.site.data, s.results, s.page_slug, self.site.export_blocks))
         self.data_page()
         pages = sorted(p for p in self.out if p.endswith(".html") and p != "404.html")
-        files, warns = sitemap_files(self.site.cfg["site.base_url"], pages)
+        files, warns = sitemap_files(self.settings.base_url, pages)
         self.out.update(files)
         self.warnings.extend(warns)
         for path, body in self.assets.items():

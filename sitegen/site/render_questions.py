@@ -41,7 +41,7 @@ class QuestionPages:
             worst = sorted((m for m in tested if m.rate < 0.5), key=lambda m: (m.rate, m.opponent.text))[:R.MATCHUPS_SHOWN]
             extra = dict(matchups_best=tuple(best), matchups_worst=tuple(worst),
                          matchups_small=sum(1 for m in mine if m.small), has_matchups=True,
-                         matchups_min_games=int(self.site.cfg["matchups.min_games"]))
+                         matchups_min_games=self.settings.matchup_min_games)
         else:
             extra = {}
         others = sorted(((R.cosine(a.profile, b.profile), b) for b in r.archetypes if b.key != a.key),
@@ -118,7 +118,7 @@ class QuestionPages:
             made = self._heads = {}
         if season not in made:
             found = given.get(season)
-            min_games = int(self.site.cfg["matchups.min_games"])
+            min_games = self.settings.matchup_min_games
             rows = []
             for c in (found.cells if found is not None else ()):
                 low, high = c.interval
@@ -136,14 +136,14 @@ class QuestionPages:
             return None
         found = self.site.matchups.get(season)
         order = self._matchup_order(season)
-        min_games = int(self.site.cfg["matchups.min_games"])
+        min_games = self.settings.matchup_min_games
         rank = {label: i for i, label in enumerate(order)}
         rows = sorted(rows, key=lambda m: (rank.get(m.archetype.text, len(rank)), rank.get(m.opponent.text, len(rank))))
         chart = ch.matchup_chart(
             [{"archetype": m.archetype.text, "opponent": m.opponent.text, "win_rate": m.rate, "low": m.low,
               "high": m.high, "games": m.games, "draws": m.draws, "small": m.small, "mirror": m.mirror} for m in rows],
             [o for o in order if any(m.archetype.text == o for m in rows)],
-            f"matchups-{self.s.season_slug[season]}", min_games) if rows else None
+            f"matchups-{self.s.season_slug[season]}", min_games, checks=self.checks) if rows else None
         data = f"seasons/{self.s.season_slug[season]}/matchups.js" if chart is not None else ""
         return P.MatchupView(chart=chart, data=data, rows=tuple(rows), games=found.matches if found else 0,
                              draws=found.draws if found else 0, skipped=found.skipped if found else 0,
@@ -173,7 +173,7 @@ class QuestionPages:
                               exports.card_result_verdict(r)))) for x, y, z, r in rows]})
         heads = self.site.matchups
         if heads is not None:
-            min_games = int(self.site.cfg["matchups.min_games"])
+            min_games = self.settings.matchup_min_games
             header = exports.MATCHUP_HEADER
             found = []
             for season in s.seasons:
