@@ -245,11 +245,13 @@ def _trend_results():
 
 def test_rows_per_leader_in_season_order():
     rows = trend_rows(_trend_results(), ["S1", "S2"], min_games=100)
-    assert list(rows) == ["Kor", "Vessa"]
-    shares = rows["Vessa"]["shares"]
-    assert [(r["season"], r["slug"]) for r in shares] == [("S1", "alpha"), ("S2", "alpha"), ("S2", "beta"), ("S2", "other")]
-    assert sum(r["share"] for r in shares if r["season"] == "S2") == pytest.approx(1.0)
-    assert shares[1] == {"season": "S2", "archetype": "Alpha", "slug": "alpha", "share": 0.6, "decks": 60}
+    assert list(rows) == ["Kor", "Vessa"] and set(rows["Vessa"]) == {"winrates"}
+    # S1 is given first though its result comes second; within S2 the partition's archetype order.
+    s1_with_games = result("S1", "Vessa", [arch("a1", "alpha", cards("a", 3), season="S1", n_decks=50, share=1.0,
+                                                wins=5, losses=5)])
+    rows = trend_rows([_trend_results()[0], s1_with_games], ["S1", "S2"], min_games=100)
+    assert [(r["season"], r["slug"]) for r in rows["Vessa"]["winrates"]] == [("S1", "alpha"), ("S2", "alpha"),
+                                                                            ("S2", "beta")]
 
 
 def test_win_rates_carry_wilson_interval_and_small_flag():
@@ -269,7 +271,7 @@ def test_win_rates_carry_wilson_interval_and_small_flag():
 def test_min_games_zero_flags_nothing_and_unknown_seasons_are_left_out():
     rows = trend_rows(_trend_results(), ["S2"], min_games=0)
     assert all(not r["small"] for leader in rows.values() for r in leader["winrates"])
-    assert {r["season"] for r in rows["Vessa"]["shares"]} == {"S2"}
+    assert {r["season"] for r in rows["Vessa"]["winrates"]} == {"S2"}
 
 
 # -- linking the analysis of the demo data, scored against its planted truth ------------------

@@ -1,7 +1,8 @@
-"""Rows for the over-time charts: each archetype's share and win rate per season.
+"""Rows for the win-rate-over-time charts: each archetype's win rate per season.
 
 Run after season linking (and overrides), so one slug is one line across
-seasons. Win rates carry a 95% Wilson interval; those from fewer than
+seasons. (Shares over time are read by the site from the results themselves,
+exact, as every other share on the pages is.) Win rates carry a 95% Wilson interval; those from fewer than
 ``min_games`` games are flagged ``small`` so charts can draw them faintly
 and tables can leave them out of rankings.
 """
@@ -17,11 +18,9 @@ _DIGITS = 6
 
 
 def trend_rows(results: Sequence[PartitionResult], seasons: Sequence[str], min_games: int) -> dict[str, dict[str, list[dict]]]:
-    """Per leader: ``{"shares": [...], "winrates": [...]}`` rows, in season order.
+    """Per leader: ``{"winrates": [...]}`` rows, in season order.
 
-    ``shares`` rows: season, archetype (its name), slug, share (of the
-    partition's decks), decks; the other-decks group is included, so a
-    season's shares add up to 1. ``winrates`` rows: season, archetype, slug,
+    ``winrates`` rows: season, archetype, slug,
     win_rate, low, high (Wilson interval), games, small; archetypes only,
     and only those with at least one recorded game. Leaders are in name
     order; within a season rows follow the partition's archetype order.
@@ -33,12 +32,8 @@ def trend_rows(results: Sequence[PartitionResult], seasons: Sequence[str], min_g
     for r in placed:
         if not r.groups:
             continue
-        rows = out.setdefault(r.leader, {"shares": [], "winrates": []})
+        rows = out.setdefault(r.leader, {"winrates": []})
         for a in r.groups:
-            rows["shares"].append({
-                "season": r.season, "archetype": a.name, "slug": a.slug,
-                "share": round(float(a.share), _DIGITS), "decks": int(a.n_decks),
-            })
             games = int(a.wins) + int(a.losses)
             if a.is_other or games == 0:
                 continue
