@@ -66,6 +66,7 @@ def build(
         from .analysis.trends import trend_rows
         from .cache import Cache
         from .load import load_data, open_season_folder
+        from .load.settings import LoadSettings
         from .runner import Analyses
         from .site.charts import ChartChecks
         from .site.classify import relabelling
@@ -77,21 +78,22 @@ def build(
                       scheduler=settings.scheduler, progress=progress) as runs:
             runs.start_workers()  # before the data is loaded: workers are forked from this process
             with progress.stage("reading decks"):
-                folder = open_season_folder(cfg, cache)
-                data = load_data(cfg) if folder is None else None
+                loading = LoadSettings.from_config(cfg)  # what the load and check stages read, made once
+                folder = open_season_folder(loading, cache)
+                data = load_data(loading) if folder is None else None
                 if data is not None:
                     progress.say(f"  {len(data.decks):,} decks, {len(data.cards):,} card rows, {len(data.seasons)} season(s)")
                 else:
                     progress.say(f"  {len(folder.files)} season folder(s), read and analysed one season at a time")
             if data is not None:
-                matches = stages.read_matches(cfg, settings, data, progress)  # a bad table stops the build early
-                data, results, run = stages.analyse_tables(data, cfg, settings, runs, progress)
+                matches = stages.read_matches(loading, settings, data, progress)  # a bad table stops the build early
+                data, results, run = stages.analyse_tables(data, loading, settings, runs, progress)
             else:
                 data, results, run = stages.analyse_folder(folder, settings, runs, progress)
             if data.excluded:
                 progress.say(f"  {len(data.excluded):,} deck(s) break a rule and are left out")
             if folder is not None:  # tables read whole had their matches read before the analysis
-                matches = stages.read_matches(cfg, settings, data, progress)
+                matches = stages.read_matches(loading, settings, data, progress)
             with progress.stage("drawing maps"):
                 results = runs.draw_maps(results, data.seasons)
                 run = replace(run, mapped=runs.mapped)

@@ -5,18 +5,18 @@ from __future__ import annotations
 from dataclasses import replace
 
 from .build_settings import BuildSettings
-from .config import Config
+from .load.settings import LoadSettings
 from .progress import Progress
 
 
-def read_matches(cfg: Config, settings: BuildSettings, data, progress: Progress):
+def read_matches(loading: LoadSettings, settings: BuildSettings, data, progress: Progress):
     """The checked matches table (data.matches), or None; a bad table stops the build before anything is written."""
     if settings.matches is None:
         return None
     from .load.matches import read_matches as read
 
     with progress.stage("reading matches"):
-        matches = read(cfg, data.decks["deck_id"])
+        matches = read(loading, data.decks["deck_id"])
         progress.say(f"  {len(matches):,} matches")
     return matches
 
@@ -30,14 +30,14 @@ def matchups(matches, data, linked):
     return head_to_head(matches, data.decks, linked, data.seasons)
 
 
-def analyse_tables(data, cfg: Config, settings: BuildSettings, runs, progress: Progress):
+def analyse_tables(data, loading: LoadSettings, settings: BuildSettings, runs, progress: Progress):
     """Check, split and analyse data read whole; the checked data, results (maps not drawn) and
     run report. Seasons whose rows are as at a build the cache remembers are not cut again."""
     from .check import check_rules
     from .partitions import split
 
     with progress.stage("checking deck-building rules"):
-        data = check_rules(data, cfg)
+        data = check_rules(data, loading)
     season_keys, known = runs.known_seasons(data, settings.by_leader)
     parts = split(data, settings.by_leader, skip=known)
     total = len(parts) + sum(len(p) for p in known.values())
