@@ -39,7 +39,9 @@ def split(data: DeckData, by_leader: bool, skip: Collection[str] = ()) -> list[P
     Decks in ``data.excluded`` (rule breakers, when the config leaves them
     out) are not in any partition. Rows are taken by their decks' runs of
     rows (the loader's order) or else with one stable sort, so the cost is
-    linear in the number of card rows.
+    linear in the number of card rows (``tests/test_load_large.py`` checks the
+    runs against pandas on 150 000 planted rows). Partitions are cut
+    side by side, one thread per core: gathering rows releases the GIL.
     """
     decks = data.decks
     n = len(decks)

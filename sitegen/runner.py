@@ -77,11 +77,15 @@ def _one_thread() -> None:
         pass
 
 
-# The analysis code brings in scikit-learn and openTSNE, which the building process itself never
-# uses: only its workers do. So it is imported at a worker's first job (see start_workers, which
-# has the workers import it while this process reads the data), not when this module is.
 def analyse_partition(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
-    """:func:`sitegen.analysis.partition.analyse_partition`, imported at first use."""
+    """:func:`sitegen.analysis.partition.analyse_partition`, imported at first use.
+
+    The analysis code brings in scikit-learn and openTSNE (1.3 s), which the
+    building process itself never uses: only its workers do. So it is
+    imported at a worker's first job, not when this module is, and
+    :meth:`Analyses.start_workers` has the workers import it while this
+    process reads the data.
+    """
     from .analysis import partition
 
     return partition.analyse_partition(part, params)
@@ -206,7 +210,11 @@ class Analyses:
             self._client = None
 
     def add(self, parts: Sequence[PartitionInput]) -> int:
-        """Look each partition up in the cache and start the analysis of those not found; how many were started."""
+        """Look each partition up in the cache and start the analysis of those not found; how many were started.
+
+        Partitions go to the local workers largest first (by card rows): the
+        last few jobs are then short, and no worker waits long for the last one.
+        """
         todo = []
         cached = 0
         for part, fp in zip(parts, _fingerprints(parts, self.params, self.version)):
@@ -233,7 +241,6 @@ class Analyses:
             return len(todo)
         self.start_workers()
         if not self._inline:
-            # Largest first: the last few jobs are then short, and no worker waits long for the last one.
             todo.sort(key=lambda job: -len(job[1].cards))
         for i, part in todo:
             if self._inline:

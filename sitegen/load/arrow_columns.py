@@ -97,10 +97,11 @@ def runs_as_categories(column: pa.ChunkedArray, guess: pd.Series | None = None) 
 
 def chunks_as_categories(column: pa.ChunkedArray) -> pd.Series:
     """A dictionary column of many chunks (row groups) as one categorical, categories sorted
-    (code point order, as Python sorts text), so a code's order is its name's. Each chunk's
-    small dictionary is looked up among the categories by Arrow and its indices taken into
-    one array; unifying the dictionaries in Arrow and converting makes two copies of every
-    row instead."""
+    (code point order, as Python sorts text), so a code's order is its name's: the later
+    lookups by name order (``card_rows._sort_order``, ``normalise._card_rows``) then change
+    nothing and are skipped. Each chunk's small dictionary is looked up among the categories
+    by Arrow and its indices taken into one array; unifying the dictionaries in Arrow and
+    converting makes two copies of every row instead."""
     chunks = [chunk for chunk in column.chunks if len(chunk)]
     dictionaries = [chunk.dictionary.cast(pa.string()) for chunk in chunks]
     names = pc.unique(pa.concat_arrays(dictionaries)).drop_null() if dictionaries else pa.array([], pa.string())

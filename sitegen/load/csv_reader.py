@@ -123,14 +123,21 @@ _DICTIONARY = pa.dictionary(pa.int32(), pa.string())
 def read_csv(path: Path, wanted: dict[str, str], numeric: frozenset[str],
               categorical: frozenset[str] = frozenset(), guess: dict[str, pd.Series] | None = None,
               delimiter: str = ",") -> pd.DataFrame:
+    """The ``wanted`` columns of a CSV file (logical name -> the file's name), read by pyarrow.
+
+    The ``numeric`` columns are parsed by pyarrow when every cell is a plain
+    whole number or empty, as 16-bit numbers first (a quarter of the memory
+    of 64-bit, which on a large file is most of the parse), then 64-bit;
+    otherwise the file is read again as text, and the rows to blame are
+    found later, where they can be named. When pyarrow refuses the file,
+    :func:`_read_csv_slow` blames a row, or else reads it with pandas.
+    """
     raw_names = list(dict.fromkeys(wanted.values()))
-    # Numbers are parsed by pyarrow when every cell is a plain whole number or empty; otherwise the
-    # file is read again as text, and the rows to blame are found where they can be named.
     whole = [wanted[c] for c in numeric if c in wanted]
     try:
         table = None
-        # 16-bit numbers first (copies of a card): a quarter of the memory of 64-bit, which on a large
-        # file is most of the parse; a count beyond them (or any other refusal) tries 64-bit, then text.
+        # 16-bit numbers first (copies of a card); a count beyond them (or any other refusal) tries
+        # 64-bit, then text.
         for kind in ((pa.int16(), pa.int64()) if whole else ()):
             try:
                 table = _arrow_csv(path, raw_names, categorical, frozenset(whole), kind, delimiter)

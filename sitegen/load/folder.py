@@ -12,7 +12,8 @@ rebuild after one season changed opens only that season's files here. Then
 rows at a time (each season's deck table is read again then: it is small);
 the caller analyses them while it reads the next, and waits for a season's
 analyses before it reads the season after, so no more than two seasons'
-card rows, which are nearly all of the data (a deck has dozens), are held.
+card rows, which are nearly all of the data (a deck has dozens), are held
+(``tests/test_season_folder.py`` checks that with weak references).
 
 The result is the same as reading the folder whole: the same decks, the
 same spellings, the same findings in the same order.

@@ -24,6 +24,97 @@ export block   a season's assignments rows          last-build.json (site/export
 chart checks   schema, compiler, render salt        last-build.json (site/charts.py)
 no-op stamp    names, sizes, times of every input   last-build.json (:func:`input_stamp`)
 ============== ==================================== ======================================
+
+What each kind keeps, and when it is trusted:
+
+*No-op rebuild* (:mod:`.last_build`, :func:`input_stamp`). Before any stage
+runs, a stamp of the inputs (settings; the names, sizes and times of the
+data, note and template files and of sitegen's own code) and the output
+folder's listing are compared with the last build's (``last-build.json``);
+when both match, the build stops there, before any data is read or any
+worker started. (Importing :mod:`sitegen.build` already brings in numpy,
+pandas, pyarrow and scipy, through :mod:`sitegen.model` and this package:
+the early stop saves the other stages' imports, not those.)
+
+*Season folder, first pass* (:class:`sitegen.load.folder.SummaryMemo`,
+:func:`season_summary_key`). What the first pass took from each season (its
+leader and card names with their row counts, its first date, and sorted
+64-bit hashes of its deck ids) is kept as a
+:class:`~sitegen.model.SeasonSummary` under the season files' stamps, the
+column names, the library versions and the loading code: a rebuild's first
+pass opens only the changed seasons' files (and the deck tables of seasons
+whose id hashes meet another season's, to compare their ids exactly).
+
+*Season folder, one season* (:class:`sitegen.load.folder.SeasonMemo`,
+:func:`season_record_key`, :func:`record_salt`). What a season gave a build
+(checked decks, findings, rule breakers, its partitions' fingerprints) is
+kept as a :class:`~sitegen.model.SeasonRecord` under the season's two files
+(path, size, time of change), the spellings decided over the whole folder,
+the settings, the card table, the analysis version and the code that reads,
+checks and splits; the next build hands the record over instead of reading
+the season, when the runner still holds every one of its results
+(:meth:`sitegen.runner.Analyses.add_known`).
+
+*Flat tables, season split* (:func:`sitegen.partitions.season_keys`,
+:class:`sitegen.model.SeasonSplit`, :func:`split_salt`). With flat tables
+every season is read again whenever a table changes, but a season whose rows
+did not change need not be cut or fingerprinted again. Its key digests the
+season's slices of the tables as they lie (every deck column, the card codes
+and copies of its card rows, the rows per deck, which of its decks are left
+out, and once for all the card names and the card table), under
+:func:`split_salt` (the analysis settings and code and the splitting code;
+not the files' names or times, so a copy of the same rows elsewhere is still
+known). A later build that finds the key, and every result it names, splits
+only the other seasons (``RunReport.seasons_known``). Keys are made only
+where the loader's order holds (each season's decks one run of rows, card
+rows grouped by deck in deck order) and there are two seasons or more;
+otherwise every season is cut (``tests/test_partitions.py`` checks that a key
+changes exactly when one of its season's partition fingerprints does).
+
+*Partition analyses* (:func:`fingerprint`, :func:`analysis_version`;
+``cache.py``, ``runner.py``). Each result is stored under a fingerprint of
+its rows, its card types, its settings, the tool's version and a digest of
+the analysis code.
+
+*Maps* (:func:`map_key`, :meth:`sitegen.runner.Analyses.draw_maps`). A map
+is cached under a digest of its partition's fingerprint and of the key of the
+map it started from: a changed season redraws its own map and the later maps
+of the same leader, and re-analyses nothing else. With a season folder a map
+also waits until every season before its own has been handed in (the order
+comes from the first pass, :meth:`sitegen.load.folder.SeasonFolder.season_order`).
+
+*Assignments files* (:class:`sitegen.site.exports.ExportBlocks`). The files
+with one row per deck go by season, made one season's block at a time; a
+block whose inputs digest to a key the last build listed in
+``last-build.json`` is copied from the last build's files, when those are
+still as it left them (``tests/test_exports.py`` checks the bytes against the
+whole-file writers, which are checked against ``json`` and ``csv``). The
+inputs are not the million rows themselves: each result carries a
+``rows_key`` naming where its rows come from (its fingerprint and the points
+of the map placed into them, :func:`placed_key`, and the relabelling of any
+merge or hide in the notes), and a season's decks are its partitions' decks
+and those left out of them; only when a result has no such key, a partition
+spans every leader, or the counts do not add up, are the rows digested.
+
+*Pages* (:class:`sitegen.site.memo.PageMemo`, :func:`page_key`,
+:func:`render_salt`). A page is a pure function of its template and its
+context, so each page's key digests the template's name and the pickled
+context (a map chart stands by the text of its inputs, see
+``sitegen/site/keys.py``) under a salt of every template file and of the
+rendering code; a page whose key the last build listed, and whose file is as
+that build left it, is taken from the output folder instead of rendered
+(``tests/test_incremental.py`` checks that such a rebuild is byte for byte a
+clean build's, that a page edited by hand in the output is rendered again,
+and that a changed template reuses nothing).
+
+*Chart checks* (:func:`sitegen.site.charts.check_salt`). The digests of the
+spec skeletons that passed are kept in ``last-build.json`` under a salt of
+the page salt (templates and rendering code), the schema file and
+vl-convert's release, and a rebuild checks only skeletons it has not seen.
+
+*Chart bundle* (``site/assets.py``, not keyed here). The offline Vega bundle
+takes a second or two to make, so it is kept in ``cache.folder``, one file
+per vl-convert and Vega-Lite version (in its name).
 """
 from __future__ import annotations
 
