@@ -1,4 +1,4 @@
-"""Every key and salt a build files its reusable work under, made in this one place.
+"""The keys and salts a build files its reusable work under, made here or (as the table says) beside the work.
 
 A *key* names one piece of reusable work (a partition's analysis, a map, a
 season's split, record or summary, a page, an export block); a *salt* is
