@@ -41,7 +41,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.stats import fisher_exact
 
 #: Random decks drawn per partition for the cut (a cut is about their 10th most similar at k = 8),
 #: made NULL_BATCH at a time.
@@ -158,6 +157,8 @@ def distinct(present: sp.csr_matrix, a: np.ndarray, b: np.ndarray, rate_a: np.nd
     q = yules_q(together, only_x, only_y, neither)
     if (q <= EXCLUSION).any():
         return True
+    from scipy.stats import fisher_exact  # here: placing decks (membership.place) needs none of scipy.stats
+
     for i, j in zip(*np.nonzero(q <= EXCLUSION_LOOSE)):
         table = [[together[i, j], only_x[i, j]], [only_y[i, j], neither[i, j]]]
         if fisher_exact(table, alternative="less").pvalue < EXCLUSION_P:

@@ -94,22 +94,16 @@ def place_decks(cards: pd.DataFrame, deck_ids: list[str], rule) -> np.ndarray:
     keep = ids.isin(row_of).to_numpy() & cards["card"].astype(str).isin(col_of).to_numpy()
     rows = ids[keep].map(row_of).to_numpy(dtype=np.int64)
     cols = cards["card"].astype(str)[keep].map(col_of).to_numpy(dtype=np.int64)
-    idf = np.asarray(rule.idf, dtype=float)
-    m = sp.csr_matrix((idf[cols], (rows, cols)), shape=(len(deck_ids), len(rule.cards)))
-    m.sum_duplicates()
-    m.data = idf[m.indices]  # presence, not copies: a card counted once
-    norms = np.sqrt(np.asarray(m.multiply(m).sum(axis=1)).ravel())
-    norms[norms == 0] = 1.0
-    m = sp.diags(1.0 / norms) @ m
-    centres = np.asarray(rule.centres, dtype=float)
-    sims = np.asarray(m @ centres.T)
-    near = np.argmax(sims, axis=1)
-    sim = sims[np.arange(len(deck_ids)), near]
-    return np.where(sim >= np.asarray(rule.cuts)[near], near, -1)
+    presence = sp.csr_matrix((np.ones(len(rows)), (rows, cols)), shape=(len(deck_ids), len(rule.cards)))
+    return place_rows(presence, tuple(rule.cards), rule)
 
 
 def place_rows(presence: sp.csr_matrix, cards: tuple[str, ...], rule) -> np.ndarray:
-    """As :func:`place_decks`, for decks given as card presence over ``cards``."""
+    """As :func:`place_decks`, for decks given as card presence over ``cards``: each deck's unit row
+    of its cards' idf weights (presence, a card counted once), placed by the rule's own arithmetic
+    (:func:`sitegen.analysis.membership.place`)."""
+    from ..analysis.membership import place
+
     n = presence.shape[0]
     if rule is None or len(rule.keys) == 0 or n == 0:
         return np.full(n, -1)
@@ -119,14 +113,14 @@ def place_rows(presence: sp.csr_matrix, cards: tuple[str, ...], rule) -> np.ndar
     keep = to[coo.col] >= 0
     cols = to[coo.col[keep]]
     idf = np.asarray(rule.idf, dtype=float)
-    m = sp.csr_matrix((idf[cols], (coo.row[keep], cols)), shape=(n, len(rule.cards)))
+    m = sp.csr_matrix((np.ones(len(cols)), (coo.row[keep], cols)), shape=(n, len(rule.cards)))
+    m.sum_duplicates()
+    m.data = idf[m.indices]  # presence, not copies: a card counted once
     norms = np.sqrt(np.asarray(m.multiply(m).sum(axis=1)).ravel())
     norms[norms == 0] = 1.0
-    m = sp.diags(1.0 / norms) @ m
-    sims = np.asarray(m @ np.asarray(rule.centres, dtype=float).T)
-    near = np.argmax(sims, axis=1)
-    sim = sims[np.arange(n), near]
-    return np.where(sim >= np.asarray(rule.cuts)[near], near, -1)
+    labels, _ = place(sp.csr_matrix(sp.diags(1.0 / norms) @ m), np.asarray(rule.centres, dtype=float),
+                      np.asarray(rule.cuts))
+    return labels
 
 
 def flows(before: PartitionResult, after: PartitionResult, cards: pd.DataFrame) -> dict[str, dict[str, float]]:
