@@ -31,26 +31,8 @@
   var html = document.documentElement;
   var root = html.getAttribute("data-root") || "";
   var library = html.getAttribute("data-chart-library") || "";
-  var scripts = {};  // src -> {done, failed, waiting: [callback]}
 
-  function loadScript(src, callback) {
-    var entry = scripts[src];
-    if (entry && entry.done) { callback(entry.failed); return; }
-    if (entry) { entry.waiting.push(callback); return; }
-    entry = scripts[src] = { done: false, failed: false, waiting: [callback] };
-    var el = document.createElement("script");
-    el.src = src;
-    function finish(failed) {
-      entry.done = true;
-      entry.failed = failed;
-      var waiting = entry.waiting;
-      entry.waiting = [];
-      for (var i = 0; i < waiting.length; i++) waiting[i](failed);
-    }
-    el.onload = function () { finish(false); };
-    el.onerror = function () { finish(true); };
-    document.body.appendChild(el);
-  }
+  var loadScript = window.SITEGEN_LOAD_SCRIPT;  // site.js, loaded before this file
 
   function withLibrary(callback) {
     if (typeof window.vegaEmbed === "function") { callback(true); return; }

@@ -12,7 +12,6 @@
   var SHOWN = 20;
   var root = document.documentElement.getAttribute("data-root") || "";
   var manifest = null;
-  var scripts = {};
   var lookups = {};
 
   function byId(id) { return document.getElementById(id); }
@@ -115,23 +114,8 @@
   }
 
   /* -- the models */
-  function loadScript(src, callback) {
-    var entry = scripts[src];
-    if (entry && entry.done) { callback(entry.failed); return; }
-    if (entry) { entry.waiting.push(callback); return; }
-    entry = scripts[src] = { done: false, failed: false, waiting: [callback] };
-    var s = document.createElement("script");
-    s.src = root + src;
-    function finish(failed) {
-      entry.done = true;
-      entry.failed = failed;
-      var waiting = entry.waiting;
-      entry.waiting = [];
-      for (var i = 0; i < waiting.length; i++) { waiting[i](failed); }
-    }
-    s.onload = function () { finish(false); };
-    s.onerror = function () { finish(true); };
-    document.body.appendChild(s);
+  function loadScript(src, callback) {  // the shared loader of site.js, loaded before this file
+    window.SITEGEN_LOAD_SCRIPT(root + src, callback);
   }
 
   function lookupOf(path, model) {

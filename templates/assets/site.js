@@ -6,6 +6,29 @@
 
   var root = document.documentElement.getAttribute("data-root") || "";
 
+  /* -- one loader of scripts for the page's other scripts (charts.js: the Vega bundle and chart
+   * data files; classify.js: the models): each src is added once, and every caller hears when it
+   * has loaded or failed. Script elements, not fetch(), which file:// refuses. */
+  var loaded = {};  // src -> {done, failed, waiting: [callback]}
+  window.SITEGEN_LOAD_SCRIPT = function (src, callback) {
+    var entry = loaded[src];
+    if (entry && entry.done) { callback(entry.failed); return; }
+    if (entry) { entry.waiting.push(callback); return; }
+    entry = loaded[src] = { done: false, failed: false, waiting: [callback] };
+    var el = document.createElement("script");
+    el.src = src;
+    function finish(failed) {
+      entry.done = true;
+      entry.failed = failed;
+      var waiting = entry.waiting;
+      entry.waiting = [];
+      for (var i = 0; i < waiting.length; i++) { waiting[i](failed); }
+    }
+    el.onload = function () { finish(false); };
+    el.onerror = function () { finish(true); };
+    document.body.appendChild(el);
+  };
+
   /* -- search: the index is a global set by search-index.js (fetch() is refused on file://).
    * The box is a combobox with a list popup (WAI-ARIA Authoring Practices, combobox pattern):
    * typing opens the list, Down/Up move through it (aria-activedescendant), Enter opens the
