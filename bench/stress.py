@@ -759,27 +759,34 @@ class CellScore:
     def n_decks(self) -> int:
         return sum(p.n_decks for p in self.parts)
 
+    def _by_decks(self, name: str) -> float:
+        """A partition figure averaged over the cell, each partition weighted by its decks."""
+        return float(np.average([getattr(p, name) for p in self.parts], weights=[p.n_decks for p in self.parts]))
+
+    def _pooled(self, hits: str, total: str) -> float | None:
+        """Counts added up over the cell's partitions, as a share (None when there is nothing to count)."""
+        d = sum(getattr(p, total) for p in self.parts)
+        return sum(getattr(p, hits) for p in self.parts) / d if d else None
+
     @property
     def ari(self) -> float:
-        return float(np.average([p.ari for p in self.parts], weights=[p.n_decks for p in self.parts]))
+        return self._by_decks("ari")
 
     @property
     def ceiling(self) -> float:
-        return float(np.average([p.ceiling for p in self.parts], weights=[p.n_decks for p in self.parts]))
+        return self._by_decks("ceiling")
 
     @property
     def informed(self) -> float:
-        return float(np.average([p.informed for p in self.parts], weights=[p.n_decks for p in self.parts]))
+        return self._by_decks("informed")
 
     @property
     def coverage(self) -> float | None:
-        d = sum(p.coverable for p in self.parts)
-        return sum(p.covered for p in self.parts) / d if d else None
+        return self._pooled("covered", "coverable")
 
     @property
     def brews_in_other(self) -> float | None:
-        d = sum(p.brews for p in self.parts)
-        return sum(p.brews_other for p in self.parts) / d if d else None
+        return self._pooled("brews_other", "brews")
 
     @property
     def k_exact(self) -> float:
@@ -787,8 +794,7 @@ class CellScore:
 
     @property
     def signature(self) -> float | None:
-        d = sum(p.signature_total for p in self.parts)
-        return sum(p.signature_ok for p in self.parts) / d if d else None
+        return self._pooled("signature_ok", "signature_total")
 
     @property
     def seconds(self) -> float:
