@@ -15,14 +15,13 @@ from typing import TextIO
 
 from . import config as config_mod
 from .build_report import BuildReport
-from .build_settings import BuildSettings, checked_output, output_dir, retired_settings, templates_dirs
+from .build_settings import BuildSettings
 from .config import Config
 from .progress import Progress
 from .reuse.last_build import LastBuild
 from .writing import build_lock, write_site
 
-# Named here for the commands and tests that import them from sitegen.build.
-__all__ = ["BuildReport", "build", "checked_output", "output_dir", "retired_settings", "templates_dirs"]
+__all__ = ["BuildReport", "build"]
 
 # The stages (the loaders, the site code with jinja, and through the runner the analysis with
 # scikit-learn) are imported inside build(), after the up-to-date check, so a rebuild with nothing

@@ -87,7 +87,7 @@ class BuildSettings:
 
     def output_dir(self, override: Path | str | None = None) -> Path:
         """Where the site goes: the command line's folder, else site.output beside the config
-        (as spelled: see :func:`checked_output` for the folder a build writes)."""
+        (as spelled: see :meth:`checked_output` for the folder a build writes)."""
         if override is not None:
             if not str(override).strip():
                 raise ConfigError("command line", "-o", "the output folder is empty (it would mean the current folder)",
@@ -130,19 +130,3 @@ class BuildSettings:
         return check_output(out, setting=setting, given=given, fix=fix, config_dir=self.root,
                             protected=protected, known_files=LastBuild(self.cache_folder).known_output())
 
-
-# The names other modules and tests know, taking a Config.
-def output_dir(cfg: Config, override: Path | str | None = None) -> Path:
-    return BuildSettings.from_config(cfg).output_dir(override)
-
-
-def checked_output(cfg: Config, override: Path | str | None = None) -> tuple[Path, bool]:
-    return BuildSettings.from_config(cfg).checked_output(override)
-
-
-def templates_dirs(cfg: Config) -> tuple[Path, ...]:
-    return BuildSettings.from_config(cfg).templates_dirs
-
-
-def retired_settings(cfg: Config) -> tuple[Finding, ...]:
-    return BuildSettings.from_config(cfg).retired_findings()

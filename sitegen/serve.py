@@ -165,16 +165,16 @@ def serve(target: Path, *, host: str = "127.0.0.1", port: int = 8000, watch: boo
         root = target
     else:
         from . import config as config_mod
-        from .build import output_dir
+        from .build_settings import BuildSettings
 
         cfg = config_mod.load(target / "site.toml" if target.is_dir() else target)
-        root = output_dir(cfg)
+        root = BuildSettings.from_config(cfg).output_dir()
     if watch and cfg is None:
         raise SitegenError("--watch needs the site's config file, not a built folder; give the path of site.toml")
     if watch:
-        from .build import checked_output
+        from .build_settings import BuildSettings
 
-        checked_output(cfg)  # --watch rebuilds into the output: refuse one a build must not replace, now
+        BuildSettings.from_config(cfg).checked_output()  # --watch rebuilds into the output: refuse one a build must not replace, now
     if not root.is_dir():
         raise SitegenError(f"no built site at {root}; run 'sitegen build' first")
     state = _WatchState() if watch else None

@@ -65,9 +65,10 @@ def test_retired_settings_still_load_and_are_named(tmp_path):
     # Settings of older versions are accepted (a site.toml keeps working) and named for a warning.
     cfg = config.load(_write(tmp_path, "[analysis]\nk_min = 9\nmin_signature = 0.5\nk_max = 4\n"))
     assert cfg.retired == ("analysis.k_min", "analysis.min_signature") and cfg["analysis.k_max"] == 4
-    from sitegen.build import retired_settings
-    assert [f.kind for f in retired_settings(cfg)] == ["setting-retired"] * 2
-    assert "analysis.k_min" in retired_settings(cfg)[0].message
+    from sitegen.build_settings import BuildSettings
+    retired = BuildSettings.from_config(cfg).retired_findings()
+    assert [f.kind for f in retired] == ["setting-retired"] * 2
+    assert "analysis.k_min" in retired[0].message
 
 
 def test_calendar_entries_need_name_start_end(tmp_path):

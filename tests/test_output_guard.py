@@ -17,7 +17,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from sitegen import config
-from sitegen.build import build, checked_output
+from sitegen.build import build
+from sitegen.build_settings import BuildSettings
 from sitegen.errors import BuildBusyError, SitegenError
 from sitegen.writing import MARKER, build_lock, lock_path, write_site
 
@@ -293,7 +294,7 @@ def test_random_layouts_never_lose_a_file_sitegen_did_not_write():
             ours = {f"p/site/{name}" for name in [*SITE_BEFORE, MARKER]}  # written by sitegen
             override = str(base / layout["output"]) if layout["by_option"] else None
             try:
-                out, adopt = checked_output(cfg, override)  # as build() does, then lock and write
+                out, adopt = BuildSettings.from_config(cfg).checked_output(override)  # as build() does, then lock and write
                 with build_lock(out):
                     write_site(out, SITE_FILES, adopt=adopt)
             except SitegenError:
