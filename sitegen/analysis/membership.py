@@ -92,12 +92,16 @@ def unit_rows(matrix: np.ndarray) -> np.ndarray:
     return matrix / norms
 
 
+def group_sums(matrix: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
+    """Each group's rows added up (k x columns, dense); rows labelled -1 (or k and above) count nowhere."""
+    keep = (labels >= 0) & (labels < k)
+    onehot = sp.csr_matrix((np.ones(int(keep.sum())), (labels[keep], np.flatnonzero(keep))), shape=(k, matrix.shape[0]))
+    return np.asarray((onehot @ matrix).todense())
+
+
 def centres_of(weights: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
     """The unit mean direction of each group's rows (k x cards); an empty group is a zero row."""
-    n = weights.shape[0]
-    keep = (labels >= 0) & (labels < k)
-    onehot = sp.csr_matrix((np.ones(int(keep.sum())), (labels[keep], np.flatnonzero(keep))), shape=(k, n))
-    return unit_rows(np.asarray((onehot @ weights).todense()))
+    return unit_rows(group_sums(weights, labels, k))
 
 
 def similarities(weights: sp.csr_matrix, centres: np.ndarray) -> np.ndarray:
@@ -109,10 +113,8 @@ def similarities(weights: sp.csr_matrix, centres: np.ndarray) -> np.ndarray:
 
 def rates(present: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
     """Share of each group's decks playing each card (k x cards)."""
-    n = present.shape[0]
+    counts = group_sums(present, labels, k)
     keep = (labels >= 0) & (labels < k)
-    onehot = sp.csr_matrix((np.ones(int(keep.sum())), (labels[keep], np.flatnonzero(keep))), shape=(k, n))
-    counts = np.asarray((onehot @ present).todense())
     sizes = np.bincount(labels[keep], minlength=k).astype(np.float64)
     return counts / np.maximum(sizes, 1.0)[:, None]
 
@@ -450,10 +452,8 @@ def _prune(present, weights, nulls, labels, least) -> tuple[np.ndarray, int, int
 
 def _own_out_similarities(weights: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
     """Similarity of every deck to every group's centre, its own group's centre taken without it."""
-    n = weights.shape[0]
     keep = labels >= 0
-    onehot = sp.csr_matrix((np.ones(int(keep.sum())), (labels[keep], np.flatnonzero(keep))), shape=(k, n))
-    sums = np.asarray((onehot @ weights).todense())
+    sums = group_sums(weights, labels, k)
     norms = np.linalg.norm(sums, axis=1)
     dots = np.asarray(weights @ sums.T)
     sims = dots / np.where(norms == 0, 1.0, norms)
