@@ -282,9 +282,11 @@ class PartitionResult:
     """Everything the analysis found in one season x leader partition.
 
     ``status`` is ``"clustered"`` or ``"too-small"`` (then ``reason`` says
-    why and ``archetypes`` is empty). ``silhouette`` is the (k, mean
-    silhouette) curve the chosen k was picked from; ``k_reason`` says how k
-    was chosen in plain words (automatic, pinned, refined by splits).
+    why and ``archetypes`` is empty). ``silhouette`` is empty: k is no
+    longer picked from a silhouette curve (the field stays so that
+    data/archetypes.json keeps its keys); ``k_reason`` says how the
+    archetypes came about in plain words (dense groups joined, split or
+    given up, or k pinned).
     ``assignments``: one row per deck, columns deck_id, archetype (key),
     distance (cosine distance to its archetype's centre), x, y (map
     coordinates, NaN where the deck was not drawn). ``map_points``: the
