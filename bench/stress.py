@@ -1033,6 +1033,12 @@ DEV_GRID: tuple[Cell, ...] = (
     Cell("dev-tiny-variants", StressSettings("power", 4, n_tail=1, n_tiny=2, n_variants=2, variant_keep=0.8,
                                              play_rate=(0.6, 0.9), brew_share=0.04, partial_share=0.3,
                                              sizes=(500, 5000), seed=112)),
+    Cell("dev-one-family", StressSettings("power", 3, n_tail=1, n_tiny=1, n_variants=2, variant_keep=0.8,
+                                          play_rate=(0.62, 0.9), core_size=(8, 11), neutral_core=0.3,
+                                          brew_share=0.08, brew_kind="staples", partial_share=0.2,
+                                          sizes=(600, 10000), seed=113)),
+    Cell("dev-one-archetype", StressSettings("even", 1, n_variants=0, brew_share=0.06, partial_share=0.2,
+                                             sizes=(120, 900), seed=114)),
 )
 
 #: Seed of the draw of the evaluation grid's settings, and its number of cells.

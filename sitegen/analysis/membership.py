@@ -4,12 +4,15 @@ Candidate groups come from :mod:`.cluster`; this module decides what is an
 archetype and what is an other deck, in the TF-IDF space the exports measure
 distances in (card presence weighted by rarity, each deck a unit row):
 
-- **Centres** are the unit mean direction of a group's rows; a deck is scored
-  by its cosine similarity to each centre and goes to the most similar.
+- **Centres** are the unit mean direction of a group's rows, blind to the
+  staples (cards at least half the decks of every group play, when there are
+  two groups or more): those columns are zero, so staples tell no archetype
+  from another nor from a random deck, while a deck's own staples still count
+  in its length. A deck is scored by its cosine similarity to each centre and
+  goes to the most similar.
 - **Random decks of the same leader** are the yardstick: each is a real deck of
-  the partition whose staples (cards at least half the decks of every group
-  play) are kept and whose other cards are swapped for cards drawn at random
-  from the partition's pool. A centre's *cut* is the similarity that random
+  the partition whose staples are kept and whose other cards are swapped for
+  cards drawn at random from the partition's pool. A centre's *cut* is the similarity that random
   decks reach only 1 time in 50 over all k centres (1 in 50k at each centre,
   since a deck gets to try its nearest). A deck less similar to its nearest
   centre than that cut is an other deck: it looks like a random pile to every
@@ -325,13 +328,14 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     # Final: centres from the groups' members; every deck placed by exactly these centres and cuts.
     # A centre left with fewer than ``least`` decks by this last placement is given up too (the others
     # stay as they are), so every centre kept is an archetype of at least ``least`` decks.
-    centres = centres_of(weights, labels, k)
+    staples = _staples(present, labels, k)
+    centres = centres_of(_blind(weights, staples), labels, k)
     while True:
         k = centres.shape[0]
         sims = similarities(weights, centres)
         near = np.argmax(sims, axis=1) if k else np.zeros(n, dtype=np.intp)
         sim = sims[np.arange(n), near] if k else np.zeros(n)
-        cuts = cuts_for(nulls(_staples(present, near, k)), centres) if k else np.zeros(0)
+        cuts = cuts_for(nulls(staples), centres) if k else np.zeros(0)
         final = np.where(sim >= cuts[near], near, -1) if k else np.full(n, -1)
         sizes = np.bincount(final[final >= 0], minlength=k)
         if k == 0 or sizes.min() >= least:
@@ -410,9 +414,19 @@ def _compact(labels: np.ndarray) -> np.ndarray:
     return out
 
 
+def _blind(weights: sp.csr_matrix, staples: np.ndarray) -> sp.csr_matrix:
+    """The rows with the staples' columns set to zero (each row keeps its length: a deck's staples
+    still count in its norm, so a deck made mostly of staples is like no centre)."""
+    if not staples.any():
+        return weights
+    return sp.csr_matrix(weights @ sp.diags((~staples).astype(np.float64)))
+
+
 def _staples(present: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
     """Cards played by at least :data:`STAPLE_SHARE` of the decks of every group."""
-    return np.all(rates(present, labels, k) >= STAPLE_SHARE, axis=0)
+    keep = (labels >= 0) & (labels < k)
+    held = np.bincount(labels[keep], minlength=k) > 0
+    return np.all(rates(present, labels, k)[held] >= STAPLE_SHARE, axis=0) & (held.sum() >= 2)
 
 
 def _prune(present, weights, nulls, labels, least) -> tuple[np.ndarray, int, int]:
@@ -429,19 +443,21 @@ def _prune(present, weights, nulls, labels, least) -> tuple[np.ndarray, int, int
         live = np.flatnonzero(alive)
         if len(live) == 0:
             break
-        sims = _own_out_similarities(weights, labels, k)[:, live]
+        staples = _staples(present, np.where((labels >= 0) & alive[np.maximum(labels, 0)], labels, -1), k)
+        blind = _blind(weights, staples)
+        sims = _own_out_similarities(blind, labels, k)[:, live]
         near = live[np.argmax(sims, axis=1)]
         sim = sims.max(axis=1)
         cuts = np.zeros(k)
-        centres = centres_of(weights, labels, k)
-        cuts[live] = cuts_for(nulls(_staples(present, near, k)), centres[live])
+        centres = centres_of(blind, labels, k)
+        cuts[live] = cuts_for(nulls(staples), centres[live])
         placed = np.where(sim >= cuts[near], near, -1)
         failed = False
         for c in live:
             members = np.flatnonzero(placed == c)
             if len(members) < least:
                 alive[c], small, failed = False, small + 1, True
-            elif np.median(loo_similarity(weights, members)) < cuts[c]:
+            elif np.median(loo_similarity(blind, members)) < cuts[c]:
                 alive[c], loose, failed = False, loose + 1, True
         settled = np.array_equal(placed, labels)
         labels = np.where((placed >= 0) & alive[np.maximum(placed, 0)], placed, -1)
