@@ -2,11 +2,13 @@
 
 The models are the files the build wrote into the site (``classify/index.json``
 and one ``classify/<season>/<leader>.json`` per partition; see
-:mod:`sitegen.site.classify`), so nothing is analysed again: a deck's TF-IDF
-row (its known cards' idf weights, presence not copies, unit length) goes to
-the most similar centre, or to the other decks below that centre's cut
-(:func:`sitegen.analysis.membership.place`), and is reported under the group
-the site shows that centre's decks in.
+:mod:`sitegen.site.classify`), so nothing is analysed again: a deck's known
+cards (presence, not copies) go to the archetype under whose card rates they
+are likeliest, or to the other decks when the other decks' rates fit best
+(:func:`sitegen.analysis.membership.place`), and the deck is reported under
+the group the site shows that archetype's decks in. Its distance is one less
+the cosine similarity of its TF-IDF row (the known cards' idf weights, unit
+length) to that archetype's centre.
 """
 from __future__ import annotations
 
@@ -142,7 +144,12 @@ class _Prepared:
         self.centres = np.zeros((len(doc["centres"]), m))
         for row, c in enumerate(doc["centres"]):
             self.centres[row, c["i"]] = c["w"]
-        self.cuts = np.asarray([c["cut"] for c in doc["centres"]], dtype=np.float64)
+        rates = [c["rates"] for c in doc["centres"]] + ([doc["other_rates"]] if doc["centres"] else [])
+        self.log_odds = np.zeros((len(rates), m))
+        for row, r in enumerate(rates):
+            self.log_odds[row] = r["floor"]
+            self.log_odds[row, r["i"]] = r["w"]
+        self.constants = np.asarray([r["b"] for r in rates], dtype=np.float64)
         self.to = [int(c["to"]) for c in doc["centres"]]
         self.mean = None
         if doc.get("mean"):
@@ -188,7 +195,7 @@ def _rows(model: _Prepared, decks: Sequence[Deck]) -> tuple[sp.csr_matrix, list[
 
 def place_decks(models: Models, decks: Sequence[Deck], season_opt: str | None) -> list[Placed]:
     """Every deck placed, in the order given."""
-    from .analysis.membership import place
+    from .analysis.membership import CardRates, place
 
     out: list[Placed | None] = [None] * len(decks)
     groups: dict[tuple[str, str], list[int]] = {}
@@ -201,9 +208,11 @@ def place_decks(models: Models, decks: Sequence[Deck], season_opt: str | None) -
         doc = model.doc
         rows, unknown = _rows(model, [decks[i] for i in members])
         names = [(g["slug"], g["name"]) for g in doc["groups"]]
-        if len(model.cuts):
-            labels, sim = place(rows, model.centres, model.cuts)
+        if len(model.to):
+            presence = sp.csr_matrix((np.ones(rows.nnz), rows.indices, rows.indptr), shape=rows.shape)
+            labels = place(presence, CardRates(model.log_odds, model.constants))
             sims = np.asarray(rows @ model.centres.T)
+            sim = np.where(labels >= 0, sims[np.arange(len(labels)), np.maximum(labels, 0)], sims.max(axis=1))
         else:
             labels = np.full(len(members), -1)
             sim = np.asarray(rows @ model.mean).ravel() if model.mean is not None else None

@@ -241,17 +241,20 @@ class Archetype:
 class Placement:
     """The rule a partition's decks were placed by, to place any decklist the same way.
 
-    A deck's TF-IDF row is its cards' ``idf`` weights (presence, not copies)
-    scaled to unit length; it goes to the archetype ``keys[i]`` whose unit
-    centre ``centres[i]`` (over ``cards``) it is most similar to, and is an
-    other deck when that similarity is below ``cuts[i]``.
+    A deck's card presence x (0 or 1 over ``cards``) scores ``x @ log_odds[i]
+    + constants[i]`` for archetype ``keys[i]`` and, in the last row, for the
+    other decks; it goes to the highest (ties: the first). ``centres[i]`` is
+    archetype i's unit mean direction in TF-IDF space (a deck's row: its
+    cards' ``idf`` weights scaled to unit length), which distances are
+    measured to.
     """
 
     cards: tuple[str, ...]
     idf: np.ndarray
     keys: tuple[str, ...]
     centres: np.ndarray
-    cuts: np.ndarray
+    log_odds: np.ndarray
+    constants: np.ndarray
     #: The unit mean direction of all the partition's decks: what a partition without archetypes
     #: measures its decks' distances to (None when it has no decks).
     mean: np.ndarray | None = None

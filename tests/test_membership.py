@@ -153,7 +153,9 @@ def test_every_deck_is_placed_by_the_stored_rule():
     counts, cards = features.build_matrix(part.cards, ids)
     assert cards == rule.cards
     w = features.tfidf(counts)
-    placed, sim = membership.place(w, rule.centres, rule.cuts)
+    placed = membership.place(features.presence(counts), membership.CardRates(rule.log_odds, rule.constants))
+    sim = np.where(placed >= 0, membership.similarities(w, rule.centres)[np.arange(len(placed)), np.maximum(placed, 0)],
+                   membership.similarities(w, rule.centres).max(axis=1))
     keys = np.array([rule.keys[p] if p >= 0 else OTHER_KEY for p in placed], dtype=object)
     np.testing.assert_array_equal(keys, result.assignments["archetype"].to_numpy())
     np.testing.assert_allclose(result.assignments["distance"].to_numpy(), np.round(1 - sim, 4), atol=1e-12)
@@ -200,3 +202,26 @@ def test_staples_need_two_groups_and_score_nothing():
     assert membership._staples(present, np.array([0, 0, 1, -1]), 3).tolist() == [True, False, False]
     blind = membership._blind(present, np.array([True, False, False]))
     assert blind[:, 0].nnz == 0 and blind[:, 1:].toarray().tolist() == present[:, 1:].toarray().tolist()
+
+
+def test_card_rates_are_scikit_learn_bernoulli_naive_bayes():
+    # Reference: sklearn.naive_bayes.BernoulliNB (alpha = RATE_SMOOTHING, class priors from the weighted
+    # class counts) fitted on the groups' decks and the other decks, the random decks weighing null_weight
+    # decks in all; place() must pick what its predict() picks, the other decks' row standing for -1.
+    from sklearn.naive_bayes import BernoulliNB
+
+    counts, _ = _rows(6, n=90, m=25, p=0.3)
+    present = features.presence(counts)
+    labels = np.repeat([0, 1, 2, -1], [30, 25, 20, 15])
+    null = features.presence(_rows(7, n=40, m=25, p=0.25)[0])
+    rates = membership.fit_rates(present, labels, 3, null, 12.0)
+    x = sp.vstack([present, null]).toarray()
+    y = np.concatenate([np.where(labels >= 0, labels, 3), np.full(40, 3)])
+    weight = np.concatenate([np.ones(90), np.full(40, 12.0 / 40)])
+    nb = BernoulliNB(alpha=membership.RATE_SMOOTHING, force_alpha=True).fit(x, y, sample_weight=weight)
+    np.testing.assert_allclose(rates.log_odds, nb.feature_log_prob_ - np.log1p(-np.exp(nb.feature_log_prob_)), atol=1e-12)
+    np.testing.assert_allclose(present.toarray() @ rates.log_odds.T + rates.constants,
+                               nb.predict_joint_log_proba(present.toarray()), atol=1e-9)
+    expected = nb.predict(present.toarray())
+    np.testing.assert_array_equal(membership.place(present, rates), np.where(expected == 3, -1, expected))
+    assert (membership.place(present, rates) == -1).any() and len(set(membership.place(present, rates))) == 4

@@ -15,8 +15,8 @@ distances in (card presence weighted by rarity, each deck a unit row):
   cards drawn at random from the partition's pool. A centre's *cut* is the similarity that random
   decks reach only 1 time in 50 over all k centres (1 in 50k at each centre,
   since a deck gets to try its nearest). A deck less similar to its nearest
-  centre than that cut is an other deck: it looks like a random pile to every
-  archetype.
+  centre than that cut is an other deck while groups are settled: it looks
+  like a random pile to every archetype.
 - **A group is an archetype** when it still holds at least ``least`` decks
   above the cuts, and its typical member (the median) is, to the centre of the
   *other* members, at least as similar as the cut: while groups are settled a
@@ -33,10 +33,20 @@ distances in (card presence weighted by rarity, each deck a unit row):
   are joined. Each group also gets a 2-way k-means cut tried on it, kept when
   the pieces pass the same test.
 
-The centres and cuts the final labels were assigned by are stored with the
-results (:class:`sitegen.model.Placement`), so a decklist from outside the data
-can be placed by exactly the build's rule. The measurements behind these
-choices are in docs/method.md.
+- **Every deck is placed last by card rates** (:func:`fit_rates`): each
+  archetype's rate of playing each card, and the other decks' (with the random
+  decks), smoothed, as a Bernoulli naive Bayes model; each deck goes to the
+  group under whose rates the cards it plays and lacks are likeliest. Twice,
+  each time refitted on the groups the last time left; a group left under
+  ``least`` decks is given up. Cosine similarity weighs a card by its rarity,
+  so a short list whose one-off cards outweigh its few common core cards
+  falls below the cut; card rates weigh each card by how much likelier it is
+  in one group than in another, as the planted truth would.
+
+The card rates the final labels were placed by are stored with the results
+(:class:`sitegen.model.Placement`, with the centres distances are measured
+to), so a decklist from outside the data can be placed by exactly the build's
+rule. The measurements behind these choices are in docs/method.md.
 """
 from __future__ import annotations
 
@@ -66,20 +76,36 @@ EXCLUSION_LOOSE = -0.5
 EXCLUSION_P = 1e-6
 #: Staples: cards played by at least this share of the decks of every group.
 STAPLE_SHARE = 0.5
+#: Card rates are smoothed by adding this many plays and this many misses (add-half).
+RATE_SMOOTHING = 0.5
+#: Rounds of placing every deck by card rates, each on the groups the round before left.
+RATE_ROUNDS = 2
+
+
+@dataclass(frozen=True)
+class CardRates:
+    """The rule decks are placed by: row i of ``log_odds`` (cards) and ``constants[i]`` score a
+    deck's card presence x as ``x @ log_odds[i] + constants[i]``, its log-likelihood (plus log
+    prior) under group i's card rates; the last row is the other decks'. See :func:`fit_rates`."""
+
+    log_odds: np.ndarray
+    constants: np.ndarray
 
 
 @dataclass(frozen=True)
 class Membership:
     """The rule as settled: ``labels`` (group 0..k-1 per deck, -1 for other
-    decks), ``centres`` (k x cards, unit rows), ``cuts`` (k similarities),
-    ``similarity`` (each deck's similarity to its nearest centre), and counts
-    for the page: ``far`` decks left as random-looking, ``dropped_small`` and
-    ``dropped_loose`` groups given up, ``merged`` pairs joined (also to keep
-    at most analysis.k_max), ``split`` groups cut in two."""
+    decks), ``centres`` (k x cards, unit rows: each group's mean direction, for
+    distances), ``rates`` (the :class:`CardRates` the labels were placed by),
+    ``similarity`` (each deck's similarity to its own group's centre, or to
+    the nearest for an other deck), and counts for the page: ``far`` other
+    decks, ``dropped_small`` and ``dropped_loose`` groups given up, ``merged``
+    pairs joined (also to keep at most analysis.k_max), ``split`` groups cut
+    in two."""
 
     labels: np.ndarray
     centres: np.ndarray
-    cuts: np.ndarray
+    rates: CardRates
     similarity: np.ndarray
     far: int = 0
     dropped_small: int = 0
@@ -322,27 +348,80 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
         labels = cut
         split += 1
     k = int(labels.max(initial=-1)) + 1
+    m = weights.shape[1]
     if k == 0:
-        return Membership(np.full(n, -1), np.zeros((0, weights.shape[1])), np.zeros(0), np.zeros(n), int(n),
-                          dropped_small, dropped_loose, merged, split)
-    # Final: centres from the groups' members; every deck placed by exactly these centres and cuts.
-    # A centre left with fewer than ``least`` decks by this last placement is given up too (the others
-    # stay as they are), so every centre kept is an archetype of at least ``least`` decks.
+        return Membership(np.full(n, -1), np.zeros((0, m)), CardRates(np.zeros((0, m)), np.zeros(0)), np.zeros(n),
+                          int(n), dropped_small, dropped_loose, merged, split)
+    # The groups' decks inside their cuts, by their centres as they now stand; then every deck placed
+    # by card rates (RATE_ROUNDS rounds), the other decks' rates taken with random decks of the
+    # partition's. A group left with fewer than ``least`` decks is given up and the round placed again.
     staples = _staples(present, labels, k)
-    centres = centres_of(_blind(weights, staples), labels, k)
+    blind = _blind(weights, staples)
+    centres = centres_of(blind, labels, k)
+    sims = similarities(weights, centres)
+    near = np.argmax(sims, axis=1)
+    labels = np.where(sims[np.arange(n), near] >= cuts_for(nulls(staples), centres)[near], near, -1)
+    null = nulls(staples)
+    null_present = sp.csr_matrix((np.ones(null.nnz), null.indices, null.indptr), shape=null.shape)
+    for _ in range(RATE_ROUNDS):
+        labels, rates, given_up = _place_by_rates(present, labels, null_present, least)
+        dropped_small += given_up
+    k = int(labels.max(initial=-1)) + 1
+    if k == 0:
+        return Membership(labels, np.zeros((0, m)), rates, np.zeros(n), int(n), dropped_small, dropped_loose,
+                          merged, split)
+    centres = centres_of(blind, labels, k)
+    sims = similarities(weights, centres)
+    sim = np.where(labels >= 0, sims[np.arange(n), np.maximum(labels, 0)], sims.max(axis=1))
+    return Membership(labels, centres, rates, sim, int((labels < 0).sum()), dropped_small, dropped_loose,
+                      merged, split)
+
+
+def fit_rates(present: sp.csr_matrix, labels: np.ndarray, k: int, null_present: sp.csr_matrix,
+              null_weight: float) -> CardRates:
+    """Card rates of groups 0..k-1 and of the other decks (-1), as a Bernoulli naive Bayes model.
+
+    Group i's rate of a card is (decks playing it + a) / (decks + 2a), a =
+    :data:`RATE_SMOOTHING`; its prior is its share of the decks. The other decks
+    are joined by the random decks ``null_present``, weighing ``null_weight``
+    decks in all, so that a deck like none of the archetypes has somewhere to
+    go even when the data holds few other decks. This is scikit-learn's
+    BernoulliNB fitted with those sample weights (tested).
+    """
+    group = np.where(labels >= 0, labels, k)
+    counts = group_sums(present, group, k + 1)
+    sizes = np.bincount(group, minlength=k + 1).astype(np.float64)
+    n_null = null_present.shape[0]
+    if n_null and null_weight > 0:
+        counts[k] += null_weight / n_null * np.asarray(null_present.sum(axis=0)).ravel()
+        sizes[k] += null_weight
+    rate = (counts + RATE_SMOOTHING) / (sizes[:, None] + 2.0 * RATE_SMOOTHING)
+    with np.errstate(divide="ignore"):
+        prior = np.log(sizes / sizes.sum())
+    log_odds = np.log(rate) - np.log1p(-rate)
+    return CardRates(log_odds, np.log1p(-rate).sum(axis=1) + prior)
+
+
+def _place_by_rates(present, labels, null_present, least) -> tuple[np.ndarray, CardRates, int]:
+    """One round: rates fitted on ``labels``, every deck placed by them; groups left under ``least``
+    decks given up (fewest first, one at a time) and the round placed again without them."""
+    given_up = 0
     while True:
-        k = centres.shape[0]
-        sims = similarities(weights, centres)
-        near = np.argmax(sims, axis=1) if k else np.zeros(n, dtype=np.intp)
-        sim = sims[np.arange(n), near] if k else np.zeros(n)
-        cuts = cuts_for(nulls(staples), centres) if k else np.zeros(0)
-        final = np.where(sim >= cuts[near], near, -1) if k else np.full(n, -1)
-        sizes = np.bincount(final[final >= 0], minlength=k)
+        k = int(labels.max(initial=-1)) + 1
+        rates = fit_rates(present, labels, k, null_present, float(least))
+        placed = place(present, rates)
+        sizes = np.bincount(placed[placed >= 0], minlength=k)
         if k == 0 or sizes.min() >= least:
-            break
-        centres = centres[sizes >= least]
-        dropped_small += int((sizes < least).sum())
-    return Membership(final, centres, cuts, sim, int((final < 0).sum()), dropped_small, dropped_loose, merged, split)
+            return _compact(placed), _kept_rates(rates, sizes > 0), given_up
+        worst = int(np.argmin(sizes))
+        labels = _compact(np.where(labels == worst, -1, labels))
+        given_up += 1
+
+
+def _kept_rates(rates: CardRates, keep: np.ndarray) -> CardRates:
+    """The rows of the groups kept (and the other decks' last row), in order."""
+    rows = np.concatenate([np.flatnonzero(keep), [len(keep)]])
+    return CardRates(rates.log_odds[rows], rates.constants[rows])
 
 
 def _join_closest(weights: sp.csr_matrix, labels: np.ndarray) -> np.ndarray:
@@ -481,12 +560,12 @@ def _own_out_similarities(weights: sp.csr_matrix, labels: np.ndarray, k: int) ->
     return sims
 
 
-def place(weights: sp.csr_matrix, centres: np.ndarray, cuts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The build's rule for any decks: nearest centre, or -1 below its cut; with the similarity."""
-    n = weights.shape[0]
-    if centres.shape[0] == 0:
-        return np.full(n, -1), np.zeros(n)
-    sims = similarities(weights, centres)
-    near = np.argmax(sims, axis=1)
-    sim = sims[np.arange(n), near]
-    return np.where(sim >= cuts[near], near, -1), sim
+def place(present: sp.csr_matrix, rates: CardRates) -> np.ndarray:
+    """The build's rule for any decks (card presence, 0/1, over the rule's cards): the group under
+    whose card rates the deck is likeliest, -1 for the other decks' (ties: the first)."""
+    n = present.shape[0]
+    if rates.log_odds.shape[0] <= 1:
+        return np.full(n, -1)
+    scores = np.asarray(present @ rates.log_odds.T) + rates.constants
+    best = np.argmax(scores, axis=1)
+    return np.where(best == rates.log_odds.shape[0] - 1, -1, best)

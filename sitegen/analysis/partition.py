@@ -59,8 +59,8 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
         other = ctx.group(OTHER_KEY, everyone, is_other=True) if n else None
         dist = ctx.distances(everyone) if n else np.zeros(0)
         assignments = _assignments(ids, [OTHER_KEY] * n, dist, np.full((n, 2), np.nan))
-        placement = Placement(cards=tuple(cards), idf=idf, keys=(),
-                              centres=np.zeros((0, len(cards))), cuts=np.zeros(0), mean=_mean(weights))
+        placement = Placement(cards=tuple(cards), idf=idf, keys=(), centres=np.zeros((0, len(cards))),
+                              log_odds=np.zeros((0, len(cards))), constants=np.zeros(0), mean=_mean(weights))
         return PartitionResult(part.season, part.leader, n, "too-small", reason, None, (), "", (), other,
                                assignments, _empty_map(), inclusion, part.fingerprint, placement=placement)
 
@@ -79,7 +79,8 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
     keys = np.empty(n, dtype=object)
     archetypes = []
     centres = found.centres[order] if k else found.centres
-    cuts = found.cuts[order] if k else found.cuts
+    # The archetypes' card rates in key order, the other decks' last (none at all without archetypes).
+    rows_kept = np.asarray(list(order) + [k] if k else [], dtype=np.intp)
     steady = _stability(rows, present, weights, idf, nulls, labels, part, params) if k else np.zeros(0)
     for i, c in enumerate(order, start=1):
         keys[groups[c]] = f"a{i}"
@@ -91,13 +92,14 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
         other = ctx.group(OTHER_KEY, rest, is_other=True)
     reason = _k_reason(found, k, len(rest), n, least, params, params.pinned(part.season, part.leader))
     placement = Placement(cards=tuple(cards), idf=idf, keys=tuple(f"a{i}" for i in range(1, k + 1)),
-                          centres=np.ascontiguousarray(centres), cuts=np.asarray(cuts, dtype=np.float64),
-                          mean=_mean(weights))
+                          centres=np.ascontiguousarray(centres),
+                          log_odds=np.ascontiguousarray(found.rates.log_odds[rows_kept]),
+                          constants=np.asarray(found.rates.constants[rows_kept], dtype=np.float64), mean=_mean(weights))
     archetypes = _unique_slugs(archetypes, other)
     if other is not None:
         archetypes, other = archetypes[:-1], archetypes[-1]
 
-    # Distance: 1 - cosine similarity to the nearest archetype centre (the one a deck is placed by).
+    # Distance: 1 - cosine similarity to its archetype's centre (an other deck's: to the nearest).
     dist = np.clip(1.0 - found.similarity, 0.0, 2.0) if k else ctx.distances(np.arange(n))
 
     # The map itself is drawn later (draw_map), from the leader's previous map where there is one.
@@ -242,8 +244,9 @@ def _k_reason(found: membership.Membership, k: int, n_other: int, n: int, least:
                      f"{'was' if found.dropped_loose == 1 else 'were'} given up")
     text = "; ".join(words) + "."
     if n_other:
-        text += (f" {_count(n_other, 'deck')} of {n:,} ({n_other / n:.0%}) fit no archetype: each is no closer "
-                 f"to its nearest archetype than 49 in 50 random decks of this partition would be")
+        text += (f" {_count(n_other, 'deck')} of {n:,} ({n_other / n:.0%}) fit no archetype: the cards each plays "
+                 f"and lacks are likelier among the other decks and random decks of this partition than in "
+                 f"any archetype")
         if found.dropped_small or found.dropped_loose:
             text += ", among them decks of the groups given up"
         text += "."

@@ -9,7 +9,9 @@ lists them for the command line.
 
 A model holds the partition's rule as stored with its result
 (:class:`sitegen.model.Placement`): the cards with their idf weights, each
-archetype centre (only its nonzero weights) with its cut, and which published
+archetype centre (only its nonzero weights) with its card rates (``rates``:
+log-odds per card, only those off the group's ``floor``, and a constant
+``b``), the other decks' card rates (``other_rates``), and which published
 group each centre's decks are shown in (after season linking and the notes'
 merge_into and hide, exactly as the assignments export labels them). For each
 group: its page slug, name and address, its spread (median and 90th percentile
@@ -29,11 +31,11 @@ from ..model import ALL_LEADERS, OTHER_KEY, CardLine, PartitionResult
 from . import pages as P
 
 #: Version of the model file layout; the command line refuses others.
-MODEL_FORMAT = 1
+MODEL_FORMAT = 2
 #: The window global model scripts register in.
 MODEL_GLOBAL = "SITEGEN_CLASSIFY"
-#: Significant digits of centre weights: enough that every distance (4 decimals) and every nearest-centre
-#: and cut decision of the demo's decks comes out as in the build (tested), at a third of the bytes of full precision.
+#: Significant digits of centre weights and card log-odds: enough that every distance (4 decimals) and every
+#: placement of the demo's decks comes out as in the build (tested), at a third of the bytes of full precision.
 CENTRE_DIGITS = 12
 #: Cards of an archetype's table shipped for the comparison (most played first).
 TABLE_CARDS = 40
@@ -63,6 +65,16 @@ def _g(x: float, digits: int = CENTRE_DIGITS) -> float:
 def _sparse(vector: np.ndarray, digits: int = CENTRE_DIGITS) -> dict[str, list]:
     nz = np.flatnonzero(vector)
     return {"i": nz.tolist(), "w": [_g(v, digits) for v in vector[nz].tolist()]}
+
+
+def _rates(log_odds: np.ndarray, constant: float) -> dict[str, Any]:
+    """A row of card log-odds as the value most cards share (``floor``: a group's cards none of its
+    decks plays) and the cards off it, with the row's constant ``b``."""
+    row = np.asarray(log_odds, dtype=np.float64)
+    values, counts = np.unique(row, return_counts=True)
+    floor = float(values[np.argmax(counts)]) if len(values) else 0.0
+    off = np.flatnonzero(row != floor)
+    return {"i": off.tolist(), "w": [_g(v) for v in row[off].tolist()], "floor": _g(floor), "b": _g(constant)}
 
 
 def _usual(line: CardLine) -> int:
@@ -130,11 +142,13 @@ def model_of(site, r: PartitionResult, keys_to: dict[str, str] | None, data, rar
     if placement is not None and len(placement.keys):
         cards = list(placement.cards)
         doc["idf"] = [float(x) for x in placement.idf.tolist()]
-        for key, centre, cut in zip(placement.keys, placement.centres, placement.cuts.tolist()):
+        for i, (key, centre) in enumerate(zip(placement.keys, placement.centres)):
             now = (keys_to or {}).get(key, key)
             to = group_index.get(now, -1)
-            doc["centres"].append({"key": key, "to": to, "cut": float(cut),
-                                   "hidden": to < 0, **_sparse(np.asarray(centre, dtype=np.float64))})
+            doc["centres"].append({"key": key, "to": to, "hidden": to < 0,
+                                   "rates": _rates(placement.log_odds[i], float(placement.constants[i])),
+                                   **_sparse(np.asarray(centre, dtype=np.float64))})
+        doc["other_rates"] = _rates(placement.log_odds[-1], float(placement.constants[-1]))
     else:
         found = _mean_direction(data, r)
         cards = found[0] if found else []

@@ -5,8 +5,8 @@ Card changes are read from the two seasons' card-inclusion tables (the same tabl
 CSV downloads hold): a card in the later table only came in, in the earlier only went out, in
 both moved by the difference of its share and of its mean copies.
 
-Flows place the decks of one season by the next season's rule (its :class:`Placement`: TF-IDF
-presence rows against that season's archetype centres and cuts), so each archetype of the
+Flows place the decks of one season by the next season's rule (its :class:`Placement`: card
+presence scored by that season's archetypes' and other decks' card rates), so each archetype of the
 earlier season is split over the later season's archetypes and the other decks. Decks are not
 the same decks from one season to the next; a flow says where decks built like these would be
 placed, not what players did.
@@ -99,10 +99,9 @@ def place_decks(cards: pd.DataFrame, deck_ids: list[str], rule) -> np.ndarray:
 
 
 def place_rows(presence: sp.csr_matrix, cards: tuple[str, ...], rule) -> np.ndarray:
-    """As :func:`place_decks`, for decks given as card presence over ``cards``: each deck's unit row
-    of its cards' idf weights (presence, a card counted once), placed by the rule's own arithmetic
-    (:func:`sitegen.analysis.membership.place`)."""
-    from ..analysis.membership import place
+    """As :func:`place_decks`, for decks given as card presence over ``cards`` (a card counted once),
+    placed by the rule's own arithmetic (:func:`sitegen.analysis.membership.place`)."""
+    from ..analysis.membership import CardRates, place
 
     n = presence.shape[0]
     if rule is None or len(rule.keys) == 0 or n == 0:
@@ -112,15 +111,10 @@ def place_rows(presence: sp.csr_matrix, cards: tuple[str, ...], rule) -> np.ndar
     coo = sp.coo_matrix(presence)
     keep = to[coo.col] >= 0
     cols = to[coo.col[keep]]
-    idf = np.asarray(rule.idf, dtype=float)
     m = sp.csr_matrix((np.ones(len(cols)), (coo.row[keep], cols)), shape=(n, len(rule.cards)))
     m.sum_duplicates()
-    m.data = idf[m.indices]  # presence, not copies: a card counted once
-    norms = np.sqrt(np.asarray(m.multiply(m).sum(axis=1)).ravel())
-    norms[norms == 0] = 1.0
-    labels, _ = place(sp.csr_matrix(sp.diags(1.0 / norms) @ m), np.asarray(rule.centres, dtype=float),
-                      np.asarray(rule.cuts))
-    return labels
+    m.data[:] = 1.0  # presence, not copies: a card counted once
+    return place(m, CardRates(np.asarray(rule.log_odds, dtype=float), np.asarray(rule.constants, dtype=float)))
 
 
 def flows(before: PartitionResult, after: PartitionResult, cards: pd.DataFrame) -> dict[str, dict[str, float]]:

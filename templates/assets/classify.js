@@ -132,6 +132,13 @@
       for (var j = 0; j < c.i.length; j++) { w[c.i[j]] = c.w[j]; }
       return w;
     });
+    var rates = model.centres.map(function (c) { return c.rates; });
+    if (model.centres.length) { rates.push(model.other_rates); }
+    rates = rates.map(function (r) {
+      var w = new Float64Array(model.cards.length).fill(r.floor);
+      for (var j = 0; j < r.i.length; j++) { w[r.i[j]] = r.w[j]; }
+      return { w: w, b: r.b };
+    });
     var mean = null;
     if (model.mean) {
       mean = new Float64Array(model.cards.length);
@@ -142,7 +149,7 @@
       g.table.forEach(function (row) { t.set(row[0], row); });
       return t;
     });
-    lookups[path] = { exact: exact, loose: loose, dense: dense, mean: mean, tables: tables };
+    lookups[path] = { exact: exact, loose: loose, dense: dense, rates: rates, mean: mean, tables: tables };
     return lookups[path];
   }
 
@@ -160,8 +167,10 @@
     return (neg ? "-" : "") + s.slice(0, s.length - 4) + "." + s.slice(s.length - 4);
   }
 
-  /* The build's rule: the deck's cards' idf weights (presence), scaled to unit length; cosine
-   * similarity to each centre; the most similar centre, unless below its cut. */
+  /* The build's rule: the deck's cards (presence) scored by each archetype's card rates and the
+   * other decks' (log-likelihood and log prior); the likeliest, the first on a tie. Its distance:
+   * one less the cosine similarity of its idf-weighted unit row to that archetype's centre (an
+   * other deck's: to the nearest centre). */
   function place(model, look, deck) {
     var copies = new Map();
     var unknown = [];
@@ -188,17 +197,28 @@
       return s;
     }
     var sims = look.dense.map(sim);
+    var scores = look.rates.map(function (r) {
+      var s = 0;
+      for (var q = 0; q < present.length; q++) { s += r.w[present[q]]; }
+      return s + r.b;
+    });
+    var likeliest = -1;
+    for (var l = 0; l < scores.length; l++) { if (likeliest < 0 || scores[l] > scores[likeliest]) { likeliest = l; } }
     var best = -1;
-    for (var k = 0; k < sims.length; k++) { if (best < 0 || sims[k] > sims[best]) { best = k; } }
+    if (likeliest >= 0 && likeliest < sims.length) {
+      best = likeliest;
+    } else {
+      for (var k = 0; k < sims.length; k++) { if (best < 0 || sims[k] > sims[best]) { best = k; } }
+    }
     var res = { copies: copies, present: present, unknown: unknown, renamed: renamed, sims: sims, best: best,
                 group: -1, why: "", distance: null };
     var nearest;
     if (best >= 0) {
       var centre = model.centres[best];
       res.distance = round4(Math.min(Math.max(1 - sims[best], 0), 2));
-      if (sims[best] >= centre.cut && centre.to >= 0) {
+      if (likeliest === best && centre.to >= 0) {
         res.group = centre.to;
-      } else if (sims[best] >= centre.cut) {
+      } else if (likeliest === best) {
         res.why = "hidden";
       } else {
         res.why = "far";
@@ -295,9 +315,9 @@
       var g = model.groups[res.group];
       head.appendChild(document.createTextNode("Archetype: "));
       head.appendChild(link(g));
-      reason.textContent = "Of the " + model.centres.length + " archetype centre(s) of " + leaderName + " in " + season +
-        ", this list is most like this one, and closer to it than 49 in 50 random decks of this " +
-        "leader would be.";
+      reason.textContent = "Of the " + model.centres.length + " archetype(s) of " + leaderName + " in " + season +
+        " and its other decks, the cards this list plays and lacks are likeliest in this one, by how often " +
+        "each one's decks play each card.";
     } else {
       head.textContent = "Other decks";
       var near = res.best >= 0 ? model.centres[res.best] : null;
@@ -313,9 +333,9 @@
       } else if (res.why === "hidden") {
         reason.textContent = "Its nearest group of decks is one the site's editors do not publish as an archetype; its decks are counted with the other decks.";
       } else {
-        reason.textContent = "It is most like " + (nearName || "an archetype") + ", but no closer to it than a random pile of " +
-          leaderName + "'s cards would be 1 time in 50 (similarity " + res.sims[res.best].toFixed(3) + ", needed " +
-          near.cut.toFixed(3) + "): it looks like none of the archetypes.";
+        reason.textContent = "Its nearest archetype is " + (nearName || "one not published") + ", but the cards it plays " +
+          "and lacks are likelier among " + leaderName + "'s other decks and random decks of its cards than in any " +
+          "archetype: it looks like none of them.";
       }
     }
     out.appendChild(head);
