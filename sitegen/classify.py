@@ -144,7 +144,7 @@ class _Prepared:
         self.centres = np.zeros((len(doc["centres"]), m))
         for row, c in enumerate(doc["centres"]):
             self.centres[row, c["i"]] = c["w"]
-        rates = [c["rates"] for c in doc["centres"]] + ([doc["other_rates"]] if doc["centres"] else [])
+        rates = [c["rates"] for c in doc["centres"]] + (list(doc["other_rates"]) if doc["centres"] else [])
         self.log_odds = np.zeros((len(rates), m))
         for row, r in enumerate(rates):
             self.log_odds[row] = r["floor"]
@@ -210,7 +210,7 @@ def place_decks(models: Models, decks: Sequence[Deck], season_opt: str | None) -
         names = [(g["slug"], g["name"]) for g in doc["groups"]]
         if len(model.to):
             presence = sp.csr_matrix((np.ones(rows.nnz), rows.indices, rows.indptr), shape=rows.shape)
-            labels = place(presence, CardRates(model.log_odds, model.constants))
+            labels = place(presence, CardRates(model.log_odds, model.constants, len(model.to)))
             sims = np.asarray(rows @ model.centres.T)
             sim = np.where(labels >= 0, sims[np.arange(len(labels)), np.maximum(labels, 0)], sims.max(axis=1))
         else:

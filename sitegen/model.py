@@ -242,8 +242,9 @@ class Placement:
     """The rule a partition's decks were placed by, to place any decklist the same way.
 
     A deck's card presence x (0 or 1 over ``cards``) scores ``x @ log_odds[i]
-    + constants[i]`` for archetype ``keys[i]`` and, in the last row, for the
-    other decks; it goes to the highest (ties: the first). ``centres[i]`` is
+    + constants[i]`` for archetype ``keys[i]``; the rows after the archetypes'
+    (small groups of their own given up, then all other decks) stand for the
+    other decks. It goes to the highest (ties: the first). ``centres[i]`` is
     archetype i's unit mean direction in TF-IDF space (a deck's row: its
     cards' ``idf`` weights scaled to unit length), which distances are
     measured to.

@@ -79,3 +79,19 @@ def dense_groups(rows: np.ndarray, *, min_share: float, seed: int, sample: int =
     labels = nearest(rows, centres)
     labels[picked[found >= 0]] = found[found >= 0]  # HDBSCAN's own label where it gave one
     return labels
+
+
+def small_groups(rows: np.ndarray, *, share: float, seed: int, sample: int = DENSITY_SAMPLE) -> list[np.ndarray]:
+    """Small dense groups: scikit-learn's HDBSCAN as in :func:`dense_groups`, its leaves of at least
+    ``share`` of the rows looked at, each as the sampled rows it holds (where to look for groups of
+    their own too small to be archetypes)."""
+    from sklearn.cluster import HDBSCAN
+
+    n = rows.shape[0]
+    picked = sample_rows(n, sample, seed)
+    if len(picked) < 2 * DENSITY_NEIGHBOURS:
+        return []
+    size = max(DENSITY_NEIGHBOURS, int(np.ceil(share * len(picked) - 1e-9)))
+    found = HDBSCAN(min_cluster_size=size, min_samples=DENSITY_NEIGHBOURS, cluster_selection_method="leaf",
+                    copy=True).fit(rows[picked]).labels_
+    return [np.sort(picked[found == c]) for c in range(int(found.max()) + 1)]

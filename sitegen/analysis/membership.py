@@ -42,6 +42,11 @@ distances in (card presence weighted by rarity, each deck a unit row):
   so a short list whose one-off cards outweigh its few common core cards
   falls below the cut; card rates weigh each card by how much likelier it is
   in one group than in another, as the planted truth would.
+- **Small groups of their own.** A dense group too small to be an archetype
+  (from :data:`SMALL_SHARE` of ``min_share``) that the placement gave to an
+  archetype, yet is distinct from the rest of it (the strict test above: a
+  close variant of it), gets card rates of its own in one last round; the
+  decks likeliest under them are other decks, not the archetype's.
 
 The card rates the final labels were placed by are stored with the results
 (:class:`sitegen.model.Placement`, with the centres distances are measured
@@ -51,6 +56,7 @@ rule. The measurements behind these choices are in docs/method.md.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Sequence
 
 import numpy as np
 import scipy.sparse as sp
@@ -80,6 +86,10 @@ STAPLE_SHARE = 0.5
 RATE_SMOOTHING = 0.5
 #: Rounds of placing every deck by card rates, each on the groups the round before left.
 RATE_ROUNDS = 2
+#: Groups of their own too small to be archetypes are looked for from this share of min_share
+#: (dense groups of at least that many of the decks looked at), and from OWN_FLOOR decks.
+SMALL_SHARE = 0.25
+OWN_FLOOR = 10
 
 
 @dataclass(frozen=True)
@@ -90,6 +100,13 @@ class CardRates:
 
     log_odds: np.ndarray
     constants: np.ndarray
+    #: Rows 0..archetypes-1 are archetypes'; the rest (small groups of their own, then all other
+    #: decks) place a deck among the other decks. None: only the last row does.
+    archetypes: int | None = None
+
+    @property
+    def n_archetypes(self) -> int:
+        return self.log_odds.shape[0] - 1 if self.archetypes is None else self.archetypes
 
 
 @dataclass(frozen=True)
@@ -112,6 +129,9 @@ class Membership:
     dropped_loose: int = 0
     merged: int = 0
     split: int = 0
+    #: Small groups of their own given up (their decks other decks), and how many decks they hold.
+    own_groups: int = 0
+    own_decks: int = 0
 
 
 def unit_rows(matrix: np.ndarray) -> np.ndarray:
@@ -304,7 +324,8 @@ def merge_alike(present: sp.csr_matrix, weights: sp.csr_matrix, labels: np.ndarr
 
 def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labels: np.ndarray, *,
            least: int, seed: int, merge: bool = True, rows: np.ndarray | None = None,
-           most: int | None = None, nulls: "RandomDecks | None" = None) -> Membership:
+           most: int | None = None, nulls: "RandomDecks | None" = None,
+           smalls: Sequence[np.ndarray] = ()) -> Membership:
     """From candidate labels (0..k-1, -1 for none) to the rule every deck is held to.
 
     Until nothing changes: every deck goes to its nearest live centre and is
@@ -314,7 +335,9 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     their own against another are merged (unless ``merge`` is off, for a
     pinned k), judged on the decks inside their cuts only. The centres
     returned are the ones the final labels were assigned by. ``nulls``: the
-    partition's :class:`RandomDecks`, when this runs on part of it.
+    partition's :class:`RandomDecks`, when this runs on part of it. ``smalls``:
+    small dense groups (member sets), each kept as a group of its own whose
+    decks are other decks when it is distinct from the archetype that took it.
     """
     n = present.shape[0]
     labels = _compact(labels)
@@ -367,14 +390,21 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
         labels, rates, given_up = _place_by_rates(present, labels, null_present, least)
         dropped_small += given_up
     k = int(labels.max(initial=-1)) + 1
+    own = _own_groups(present, labels, k, smalls, by_card) if k else []
+    if own:
+        labels, rates, given_up = _place_by_rates(present, labels, null_present, least, own)
+        dropped_small += given_up
+        k = int(labels.max(initial=-1)) + 1
     if k == 0:
         return Membership(labels, np.zeros((0, m)), rates, np.zeros(n), int(n), dropped_small, dropped_loose,
                           merged, split)
     centres = centres_of(blind, labels, k)
     sims = similarities(weights, centres)
     sim = np.where(labels >= 0, sims[np.arange(n), np.maximum(labels, 0)], sims.max(axis=1))
+    row = np.argmax(np.asarray(present @ rates.log_odds.T) + rates.constants, axis=1)
+    own_decks = int(((row >= k) & (row < rates.log_odds.shape[0] - 1)).sum())
     return Membership(labels, centres, rates, sim, int((labels < 0).sum()), dropped_small, dropped_loose,
-                      merged, split)
+                      merged, split, rates.log_odds.shape[0] - 1 - k, own_decks)
 
 
 def fit_rates(present: sp.csr_matrix, labels: np.ndarray, k: int, null_present: sp.csr_matrix,
@@ -402,13 +432,19 @@ def fit_rates(present: sp.csr_matrix, labels: np.ndarray, k: int, null_present: 
     return CardRates(log_odds, np.log1p(-rate).sum(axis=1) + prior)
 
 
-def _place_by_rates(present, labels, null_present, least) -> tuple[np.ndarray, CardRates, int]:
+def _place_by_rates(present, labels, null_present, least, own: Sequence[np.ndarray] = ()
+                    ) -> tuple[np.ndarray, CardRates, int]:
     """One round: rates fitted on ``labels``, every deck placed by them; groups left under ``least``
-    decks given up (fewest first, one at a time) and the round placed again without them."""
+    decks given up (fewest first, one at a time) and the round placed again without them. ``own``:
+    member sets of small groups of their own, each fitted as a group whose decks are other decks."""
     given_up = 0
     while True:
         k = int(labels.max(initial=-1)) + 1
-        rates = fit_rates(present, labels, k, null_present, float(least))
+        fit = labels.copy()
+        for j, members in enumerate(own):
+            fit[members] = k + j
+        rates = fit_rates(present, fit, k + len(own), null_present, float(least))
+        rates = CardRates(rates.log_odds, rates.constants, k)
         placed = place(present, rates)
         sizes = np.bincount(placed[placed >= 0], minlength=k)
         if k == 0 or sizes.min() >= least:
@@ -419,9 +455,27 @@ def _place_by_rates(present, labels, null_present, least) -> tuple[np.ndarray, C
 
 
 def _kept_rates(rates: CardRates, keep: np.ndarray) -> CardRates:
-    """The rows of the groups kept (and the other decks' last row), in order."""
-    rows = np.concatenate([np.flatnonzero(keep), [len(keep)]])
-    return CardRates(rates.log_odds[rows], rates.constants[rows])
+    """The rows of the archetypes kept, then every other-deck row, in order."""
+    rows = np.concatenate([np.flatnonzero(keep), np.arange(len(keep), rates.log_odds.shape[0])])
+    return CardRates(rates.log_odds[rows], rates.constants[rows], int(keep.sum()))
+
+
+def _own_groups(present, labels, k, smalls, by_card) -> list[np.ndarray]:
+    """The small groups (``smalls``: member sets of at least :data:`OWN_FLOOR` decks) that are groups
+    of their own: :func:`distinct` (strict) from the rest of the archetype most of their decks joined,
+    which holds at least as many decks."""
+    out: list[np.ndarray] = []
+    for members in smalls:
+        if len(members) < OWN_FLOOR:
+            continue
+        went = labels[members]
+        went = went[went >= 0]
+        if len(went) == 0:
+            continue
+        rest = np.setdiff1d(np.flatnonzero(labels == np.bincount(went).argmax()), members)
+        if len(rest) >= len(members) and distinct(present, members, rest, strict=True, by_card=by_card):
+            out.append(members)
+    return out
 
 
 def _join_closest(weights: sp.csr_matrix, labels: np.ndarray) -> np.ndarray:
@@ -564,8 +618,9 @@ def place(present: sp.csr_matrix, rates: CardRates) -> np.ndarray:
     """The build's rule for any decks (card presence, 0/1, over the rule's cards): the group under
     whose card rates the deck is likeliest, -1 for the other decks' (ties: the first)."""
     n = present.shape[0]
-    if rates.log_odds.shape[0] <= 1:
+    k = rates.n_archetypes
+    if k <= 0:
         return np.full(n, -1)
     scores = np.asarray(present @ rates.log_odds.T) + rates.constants
     best = np.argmax(scores, axis=1)
-    return np.where(best == rates.log_odds.shape[0] - 1, -1, best)
+    return np.where(best >= k, -1, best)

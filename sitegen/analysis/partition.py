@@ -79,8 +79,8 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
     keys = np.empty(n, dtype=object)
     archetypes = []
     centres = found.centres[order] if k else found.centres
-    # The archetypes' card rates in key order, the other decks' last (none at all without archetypes).
-    rows_kept = np.asarray(list(order) + [k] if k else [], dtype=np.intp)
+    # The archetypes' card rates in key order, then the other decks' rows (none at all without archetypes).
+    rows_kept = np.asarray(list(order) + list(range(k, found.rates.log_odds.shape[0])) if k else [], dtype=np.intp)
     steady = _stability(rows, present, weights, idf, nulls, labels, part, params) if k else np.zeros(0)
     for i, c in enumerate(order, start=1):
         keys[groups[c]] = f"a{i}"
@@ -207,8 +207,10 @@ def _rule(rows, present, weights, idf, least, part, params, nulls=None) -> membe
                                            fit_sample=params.fit_sample)
     else:
         candidates = cluster.dense_groups(rows, min_share=params.min_share, seed=params.seed)
+    smalls = (cluster.small_groups(rows, share=params.min_share * membership.SMALL_SHARE, seed=params.seed)
+              if pinned is None else [])
     return membership.settle(present, weights, idf, candidates, least=least, seed=params.seed,
-                             merge=pinned is None, rows=rows, most=params.k_max, nulls=nulls)
+                             merge=pinned is None, rows=rows, most=params.k_max, nulls=nulls, smalls=smalls)
 
 
 def _stability(rows, present, weights, idf, nulls, labels, part, params) -> np.ndarray:
@@ -249,6 +251,10 @@ def _k_reason(found: membership.Membership, k: int, n_other: int, n: int, least:
                  f"any archetype")
         if found.dropped_small or found.dropped_loose:
             text += ", among them decks of the groups given up"
+        if found.own_decks:
+            text += (f"; {_count(found.own_decks, 'deck')} of them {'is' if found.own_decks == 1 else 'are'} likeliest "
+                     f"in {_count(found.own_groups, 'small group')} with cards of {'its' if found.own_groups == 1 else 'their'} "
+                     f"own, too few decks for an archetype")
         text += "."
     return text
 

@@ -11,7 +11,8 @@ A model holds the partition's rule as stored with its result
 (:class:`sitegen.model.Placement`): the cards with their idf weights, each
 archetype centre (only its nonzero weights) with its card rates (``rates``:
 log-odds per card, only those off the group's ``floor``, and a constant
-``b``), the other decks' card rates (``other_rates``), and which published
+``b``), the other decks' card rates (``other_rates``: small groups of their
+own given up, then all other decks), and which published
 group each centre's decks are shown in (after season linking and the notes'
 merge_into and hide, exactly as the assignments export labels them). For each
 group: its page slug, name and address, its spread (median and 90th percentile
@@ -148,7 +149,8 @@ def model_of(site, r: PartitionResult, keys_to: dict[str, str] | None, data, rar
             doc["centres"].append({"key": key, "to": to, "hidden": to < 0,
                                    "rates": _rates(placement.log_odds[i], float(placement.constants[i])),
                                    **_sparse(np.asarray(centre, dtype=np.float64))})
-        doc["other_rates"] = _rates(placement.log_odds[-1], float(placement.constants[-1]))
+        doc["other_rates"] = [_rates(placement.log_odds[i], float(placement.constants[i]))
+                              for i in range(len(placement.keys), placement.log_odds.shape[0])]
     else:
         found = _mean_direction(data, r)
         cards = found[0] if found else []

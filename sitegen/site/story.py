@@ -114,7 +114,8 @@ def place_rows(presence: sp.csr_matrix, cards: tuple[str, ...], rule) -> np.ndar
     m = sp.csr_matrix((np.ones(len(cols)), (coo.row[keep], cols)), shape=(n, len(rule.cards)))
     m.sum_duplicates()
     m.data[:] = 1.0  # presence, not copies: a card counted once
-    return place(m, CardRates(np.asarray(rule.log_odds, dtype=float), np.asarray(rule.constants, dtype=float)))
+    return place(m, CardRates(np.asarray(rule.log_odds, dtype=float), np.asarray(rule.constants, dtype=float),
+                              len(rule.keys)))
 
 
 def flows(before: PartitionResult, after: PartitionResult, cards: pd.DataFrame) -> dict[str, dict[str, float]]:

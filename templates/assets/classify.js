@@ -133,7 +133,7 @@
       return w;
     });
     var rates = model.centres.map(function (c) { return c.rates; });
-    if (model.centres.length) { rates.push(model.other_rates); }
+    if (model.centres.length) { rates = rates.concat(model.other_rates); }
     rates = rates.map(function (r) {
       var w = new Float64Array(model.cards.length).fill(r.floor);
       for (var j = 0; j < r.i.length; j++) { w[r.i[j]] = r.w[j]; }
@@ -221,7 +221,7 @@
       } else if (likeliest === best) {
         res.why = "hidden";
       } else {
-        res.why = "far";
+        res.why = likeliest < scores.length - 1 ? "own" : "far";
       }
     } else {
       res.why = model.status === "too-small" ? "small" : "none";
@@ -330,6 +330,9 @@
           model.decks + "); every deck of it counts as an other deck.";
       } else if (res.why === "none") {
         reason.textContent = "No archetype was found among " + leaderName + "'s decks of " + season + "; every deck counts as an other deck.";
+      } else if (res.why === "own") {
+        reason.textContent = "The cards it plays and lacks are likeliest in a small group of " + leaderName + "'s decks of " +
+          "their own, too few in " + season + " to count as an archetype; its decks are counted with the other decks.";
       } else if (res.why === "hidden") {
         reason.textContent = "Its nearest group of decks is one the site's editors do not publish as an archetype; its decks are counted with the other decks.";
       } else {
