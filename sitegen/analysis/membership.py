@@ -415,8 +415,12 @@ def fit_rates(present: sp.csr_matrix, labels: np.ndarray, k: int, null_present: 
     :data:`RATE_SMOOTHING`; its prior is its share of the decks. The other decks
     are joined by the random decks ``null_present``, weighing ``null_weight``
     decks in all, so that a deck like none of the archetypes has somewhere to
-    go even when the data holds few other decks. This is scikit-learn's
-    BernoulliNB fitted with those sample weights (tested).
+    go even when the data holds few other decks; and their rate of a card is at
+    most the random decks' own (smoothed alike), so that the decks of an
+    archetype that fell to the other decks cannot teach the other decks to
+    look like it and draw more of its decks. This is scikit-learn's
+    BernoulliNB fitted with those sample weights, the other decks' rates then
+    capped (tested).
     """
     group = np.where(labels >= 0, labels, k)
     counts = group_sums(present, group, k + 1)
@@ -426,6 +430,9 @@ def fit_rates(present: sp.csr_matrix, labels: np.ndarray, k: int, null_present: 
         counts[k] += null_weight / n_null * np.asarray(null_present.sum(axis=0)).ravel()
         sizes[k] += null_weight
     rate = (counts + RATE_SMOOTHING) / (sizes[:, None] + 2.0 * RATE_SMOOTHING)
+    if n_null:  # the other decks play no card more often than random decks do
+        random_rate = (np.asarray(null_present.sum(axis=0)).ravel() + RATE_SMOOTHING) / (n_null + 2.0 * RATE_SMOOTHING)
+        rate[k] = np.minimum(rate[k], random_rate)
     with np.errstate(divide="ignore"):
         prior = np.log(sizes / sizes.sum())
     log_odds = np.log(rate) - np.log1p(-rate)
