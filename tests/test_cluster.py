@@ -101,3 +101,21 @@ def test_sample_rows_is_sorted_and_fixed():
     assert (np.diff(a) > 0).all() and len(a) == 50
     np.testing.assert_array_equal(a, cluster.sample_rows(1000, 50, 7))
     np.testing.assert_array_equal(cluster.sample_rows(10, 50, 7), np.arange(10))
+
+
+def test_small_groups_read_from_one_fit_equal_scikit_learns_own_fit():
+    # Reference: sklearn.cluster.HDBSCAN fitted afresh at the smaller size on the same sample; the
+    # shared fit reads that size from its single-linkage tree instead, and must give the same leaves.
+    from sklearn.cluster import HDBSCAN
+
+    rng = np.random.default_rng(11)
+    x = np.vstack([rng.normal(c, 0.3, (n, 4)) for c, n in ((0, 300), (3, 200), (6, 40), (9, 25))])
+    density = cluster.Density(x, seed=0)
+    big = cluster.dense_groups(x, min_share=0.2, seed=0, density=density)
+    small = cluster.small_groups(x, share=0.04, seed=0, density=density)
+    ref = HDBSCAN(min_cluster_size=density.size(0.04), min_samples=cluster.DENSITY_NEIGHBOURS,
+                  cluster_selection_method="leaf", copy=True).fit(x[density.picked]).labels_
+    assert len(small) == ref.max() + 1 >= 4 > big.max() + 1
+    for c, members in enumerate(small):
+        np.testing.assert_array_equal(members, np.sort(density.picked[ref == c]))
+    assert density._fit is not None and len(density._labels) == 2

@@ -50,26 +50,75 @@ DENSITY_SAMPLE = 5000
 DENSITY_NEIGHBOURS = 5
 
 
-def dense_groups(rows: np.ndarray, *, min_share: float, seed: int, sample: int = DENSITY_SAMPLE) -> np.ndarray:
+class Density:
+    """scikit-learn's HDBSCAN on a fixed-seed sample of at most ``sample`` rows (``picked``), read at
+    several smallest-group sizes. ``min_samples`` = :data:`DENSITY_NEIGHBOURS`, leaf clusters. The
+    first size asked is fitted; another is read from the same fit's single-linkage tree (which the
+    smallest group size does not change) with scikit-learn's own tree_to_labels, so both sizes cost
+    one fit; where that internal is not as expected, the sample is fitted again (same labels)."""
+
+    def __init__(self, rows: np.ndarray, seed: int, sample: int = DENSITY_SAMPLE) -> None:
+        self.rows = rows
+        self.picked = sample_rows(rows.shape[0], sample, seed)
+        self._fit = None
+        self._labels: dict[int, np.ndarray] = {}
+
+    @property
+    def too_few(self) -> bool:
+        return len(self.picked) < 2 * DENSITY_NEIGHBOURS
+
+    def size(self, share: float) -> int:
+        """The smallest group, for ``share`` of the rows looked at (at least DENSITY_NEIGHBOURS)."""
+        return max(DENSITY_NEIGHBOURS, int(np.ceil(share * len(self.picked) - 1e-9)))
+
+    def leaves(self, share: float) -> np.ndarray:
+        """HDBSCAN's labels of the sampled rows (-1: noise) with the smallest group at ``share``."""
+        size = self.size(share)
+        if size not in self._labels:
+            self._labels[size] = self._read(size) if self._fit is not None else self._fit_at(size)
+        return self._labels[size]
+
+    def _fit_at(self, size: int) -> np.ndarray:
+        from sklearn.cluster import HDBSCAN
+
+        fit = HDBSCAN(min_cluster_size=size, min_samples=DENSITY_NEIGHBOURS, cluster_selection_method="leaf",
+                      copy=True).fit(self.rows[self.picked])
+        if self._fit is None:
+            self._fit = fit
+        return fit.labels_
+
+    def _read(self, size: int) -> np.ndarray:
+        try:
+            from sklearn.cluster._hdbscan._tree import tree_to_labels
+
+            fit = self._fit
+            labels, _ = tree_to_labels(fit._single_linkage_tree_, size, fit.cluster_selection_method,
+                                       fit.allow_single_cluster, fit.cluster_selection_epsilon,
+                                       fit.max_cluster_size)
+            return np.asarray(labels)
+        except (ImportError, AttributeError, TypeError, ValueError):
+            return self._fit_at(size)
+
+
+def dense_groups(rows: np.ndarray, *, min_share: float, seed: int, sample: int = DENSITY_SAMPLE,
+                 density: Density | None = None) -> np.ndarray:
     """Candidate groups of unit rows by density: labels 0..k-1 for every row (none left out).
 
     scikit-learn's HDBSCAN (leaf clusters, ``min_cluster_size`` = ``min_share``
-    of the rows looked at, at least 5) runs on a fixed-seed sample; each
+    of the rows looked at, at least 5) runs on a fixed-seed sample
+    (:class:`Density`, shared with :func:`small_groups` when given); each
     group's centre is the unit mean of its sampled rows. Sampled rows keep
     HDBSCAN's label; the rest, and the rows it calls noise, go to the nearest
     centre: who is an other deck is decided afterwards, per deck
     (:mod:`.membership`).
     When HDBSCAN finds no group, every row is in group 0.
     """
-    from sklearn.cluster import HDBSCAN
-
     n = rows.shape[0]
-    picked = sample_rows(n, sample, seed)
-    if len(picked) < 2 * DENSITY_NEIGHBOURS:
+    density = Density(rows, seed, sample) if density is None else density
+    if density.too_few:
         return np.zeros(n, dtype=np.intp)
-    size = max(DENSITY_NEIGHBOURS, int(np.ceil(min_share * len(picked) - 1e-9)))
-    found = HDBSCAN(min_cluster_size=size, min_samples=DENSITY_NEIGHBOURS, cluster_selection_method="leaf",
-                    copy=True).fit(rows[picked]).labels_
+    picked = density.picked
+    found = density.leaves(min_share)
     k = int(found.max()) + 1
     if k <= 0:
         return np.zeros(n, dtype=np.intp)
@@ -81,17 +130,13 @@ def dense_groups(rows: np.ndarray, *, min_share: float, seed: int, sample: int =
     return labels
 
 
-def small_groups(rows: np.ndarray, *, share: float, seed: int, sample: int = DENSITY_SAMPLE) -> list[np.ndarray]:
-    """Small dense groups: scikit-learn's HDBSCAN as in :func:`dense_groups`, its leaves of at least
-    ``share`` of the rows looked at, each as the sampled rows it holds (where to look for groups of
-    their own too small to be archetypes)."""
-    from sklearn.cluster import HDBSCAN
-
-    n = rows.shape[0]
-    picked = sample_rows(n, sample, seed)
-    if len(picked) < 2 * DENSITY_NEIGHBOURS:
+def small_groups(rows: np.ndarray, *, share: float, seed: int, sample: int = DENSITY_SAMPLE,
+                 density: Density | None = None) -> list[np.ndarray]:
+    """Small dense groups: the HDBSCAN leaves of :func:`dense_groups`'s sample with the smallest group
+    at ``share`` of the rows looked at, each as the sampled rows it holds (where to look for groups
+    of their own too small to be archetypes)."""
+    density = Density(rows, seed, sample) if density is None else density
+    if density.too_few:
         return []
-    size = max(DENSITY_NEIGHBOURS, int(np.ceil(share * len(picked) - 1e-9)))
-    found = HDBSCAN(min_cluster_size=size, min_samples=DENSITY_NEIGHBOURS, cluster_selection_method="leaf",
-                    copy=True).fit(rows[picked]).labels_
-    return [np.sort(picked[found == c]) for c in range(int(found.max()) + 1)]
+    found = density.leaves(share)
+    return [np.sort(density.picked[found == c]) for c in range(int(found.max()) + 1)]

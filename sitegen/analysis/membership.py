@@ -12,8 +12,8 @@ distances in (card presence weighted by rarity, each deck a unit row):
   goes to the most similar.
 - **Random decks of the same leader** are the yardstick: each is a real deck of
   the partition whose staples are kept and whose other cards are swapped for
-  cards drawn at random from the partition's pool. A centre's *cut* is the similarity that random
-  decks reach only 1 time in 50 over all k centres (1 in 50k at each centre,
+  cards drawn at random from the partition's pool. A centre's *cut* is the
+  similarity that random decks reach only 1 time in 50 over all k centres (1 in 50k at each centre,
   since a deck gets to try its nearest). A deck less similar to its nearest
   centre than that cut is an other deck while groups are settled: it looks
   like a random pile to every archetype.
@@ -96,7 +96,8 @@ OWN_FLOOR = 10
 class CardRates:
     """The rule decks are placed by: row i of ``log_odds`` (cards) and ``constants[i]`` score a
     deck's card presence x as ``x @ log_odds[i] + constants[i]``, its log-likelihood (plus log
-    prior) under group i's card rates; the last row is the other decks'. See :func:`fit_rates`."""
+    prior) under group i's card rates. The rows from ``archetypes`` on (small groups of their own,
+    then all other decks, last) place a deck among the other decks. See :func:`fit_rates`."""
 
     log_odds: np.ndarray
     constants: np.ndarray

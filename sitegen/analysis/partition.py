@@ -205,10 +205,12 @@ def _rule(rows, present, weights, idf, least, part, params, nulls=None) -> membe
     if pinned is not None:
         candidates = cluster.pinned_groups(rows, pinned, seed=params.seed, n_init=params.kmeans_starts,
                                            fit_sample=params.fit_sample)
-    else:
-        candidates = cluster.dense_groups(rows, min_share=params.min_share, seed=params.seed)
-    smalls = (cluster.small_groups(rows, share=params.min_share * membership.SMALL_SHARE, seed=params.seed)
-              if pinned is None else [])
+        smalls: list[np.ndarray] = []
+    else:  # one HDBSCAN fit read at two sizes: candidate archetypes, and small groups of their own
+        density = cluster.Density(rows, params.seed)
+        candidates = cluster.dense_groups(rows, min_share=params.min_share, seed=params.seed, density=density)
+        smalls = cluster.small_groups(rows, share=params.min_share * membership.SMALL_SHARE, seed=params.seed,
+                                      density=density)
     return membership.settle(present, weights, idf, candidates, least=least, seed=params.seed,
                              merge=pinned is None, rows=rows, most=params.k_max, nulls=nulls, smalls=smalls)
 
