@@ -35,9 +35,12 @@ from . import pages as P
 MODEL_FORMAT = 2
 #: The window global model scripts register in.
 MODEL_GLOBAL = "SITEGEN_CLASSIFY"
-#: Significant digits of centre weights and card log-odds: enough that every distance (4 decimals) and every
-#: placement of the demo's decks comes out as in the build (tested), at a third of the bytes of full precision.
+#: Significant digits of centre weights: enough that every distance (4 decimals) of the demo's decks comes out
+#: as in the build (tested), at a third of the bytes of full precision.
 CENTRE_DIGITS = 12
+#: Significant digits of card log-odds: a deck's score sums a few dozen of them, and every placement of the
+#: demo's decks still comes out as in the build (tested) at two thirds of the bytes of CENTRE_DIGITS.
+RATE_DIGITS = 8
 #: Cards of an archetype's table shipped for the comparison (most played first).
 TABLE_CARDS = 40
 #: Where the manifest for the command line is written.
@@ -75,7 +78,8 @@ def _rates(log_odds: np.ndarray, constant: float) -> dict[str, Any]:
     values, counts = np.unique(row, return_counts=True)
     floor = float(values[np.argmax(counts)]) if len(values) else 0.0
     off = np.flatnonzero(row != floor)
-    return {"i": off.tolist(), "w": [_g(v) for v in row[off].tolist()], "floor": _g(floor), "b": _g(constant)}
+    return {"i": off.tolist(), "w": [_g(v, RATE_DIGITS) for v in row[off].tolist()], "floor": _g(floor, RATE_DIGITS),
+            "b": _g(constant, RATE_DIGITS)}
 
 
 def _usual(line: CardLine) -> int:
