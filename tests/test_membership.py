@@ -230,3 +230,10 @@ def test_card_rates_are_scikit_learn_bernoulli_naive_bayes():
     expected = nb.predict(present.toarray())
     np.testing.assert_array_equal(membership.place(present, rates), np.where(expected == 3, -1, expected))
     assert (membership.place(present, rates) == -1).any() and len(set(membership.place(present, rates))) == 4
+
+
+def test_a_deck_with_none_of_the_rules_cards_is_an_other_deck():
+    # Its score is the constants alone, which may favour an archetype; nothing in the deck does.
+    rates = membership.CardRates(np.log(np.full((2, 3), 0.25)), np.array([0.0, -5.0]))
+    present = sp.csr_matrix(np.array([[0, 0, 0], [1, 0, 1]], dtype=float))
+    assert membership.place(present, rates).tolist() == [-1, 0]

@@ -624,11 +624,12 @@ def _own_out_similarities(weights: sp.csr_matrix, labels: np.ndarray, k: int) ->
 
 def place(present: sp.csr_matrix, rates: CardRates) -> np.ndarray:
     """The build's rule for any decks (card presence, 0/1, over the rule's cards): the group under
-    whose card rates the deck is likeliest, -1 for the other decks' (ties: the first)."""
+    whose card rates the deck is likeliest, -1 for the other decks' (ties: the first). A deck with
+    none of the rule's cards is an other deck: nothing in it speaks for an archetype."""
     n = present.shape[0]
     k = rates.n_archetypes
     if k <= 0:
         return np.full(n, -1)
     scores = np.asarray(present @ rates.log_odds.T) + rates.constants
     best = np.argmax(scores, axis=1)
-    return np.where(best >= k, -1, best)
+    return np.where((best >= k) | (np.diff(sp.csr_matrix(present).indptr) == 0), -1, best)

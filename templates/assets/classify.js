@@ -227,7 +227,7 @@
       res.why = model.status === "too-small" ? "small" : "none";
       if (look.mean) { res.distance = round4(Math.min(Math.max(1 - sim(look.mean), 0), 2)); }
     }
-    if (!present.length) { res.why = res.group >= 0 ? res.why : "unknown"; }
+    if (!present.length) { res.group = -1; res.why = "unknown"; }  // nothing in it speaks for an archetype
     // The nearest published archetype other than its own, with its distance.
     var near = {};
     for (var c = 0; c < sims.length; c++) {
