@@ -153,9 +153,10 @@ def test_every_deck_is_placed_by_the_stored_rule():
     counts, cards = features.build_matrix(part.cards, ids)
     assert cards == rule.cards
     w = features.tfidf(counts)
-    placed = membership.place(features.presence(counts), membership.CardRates(rule.log_odds, rule.constants, len(rule.keys)))
-    sim = np.where(placed >= 0, membership.similarities(w, rule.centres)[np.arange(len(placed)), np.maximum(placed, 0)],
-                   membership.similarities(w, rule.centres).max(axis=1))
+    rates = membership.CardRates(rule.log_odds, rule.constants, len(rule.keys))
+    placed = membership.place(features.presence(counts), rates)
+    sims = membership.similarities(w, rule.centres)
+    sim = np.where(placed >= 0, sims[np.arange(len(placed)), np.maximum(placed, 0)], sims.max(axis=1))
     keys = np.array([rule.keys[p] if p >= 0 else OTHER_KEY for p in placed], dtype=object)
     np.testing.assert_array_equal(keys, result.assignments["archetype"].to_numpy())
     np.testing.assert_allclose(result.assignments["distance"].to_numpy(), np.round(1 - sim, 4), atol=1e-12)
