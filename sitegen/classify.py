@@ -195,7 +195,7 @@ def _rows(model: _Prepared, decks: Sequence[Deck]) -> tuple[sp.csr_matrix, list[
 
 def place_decks(models: Models, decks: Sequence[Deck], season_opt: str | None) -> list[Placed]:
     """Every deck placed, in the order given."""
-    from .analysis.membership import CardRates, place
+    from .analysis.membership import CardRates, as_presence, place
 
     out: list[Placed | None] = [None] * len(decks)
     groups: dict[tuple[str, str], list[int]] = {}
@@ -209,8 +209,7 @@ def place_decks(models: Models, decks: Sequence[Deck], season_opt: str | None) -
         rows, unknown = _rows(model, [decks[i] for i in members])
         names = [(g["slug"], g["name"]) for g in doc["groups"]]
         if len(model.to):
-            presence = sp.csr_matrix((np.ones(rows.nnz), rows.indices, rows.indptr), shape=rows.shape)
-            labels = place(presence, CardRates(model.log_odds, model.constants, len(model.to)))
+            labels = place(as_presence(rows), CardRates(model.log_odds, model.constants, len(model.to)))
             sims = np.asarray(rows @ model.centres.T)
             sim = np.where(labels >= 0, sims[np.arange(len(labels)), np.maximum(labels, 0)], sims.max(axis=1))
         else:

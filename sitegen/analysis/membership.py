@@ -149,6 +149,14 @@ def group_sums(matrix: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
     return np.asarray((onehot @ matrix).todense())
 
 
+def as_presence(matrix: sp.spmatrix) -> sp.csr_matrix:
+    """1 wherever a row holds a card (copies, weights or repeated entries alike), as the card rates read."""
+    out = sp.csr_matrix(matrix, copy=True)
+    out.sum_duplicates()
+    out.data = np.ones_like(out.data, dtype=np.float64)
+    return out
+
+
 def centres_of(weights: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
     """The unit mean direction of each group's rows (k x cards); an empty group is a zero row."""
     return unit_rows(group_sums(weights, labels, k))
@@ -384,9 +392,9 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     centres = centres_of(blind, labels, k)
     sims = similarities(weights, centres)
     near = np.argmax(sims, axis=1)
-    labels = np.where(sims[np.arange(n), near] >= cuts_for(nulls(staples), centres)[near], near, -1)
     null = nulls(staples)
-    null_present = sp.csr_matrix((np.ones(null.nnz), null.indices, null.indptr), shape=null.shape)
+    labels = np.where(sims[np.arange(n), near] >= cuts_for(null, centres)[near], near, -1)
+    null_present = as_presence(null)
     for _ in range(RATE_ROUNDS):
         labels, rates, given_up = _place_by_rates(present, labels, null_present, least)
         dropped_small += given_up

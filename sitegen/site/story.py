@@ -101,7 +101,7 @@ def place_decks(cards: pd.DataFrame, deck_ids: list[str], rule) -> np.ndarray:
 def place_rows(presence: sp.csr_matrix, cards: tuple[str, ...], rule) -> np.ndarray:
     """As :func:`place_decks`, for decks given as card presence over ``cards`` (a card counted once),
     placed by the rule's own arithmetic (:func:`sitegen.analysis.membership.place`)."""
-    from ..analysis.membership import CardRates, place
+    from ..analysis.membership import CardRates, as_presence, place
 
     n = presence.shape[0]
     if rule is None or len(rule.keys) == 0 or n == 0:
@@ -111,9 +111,7 @@ def place_rows(presence: sp.csr_matrix, cards: tuple[str, ...], rule) -> np.ndar
     coo = sp.coo_matrix(presence)
     keep = to[coo.col] >= 0
     cols = to[coo.col[keep]]
-    m = sp.csr_matrix((np.ones(len(cols)), (coo.row[keep], cols)), shape=(n, len(rule.cards)))
-    m.sum_duplicates()
-    m.data[:] = 1.0  # presence, not copies: a card counted once
+    m = as_presence(sp.csr_matrix((np.ones(len(cols)), (coo.row[keep], cols)), shape=(n, len(rule.cards))))
     return place(m, CardRates(np.asarray(rule.log_odds, dtype=float), np.asarray(rule.constants, dtype=float),
                               len(rule.keys)))
 
