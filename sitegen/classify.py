@@ -3,8 +3,8 @@
 The models are the files the build wrote into the site (``classify/index.json``
 and one ``classify/<season>/<leader>.json`` per partition; see
 :mod:`sitegen.site.classify`), so nothing is analysed again: a deck's known
-cards (presence, not copies) go to the archetype under whose card rates they
-are likeliest, or to the other decks when the other decks' rates fit best
+cards and their copies go to the archetype under whose card rates they are
+likeliest, or to the other decks when the other decks' rates fit best
 (:func:`sitegen.analysis.membership.place`), and the deck is reported under
 the group the site shows that archetype's decks in. Its distance is one less
 the cosine similarity of its TF-IDF row (the known cards' idf weights, unit
@@ -150,6 +150,13 @@ class _Prepared:
             self.log_odds[row] = r["floor"]
             self.log_odds[row, r["i"]] = r["w"]
         self.constants = np.asarray([r["b"] for r in rates], dtype=np.float64)
+        self.levels = None
+        if doc.get("levels"):
+            mix = np.full(doc["levels"]["count"] * m, float(doc["levels"]["floor"]))
+            mix[doc["levels"]["i"]] = doc["levels"]["w"]
+            self.levels = np.tile(mix, (len(rates), 1))
+            for row, r in enumerate(rates):
+                self.levels[row, r["levels"]["i"]] = r["levels"]["w"]
         self.to = [int(c["to"]) for c in doc["centres"]]
         self.mean = None
         if doc.get("mean"):
@@ -166,19 +173,21 @@ class _Prepared:
         return hit if hit is not None and hit >= 0 else None
 
 
-def _rows(model: _Prepared, decks: Sequence[Deck]) -> tuple[sp.csr_matrix, list[list[str]]]:
+def _rows(model: _Prepared, decks: Sequence[Deck]) -> tuple[sp.csr_matrix, list[list[str]], sp.csr_matrix]:
     """Unit TF-IDF rows (presence x idf) of the decks over the model's cards, as the build makes
-    them (sitegen.analysis.features.tfidf), and each deck's unknown cards."""
-    indptr, indices, unknown = [0], [], []
+    them (sitegen.analysis.features.tfidf), each deck's unknown cards, and its copies of each card."""
+    indptr, indices, unknown, copies = [0], [], [], []
     for d in decks:
-        cols, missing = set(), []
-        for card in d.cards:
+        cols: dict[int, int] = {}
+        missing = []
+        for card, qty in d.cards.items():
             c = model.column(card)
             if c is None:
                 missing.append(card)
             else:
-                cols.add(c)
+                cols[c] = cols.get(c, 0) + int(qty)
         indices.extend(sorted(cols))
+        copies.extend(cols[c] for c in sorted(cols))
         indptr.append(len(indices))
         unknown.append(missing)
     indices_a = np.asarray(indices, dtype=np.int32)
@@ -190,12 +199,14 @@ def _rows(model: _Prepared, decks: Sequence[Deck]) -> tuple[sp.csr_matrix, list[
         squares = np.sqrt(np.add.reduceat(data * data, indptr_a[filled]))
         norms[filled] = np.where(squares == 0, 1.0, squares)
     data = data / np.repeat(norms, np.diff(indptr_a))
-    return sp.csr_matrix((data, indices_a, indptr_a), shape=(len(decks), len(model.cards))), unknown
+    shape = (len(decks), len(model.cards))
+    held = sp.csr_matrix((np.asarray(copies, dtype=np.float64), indices_a, indptr_a), shape=shape)
+    return sp.csr_matrix((data, indices_a, indptr_a), shape=shape), unknown, held
 
 
 def place_decks(models: Models, decks: Sequence[Deck], season_opt: str | None) -> list[Placed]:
     """Every deck placed, in the order given."""
-    from .analysis.membership import CardRates, as_presence, place
+    from .analysis.membership import CardRates, place
 
     out: list[Placed | None] = [None] * len(decks)
     groups: dict[tuple[str, str], list[int]] = {}
@@ -206,10 +217,10 @@ def place_decks(models: Models, decks: Sequence[Deck], season_opt: str | None) -
     for (season, leader), members in groups.items():
         model = models.model(season, leader)
         doc = model.doc
-        rows, unknown = _rows(model, [decks[i] for i in members])
+        rows, unknown, held = _rows(model, [decks[i] for i in members])
         names = [(g["slug"], g["name"]) for g in doc["groups"]]
         if len(model.to):
-            labels = place(as_presence(rows), CardRates(model.log_odds, model.constants, len(model.to)))
+            labels = place(held, CardRates(model.log_odds, model.constants, len(model.to), model.levels))
             sims = np.asarray(rows @ model.centres.T)
             sim = np.where(labels >= 0, sims[np.arange(len(labels)), np.maximum(labels, 0)], sims.max(axis=1))
         else:

@@ -242,9 +242,12 @@ class Placement:
     """The rule a partition's decks were placed by, to place any decklist the same way.
 
     A deck's card presence x (0 or 1 over ``cards``) scores ``x @ log_odds[i]
-    + constants[i]`` for archetype ``keys[i]``; the rows after the archetypes'
-    (small groups of their own given up, then all other decks) stand for the
-    other decks. It goes to the highest (ties: the first). ``centres[i]`` is
+    + constants[i]`` for archetype ``keys[i]``, plus ``z @ levels[i]`` for the
+    copy level z each played card is at (one column per card and level, see
+    :func:`sitegen.analysis.membership.as_levels`); the rows after the
+    archetypes' (small groups of their own given up, then all other decks)
+    stand for the other decks. It goes to the highest (ties: the first).
+    ``centres[i]`` is
     archetype i's unit mean direction in TF-IDF space (a deck's row: its
     cards' ``idf`` weights scaled to unit length), which distances are
     measured to.
@@ -259,18 +262,29 @@ class Placement:
     #: The unit mean direction of all the partition's decks: what a partition without archetypes
     #: measures its decks' distances to (None when it has no decks).
     mean: np.ndarray | None = None
+    #: Log-share of each copy level among each row's decks playing each card (rows x levels*cards);
+    #: None: the rule reads presence alone.
+    levels: np.ndarray | None = None
+
+    def rates(self):
+        """The rule as :class:`sitegen.analysis.membership.CardRates`, to place decks by."""
+        from .analysis.membership import CardRates
+
+        return CardRates(self.log_odds, self.constants, len(self.keys), self.levels)
 
 
 @dataclass(frozen=True)
 class MapSample:
     """What a partition's map is drawn from: the drawn decks (``drawn``, rows of the
     partition's assignments), their SVD rows, and their card presence over ``cards``
-    (so the next season's decks can find their nearest decks of this map)."""
+    (so the next season's decks can find their nearest decks of this map), and their
+    copies of each card (so the next season's rule can place them)."""
 
     drawn: np.ndarray
     rows: np.ndarray
     presence: sp.csr_matrix
     cards: tuple[str, ...]
+    copies: sp.csr_matrix | None = None
 
 
 @dataclass(frozen=True)

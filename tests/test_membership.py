@@ -126,7 +126,7 @@ def test_cuts_are_quantiles_of_random_decks_over_the_centres():
     # Reference: numpy.quantile at 1 - (1 - NULL_QUANTILE) / k of the random decks' similarities to each centre.
     counts, w = _rows(4)
     centres = membership.centres_of(w, np.arange(60) % 2, 2)
-    null = membership.null_rows(features.presence(counts), features.idf(counts), np.zeros(30, bool), 500, 0)
+    null, _ = membership.null_rows(features.presence(counts), features.idf(counts), np.zeros(30, bool), 500, 0)
     assert null.shape == (500, 30)
     np.testing.assert_allclose(np.asarray(null.multiply(null).sum(axis=1)).ravel(), 1.0)
     ref = np.quantile(cosine_similarity(null, centres), 1 - (1 - membership.NULL_QUANTILE) / 2, axis=0)
@@ -138,10 +138,56 @@ def test_random_decks_keep_staples_and_size():
     present = features.presence(counts)
     staples = np.zeros(30, bool)
     staples[0] = True
-    null = membership.null_rows(present, features.idf(counts), staples, 200, 1)
+    null, copies = membership.null_rows(present, features.idf(counts), staples, 200, 1)
     assert (null[:, 0].toarray() > 0).all()  # card 0 is in every deck and is a staple
     sizes = np.diff(null.indptr)
     assert sizes.min() >= 1 and sizes.max() <= np.diff(present.indptr).max()
+    assert (copies != 0).toarray().tolist() == (null != 0).toarray().tolist()
+
+
+def test_random_decks_keep_staple_copies_and_draw_levels_a_card_is_played_at():
+    # Planted: card 0 (a staple) at 3 copies in every deck; cards 1-9 always at 1 copy, cards 10-19
+    # at 2 or 3. A random deck keeps its staple's copies and plays each fresh card at a level that
+    # card is played at in the data, so random decks look no likelier at any level than real decks.
+    rng = np.random.default_rng(4)
+    dense = (rng.random((80, 20)) < 0.3) * np.where(np.arange(20) < 10, 1.0, rng.integers(2, 4, (80, 20)))
+    dense[:, 0] = 3.0
+    counts = sp.csr_matrix(dense)
+    staples = np.zeros(20, bool)
+    staples[0] = True
+    _, copies = membership.null_rows(counts, features.idf(counts), staples, 300, 2)
+    held = copies.toarray()
+    assert (held[:, 0] == 3).all()
+    assert set(np.unique(held[:, 1:10])) <= {0.0, 1.0} and set(np.unique(held[:, 10:])) <= {0.0, 2.0, 3.0}
+    assert (held[:, 10:] == 2).any() and (held[:, 10:] == 3).any()
+
+
+def test_copy_levels_worked_by_hand():
+    # Worked by hand from fit_rates' formula: among a group's decks playing a card, the share at each
+    # level, drawn towards the partition's mix by LEVEL_SMOOTHING = 1 deck. Card 0: group 0 plays it at
+    # 3, 3, 1 copies, group 1 at 1, 1; partition mix: 3 of 5 at 1 copy, 2 of 5 at 3 or more.
+    assert membership.LEVEL_SMOOTHING == 1.0 and membership.LEVELS == 3
+    counts = sp.csr_matrix(np.array([[3, 1], [3, 1], [1, 1], [1, 1], [1, 1]], dtype=float))
+    rates = membership.fit_rates(counts, np.array([0, 0, 0, 1, 1]), 2, sp.csr_matrix((0, 2)), 0.0)
+    lv = rates.levels  # columns: card 0 at 1, card 1 at 1, card 0 at 2, card 1 at 2, card 0 at 3+, card 1 at 3+
+    assert lv.shape == (3, 6)
+    np.testing.assert_allclose(np.exp(lv[0, [0, 4]]), [(1 + 3 / 5) / 4, (2 + 2 / 5) / 4])
+    np.testing.assert_allclose(np.exp(lv[1, [0, 4]]), [(2 + 3 / 5) / 3, (0 + 2 / 5) / 3])
+    assert (lv[:2, 2] == membership.LEVEL_FLOOR).all()  # no deck plays card 0 at 2 copies
+    np.testing.assert_allclose(lv[:2, 1], 0.0)  # card 1 is only ever played at 1 copy: its level says nothing
+    # A deck at 3 copies of card 0 now leans to group 0, at 1 copy to group 1, by the shares' ratio.
+    both = membership.scores(sp.csr_matrix(np.array([[3.0, 1], [1, 1]])), rates)
+    plain = membership.scores(sp.csr_matrix(np.array([[1.0, 1], [1, 1]])), rates)
+    np.testing.assert_allclose(both[0, :2] - plain[1, :2], lv[:2, 4] - lv[:2, 0])
+
+
+def test_presence_alone_is_read_as_one_copy_of_each_card():
+    # Where every deck plays every card at one copy, the levels add nothing: the scores are the
+    # presence scores (the BernoulliNB test below then holds for the whole rule).
+    counts, _ = _rows(8, n=50, m=12, p=0.4)
+    rates = membership.fit_rates(counts, np.repeat([0, 1, -1], [20, 20, 10]), 2, sp.csr_matrix((0, 12)), 0.0)
+    np.testing.assert_allclose(membership.scores(counts, rates),
+                               counts.toarray() @ rates.log_odds.T + rates.constants, atol=1e-12)
 
 
 def test_every_deck_is_placed_by_the_stored_rule():
@@ -153,8 +199,7 @@ def test_every_deck_is_placed_by_the_stored_rule():
     counts, cards = features.build_matrix(part.cards, ids)
     assert cards == rule.cards
     w = features.tfidf(counts)
-    rates = membership.CardRates(rule.log_odds, rule.constants, len(rule.keys))
-    placed = membership.place(features.presence(counts), rates)
+    placed = membership.place(counts, rule.rates())
     sims = membership.similarities(w, rule.centres)
     sim = np.where(placed >= 0, sims[np.arange(len(placed)), np.maximum(placed, 0)], sims.max(axis=1))
     keys = np.array([rule.keys[p] if p >= 0 else OTHER_KEY for p in placed], dtype=object)

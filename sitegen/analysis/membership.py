@@ -41,7 +41,11 @@ distances in (card presence weighted by rarity, each deck a unit row):
   ``least`` decks is given up. Cosine similarity weighs a card by its rarity,
   so a short list whose one-off cards outweigh its few common core cards
   falls below the cut; card rates weigh each card by how much likelier it is
-  in one group than in another, as the planted truth would.
+  in one group than in another, as the planted truth would. They also read
+  copies: among a group's decks playing a card, the share at each copy level
+  (1, 2, :data:`LEVELS` or more) scores the level a deck plays it at, so a
+  close variant that plays its parent's cards at other counts is told apart,
+  and so is an archetype's short list that still plays its core at full count.
 - **Small groups of their own.** A dense group too small to be an archetype
   (from :data:`SMALL_SHARE` of ``min_share``) that the placement gave to an
   archetype, yet is distinct from the rest of it (the strict test above: a
@@ -90,6 +94,13 @@ RATE_ROUNDS = 2
 #: (dense groups of at least that many of the decks looked at), and from OWN_FLOOR decks.
 SMALL_SHARE = 0.25
 OWN_FLOOR = 10
+#: Copy levels the card rates read besides a card's presence: 1 copy, 2 copies, LEVELS or more.
+LEVELS = 3
+#: A group's mix of a card's copy levels is drawn towards the partition's own mix by this many decks.
+LEVEL_SMOOTHING = 1.0
+#: Log-share of a copy level no deck of the partition plays a card at: every row holds this same
+#: value there, so such a level tells no group from another.
+LEVEL_FLOOR = -30.0
 
 
 @dataclass(frozen=True)
@@ -104,6 +115,10 @@ class CardRates:
     #: Rows 0..archetypes-1 are archetypes'; the rest (small groups of their own, then all other
     #: decks) place a deck among the other decks. None: only the last row does.
     archetypes: int | None = None
+    #: Log-share of each copy level among a group's decks playing each card (rows x LEVELS*cards,
+    #: level l of card j in column (l-1)*cards + j), added for the level each played card is at;
+    #: None: presence alone.
+    levels: np.ndarray | None = None
 
     @property
     def n_archetypes(self) -> int:
@@ -154,6 +169,27 @@ def as_presence(matrix: sp.spmatrix) -> sp.csr_matrix:
     out = sp.csr_matrix(matrix, copy=True)
     out.sum_duplicates()
     out.data = np.ones_like(out.data, dtype=np.float64)
+    return out
+
+
+def as_levels(counts: sp.spmatrix) -> sp.csr_matrix:
+    """Each played card's copy level as a 1 in its column (decks x LEVELS*cards): level l (1 copy,
+    2 copies, ... LEVELS or more) of card j in column (l-1)*cards + j."""
+    counts = sp.csr_matrix(counts, copy=True)
+    counts.sum_duplicates()
+    counts.eliminate_zeros()
+    m = counts.shape[1]
+    level = np.clip(np.rint(counts.data).astype(np.int64), 1, LEVELS)
+    rows = np.repeat(np.arange(counts.shape[0]), np.diff(counts.indptr))
+    return sp.csr_matrix((np.ones(len(level)), (rows, (level - 1) * m + counts.indices)),
+                         shape=(counts.shape[0], LEVELS * m))
+
+
+def scores(counts: sp.spmatrix, rates: CardRates) -> np.ndarray:
+    """Each deck's score under each row of ``rates`` (decks x rows): its log-likelihood plus log prior."""
+    out = np.asarray(as_presence(counts) @ rates.log_odds.T) + rates.constants
+    if rates.levels is not None:
+        out += np.asarray(as_levels(counts) @ rates.levels.T)
     return out
 
 
@@ -234,24 +270,28 @@ def yules_q(both, only_x, only_y, neither):
         return np.where(ad + bc > 0, (ad - bc) / np.where(ad + bc > 0, ad + bc, 1.0), 0.0)
 
 
-def null_rows(present: sp.csr_matrix, idf: np.ndarray, staples: np.ndarray, n_null: int, seed: int) -> sp.csr_matrix:
-    """TF-IDF rows (unit length) of random decks of this partition (see the module notes).
+def null_rows(present: sp.csr_matrix, idf: np.ndarray, staples: np.ndarray, n_null: int, seed: int
+              ) -> tuple[sp.csr_matrix, sp.csr_matrix]:
+    """TF-IDF rows (unit length) of random decks of this partition, and their copies (see the module notes).
 
     Each random deck starts from a real deck drawn at random: its staples are
-    kept, and each of its other cards is replaced by a card drawn without
-    replacement from the partition's other cards, uniformly (the cards with
-    the smallest of one random key each). All decks are drawn at once.
+    kept (at its copies), and each of its other cards is replaced by a card
+    drawn without replacement from the partition's other cards, uniformly (the
+    cards with the smallest of one random key each), at a copy level drawn
+    from that card's own mix of levels in the partition. All decks are drawn
+    at once. ``present``: the partition's copies of each card (or 1s).
     """
     n, m = present.shape
     rng = np.random.default_rng(seed)
     played = np.bincount(present.indices, minlength=m) > 0
     pool = np.flatnonzero(played & ~staples)
     if n == 0 or len(pool) == 0:
-        return sp.csr_matrix((0, m))
+        return sp.csr_matrix((0, m)), sp.csr_matrix((0, m))
     picked = present[rng.integers(0, n, size=n_null)]
     is_staple = staples[picked.indices]
     kept_rows = np.repeat(np.arange(n_null), np.diff(picked.indptr))[is_staple]
     kept_cols = picked.indices[is_staple]
+    kept_copies = np.asarray(picked.data[is_staple], dtype=np.float64)
     swap = np.minimum(np.diff(picked.indptr) - np.bincount(kept_rows, minlength=n_null), len(pool))
     most = int(swap.max(initial=0))
     if most:
@@ -264,12 +304,19 @@ def null_rows(present: sp.csr_matrix, idf: np.ndarray, staples: np.ndarray, n_nu
         fresh_cols = pool[first[take]]
     else:
         fresh_rows = fresh_cols = np.zeros(0, dtype=np.intp)
+    # Each fresh card's copy level from its own mix in the partition (a generator of its own, so the
+    # cards drawn are the same whether copies are read or not).
+    mix = np.asarray(as_levels(present).sum(axis=0)).ravel().reshape(LEVELS, m).T  # cards x levels
+    cum = np.cumsum(mix, axis=1) / np.maximum(mix.sum(axis=1, keepdims=True), 1.0)
+    u = np.random.default_rng([seed, 1]).random(len(fresh_cols))
+    fresh_copies = 1.0 + (u[:, None] >= cum[fresh_cols, :-1]).sum(axis=1)
     rows = np.concatenate([kept_rows, fresh_rows])
     cols = np.concatenate([kept_cols, fresh_cols])
     null = sp.csr_matrix((idf[cols], (rows, cols)), shape=(n_null, m))
     norms = np.sqrt(np.asarray(null.multiply(null).sum(axis=1)).ravel())
     norms[norms == 0] = 1.0
-    return sp.csr_matrix(sp.diags(1.0 / norms) @ null)
+    copies = sp.csr_matrix((np.concatenate([kept_copies, fresh_copies]), (rows, cols)), shape=(n_null, m))
+    return sp.csr_matrix(sp.diags(1.0 / norms) @ null), copies
 
 
 def cuts_for(null: sp.csr_matrix, centres: np.ndarray) -> np.ndarray:
@@ -334,7 +381,7 @@ def merge_alike(present: sp.csr_matrix, weights: sp.csr_matrix, labels: np.ndarr
 def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labels: np.ndarray, *,
            least: int, seed: int, merge: bool = True, rows: np.ndarray | None = None,
            most: int | None = None, nulls: "RandomDecks | None" = None,
-           smalls: Sequence[np.ndarray] = ()) -> Membership:
+           smalls: Sequence[np.ndarray] = (), copies: sp.csr_matrix | None = None) -> Membership:
     """From candidate labels (0..k-1, -1 for none) to the rule every deck is held to.
 
     Until nothing changes: every deck goes to its nearest live centre and is
@@ -346,14 +393,16 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     returned are the ones the final labels were assigned by. ``nulls``: the
     partition's :class:`RandomDecks`, when this runs on part of it. ``smalls``:
     small dense groups (member sets), each kept as a group of its own whose
-    decks are other decks when it is distinct from the archetype that took it.
+    decks are other decks when it is distinct from the archetype that took it. ``copies``: each
+    deck's copies of each card, read by the card rates (None: presence alone).
     """
     n = present.shape[0]
+    copies = present if copies is None else copies
     labels = _compact(labels)
     merged = dropped_small = dropped_loose = 0
     split = 0
     tried: set[bytes] = set()
-    nulls = RandomDecks(present, idf, seed) if nulls is None else nulls
+    nulls = RandomDecks(copies, idf, seed) if nulls is None else nulls
     by_card = sp.csc_matrix(present)
     known: dict = {}
     for _ in range(64):
@@ -394,14 +443,14 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     near = np.argmax(sims, axis=1)
     null = nulls(staples)
     labels = np.where(sims[np.arange(n), near] >= cuts_for(null, centres)[near], near, -1)
-    null_present = as_presence(null)
+    null_copies = nulls.copies(staples)
     for _ in range(RATE_ROUNDS):
-        labels, rates, given_up = _place_by_rates(present, labels, null_present, least)
+        labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least)
         dropped_small += given_up
     k = int(labels.max(initial=-1)) + 1
     own = _own_groups(present, labels, k, smalls, by_card) if k else []
     if own:
-        labels, rates, given_up = _place_by_rates(present, labels, null_present, least, own)
+        labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, own)
         dropped_small += given_up
         k = int(labels.max(initial=-1)) + 1
     if k == 0:
@@ -410,33 +459,42 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     centres = centres_of(blind, labels, k)
     sims = similarities(weights, centres)
     sim = np.where(labels >= 0, sims[np.arange(n), np.maximum(labels, 0)], sims.max(axis=1))
-    row = np.argmax(np.asarray(present @ rates.log_odds.T) + rates.constants, axis=1)
+    row = np.argmax(scores(copies, rates), axis=1)
     own_decks = int(((row >= k) & (row < rates.log_odds.shape[0] - 1)).sum())
     return Membership(labels, centres, rates, sim, int((labels < 0).sum()), dropped_small, dropped_loose,
                       merged, split, rates.log_odds.shape[0] - 1 - k, own_decks)
 
 
-def fit_rates(present: sp.csr_matrix, labels: np.ndarray, k: int, null_present: sp.csr_matrix,
+def fit_rates(copies: sp.csr_matrix, labels: np.ndarray, k: int, null_copies: sp.csr_matrix,
               null_weight: float) -> CardRates:
-    """Card rates of groups 0..k-1 and of the other decks (-1), as a Bernoulli naive Bayes model.
+    """Card rates of groups 0..k-1 and of the other decks (-1), as a naive Bayes model.
 
     Group i's rate of a card is (decks playing it + a) / (decks + 2a), a =
     :data:`RATE_SMOOTHING`; its prior is its share of the decks. The other decks
-    are joined by the random decks ``null_present``, weighing ``null_weight``
+    are joined by the random decks ``null_copies``, weighing ``null_weight``
     decks in all, so that a deck like none of the archetypes has somewhere to
     go even when the data holds few other decks; and their rate of a card is at
     most the random decks' own (smoothed alike), so that the decks of an
     archetype that fell to the other decks cannot teach the other decks to
-    look like it and draw more of its decks. This is scikit-learn's
-    BernoulliNB fitted with those sample weights, the other decks' rates then
-    capped (tested).
+    look like it and draw more of its decks. On presence alone this is
+    scikit-learn's BernoulliNB fitted with those sample weights, the other
+    decks' rates then capped (tested).
+
+    Copies: among a group's decks playing a card, the share at each copy level
+    (1, 2, :data:`LEVELS` or more), drawn towards the partition's own mix of
+    that card's levels by :data:`LEVEL_SMOOTHING` decks, scores the level a
+    deck plays it at. Where every deck plays every card at one copy this adds
+    nothing (each share is 1).
     """
+    present, null_present = as_presence(copies), as_presence(null_copies)
     group = np.where(labels >= 0, labels, k)
     counts = group_sums(present, group, k + 1)
+    levels = group_sums(as_levels(copies), group, k + 1)
     sizes = np.bincount(group, minlength=k + 1).astype(np.float64)
     n_null = null_present.shape[0]
     if n_null and null_weight > 0:
         counts[k] += null_weight / n_null * np.asarray(null_present.sum(axis=0)).ravel()
+        levels[k] += null_weight / n_null * np.asarray(as_levels(null_copies).sum(axis=0)).ravel()
         sizes[k] += null_weight
     rate = (counts + RATE_SMOOTHING) / (sizes[:, None] + 2.0 * RATE_SMOOTHING)
     if n_null:  # the other decks play no card more often than random decks do
@@ -445,10 +503,15 @@ def fit_rates(present: sp.csr_matrix, labels: np.ndarray, k: int, null_present: 
     with np.errstate(divide="ignore"):
         prior = np.log(sizes / sizes.sum())
     log_odds = np.log(rate) - np.log1p(-rate)
-    return CardRates(log_odds, np.log1p(-rate).sum(axis=1) + prior)
+    mix = np.asarray(as_levels(copies).sum(axis=0)).ravel()
+    mix = mix / np.maximum(np.tile(np.asarray(present.sum(axis=0)).ravel(), LEVELS), 1.0)
+    share = (levels + LEVEL_SMOOTHING * mix) / (np.tile(counts, LEVELS) + LEVEL_SMOOTHING)
+    with np.errstate(divide="ignore"):
+        level_log = np.where(share > 0, np.log(np.where(share > 0, share, 1.0)), LEVEL_FLOOR)
+    return CardRates(log_odds, np.log1p(-rate).sum(axis=1) + prior, None, level_log)
 
 
-def _place_by_rates(present, labels, null_present, least, own: Sequence[np.ndarray] = ()
+def _place_by_rates(copies, labels, null_copies, least, own: Sequence[np.ndarray] = ()
                     ) -> tuple[np.ndarray, CardRates, int]:
     """One round: rates fitted on ``labels``, every deck placed by them; groups left under ``least``
     decks given up (fewest first, one at a time) and the round placed again without them. ``own``:
@@ -459,9 +522,9 @@ def _place_by_rates(present, labels, null_present, least, own: Sequence[np.ndarr
         fit = labels.copy()
         for j, members in enumerate(own):
             fit[members] = k + j
-        rates = fit_rates(present, fit, k + len(own), null_present, float(least))
-        rates = CardRates(rates.log_odds, rates.constants, k)
-        placed = place(present, rates)
+        rates = fit_rates(copies, fit, k + len(own), null_copies, float(least))
+        rates = CardRates(rates.log_odds, rates.constants, k, rates.levels)
+        placed = place(copies, rates)
         sizes = np.bincount(placed[placed >= 0], minlength=k)
         if k == 0 or sizes.min() >= least:
             return _compact(placed), _kept_rates(rates, sizes > 0), given_up
@@ -473,7 +536,8 @@ def _place_by_rates(present, labels, null_present, least, own: Sequence[np.ndarr
 def _kept_rates(rates: CardRates, keep: np.ndarray) -> CardRates:
     """The rows of the archetypes kept, then every other-deck row, in order."""
     rows = np.concatenate([np.flatnonzero(keep), np.arange(len(keep), rates.log_odds.shape[0])])
-    return CardRates(rates.log_odds[rows], rates.constants[rows], int(keep.sum()))
+    return CardRates(rates.log_odds[rows], rates.constants[rows], int(keep.sum()),
+                     None if rates.levels is None else rates.levels[rows])
 
 
 def _own_groups(present, labels, k, smalls, by_card) -> list[np.ndarray]:
@@ -539,19 +603,30 @@ def _split_one(present, rows, labels, least, seed, tried, by_card=None) -> np.nd
 
 class RandomDecks:
     """Random decks of one partition, made once for each set of staples asked for (and shared by the
-    reruns on halves of the partition, which draw their random decks from the whole of it)."""
+    reruns on halves of the partition, which draw their random decks from the whole of it).
+    ``present``: the partition's copies of each card (or 1s, where copies are not read)."""
 
     def __init__(self, present: sp.csr_matrix, idf: np.ndarray, seed: int) -> None:
         self._present, self._idf, self._seed = present, idf, seed
-        self._made: dict[bytes, sp.csr_matrix] = {}
+        self._made: dict[bytes, tuple[sp.csr_matrix, sp.csr_matrix]] = {}
 
-    def __call__(self, staples: np.ndarray) -> sp.csr_matrix:
+    def _both(self, staples: np.ndarray) -> tuple[sp.csr_matrix, sp.csr_matrix]:
         key = np.packbits(staples).tobytes()
         if key not in self._made:
             # In batches of NULL_BATCH, each from its own seed, so memory stays small at any pool size.
-            self._made[key] = sp.vstack([null_rows(self._present, self._idf, staples, NULL_BATCH, self._seed + i)
-                                         for i in range(NULL_DECKS // NULL_BATCH)], format="csr")
+            made = [null_rows(self._present, self._idf, staples, NULL_BATCH, self._seed + i)
+                    for i in range(NULL_DECKS // NULL_BATCH)]
+            self._made[key] = (sp.vstack([a for a, _ in made], format="csr"),
+                               sp.vstack([b for _, b in made], format="csr"))
         return self._made[key]
+
+    def __call__(self, staples: np.ndarray) -> sp.csr_matrix:
+        """The random decks' TF-IDF rows (unit length)."""
+        return self._both(staples)[0]
+
+    def copies(self, staples: np.ndarray) -> sp.csr_matrix:
+        """The same random decks' copies of each card."""
+        return self._both(staples)[1]
 
 
 def _compact(labels: np.ndarray) -> np.ndarray:
@@ -630,14 +705,13 @@ def _own_out_similarities(weights: sp.csr_matrix, labels: np.ndarray, k: int) ->
     return sims
 
 
-def place(present: sp.csr_matrix, rates: CardRates) -> np.ndarray:
-    """The build's rule for any decks (card presence, 0/1, over the rule's cards): the group under
-    whose card rates the deck is likeliest, -1 for the other decks' (ties: the first). A deck with
-    none of the rule's cards is an other deck: nothing in it speaks for an archetype."""
-    n = present.shape[0]
+def place(copies: sp.csr_matrix, rates: CardRates) -> np.ndarray:
+    """The build's rule for any decks (copies of each of the rule's cards; 1s where copies are not
+    read): the group under whose card rates the deck is likeliest, -1 for the other decks' (ties: the
+    first). A deck with none of the rule's cards is an other deck: nothing in it speaks for an archetype."""
+    n = copies.shape[0]
     k = rates.n_archetypes
     if k <= 0:
         return np.full(n, -1)
-    scores = np.asarray(present @ rates.log_odds.T) + rates.constants
-    best = np.argmax(scores, axis=1)
-    return np.where((best >= k) | (np.diff(sp.csr_matrix(present).indptr) == 0), -1, best)
+    best = np.argmax(scores(copies, rates), axis=1)
+    return np.where((best >= k) | (np.diff(as_presence(copies).indptr) == 0), -1, best)

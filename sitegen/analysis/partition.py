@@ -68,8 +68,8 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
         rows = features.reduce(weights, params.svd_dims, params.seed, params.fit_sample)
     least = max(1, math.ceil(params.min_share * n - 1e-9))
     # One set of random decks for the rule and its reruns on halves (the same seed would make the same ones).
-    nulls = membership.RandomDecks(present, idf, params.seed)
-    found = _rule(rows, present, weights, idf, least, part, params, nulls)
+    nulls = membership.RandomDecks(counts, idf, params.seed)
+    found = _rule(rows, present, weights, idf, least, part, params, nulls, counts)
     labels = found.labels
     k = len(found.centres)
 
@@ -81,7 +81,7 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
     centres = found.centres[order] if k else found.centres
     # The archetypes' card rates in key order, then the other decks' rows (none at all without archetypes).
     rows_kept = np.asarray(list(order) + list(range(k, found.rates.log_odds.shape[0])) if k else [], dtype=np.intp)
-    steady = _stability(rows, present, weights, idf, nulls, labels, part, params) if k else np.zeros(0)
+    steady = _stability(rows, present, weights, idf, nulls, labels, part, params, counts) if k else np.zeros(0)
     for i, c in enumerate(order, start=1):
         keys[groups[c]] = f"a{i}"
         archetypes.append(replace(ctx.group(f"a{i}", groups[c]), stability=round(float(steady[c]), 3)))
@@ -94,7 +94,9 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
     placement = Placement(cards=tuple(cards), idf=idf, keys=tuple(f"a{i}" for i in range(1, k + 1)),
                           centres=np.ascontiguousarray(centres),
                           log_odds=np.ascontiguousarray(found.rates.log_odds[rows_kept]),
-                          constants=np.asarray(found.rates.constants[rows_kept], dtype=np.float64), mean=_mean(weights))
+                          constants=np.asarray(found.rates.constants[rows_kept], dtype=np.float64), mean=_mean(weights),
+                          levels=(None if found.rates.levels is None
+                                  else np.ascontiguousarray(found.rates.levels[rows_kept])))
     archetypes = _unique_slugs(archetypes, other)
     if other is not None:
         archetypes, other = archetypes[:-1], archetypes[-1]
@@ -109,7 +111,7 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
         drawn = drawn[:0]
         reason += f" {embed.NO_MAP}."
     sample = MapSample(drawn=drawn, rows=np.ascontiguousarray(rows[drawn], dtype=np.float64),
-                       presence=present[drawn], cards=tuple(cards)) if len(drawn) else None
+                       presence=present[drawn], cards=tuple(cards), copies=counts[drawn]) if len(drawn) else None
     map_points = pd.DataFrame({
         "deck_id": [ids[i] for i in drawn],
         "archetype": [keys[i] for i in drawn],
@@ -197,10 +199,10 @@ class _Context:
         return results.card_results(self.counts, members, self.cards, counts("wins"), counts("losses"))
 
 
-def _rule(rows, present, weights, idf, least, part, params, nulls=None) -> membership.Membership:
+def _rule(rows, present, weights, idf, least, part, params, nulls=None, copies=None) -> membership.Membership:
     """The archetype-finding rule on any set of a partition's decks (the whole, or a half for stability):
     candidate groups (dense regions, or k-means at a pinned k), then the rule of :mod:`.membership`, with
-    random decks drawn from the whole partition (``nulls``)."""
+    random decks drawn from the whole partition (``nulls``); ``copies``: the decks' copies of each card."""
     pinned = params.pinned(part.season, part.leader)
     if pinned is not None:
         candidates = cluster.pinned_groups(rows, pinned, seed=params.seed, n_init=params.kmeans_starts,
@@ -212,15 +214,17 @@ def _rule(rows, present, weights, idf, least, part, params, nulls=None) -> membe
         smalls = cluster.small_groups(rows, share=params.min_share * membership.SMALL_SHARE, seed=params.seed,
                                       density=density)
     return membership.settle(present, weights, idf, candidates, least=least, seed=params.seed,
-                             merge=pinned is None, rows=rows, most=params.k_max, nulls=nulls, smalls=smalls)
+                             merge=pinned is None, rows=rows, most=params.k_max, nulls=nulls, smalls=smalls,
+                             copies=copies)
 
 
-def _stability(rows, present, weights, idf, nulls, labels, part, params) -> np.ndarray:
+def _stability(rows, present, weights, idf, nulls, labels, part, params, copies) -> np.ndarray:
     """Each found group's stability (:mod:`.stability`): the same rule rerun on random halves."""
 
     def rerun(picked: np.ndarray) -> np.ndarray:
         least = max(1, math.ceil(params.min_share * len(picked) - 1e-9))
-        return _rule(rows[picked], present[picked], weights[picked], idf, least, part, params, nulls).labels
+        return _rule(rows[picked], present[picked], weights[picked], idf, least, part, params, nulls,
+                     copies[picked]).labels
 
     return stability.stability(labels, rerun, seed=params.seed)
 

@@ -11,8 +11,9 @@ A model holds the partition's rule as stored with its result
 (:class:`sitegen.model.Placement`): the cards with their idf weights, each
 archetype centre (only its nonzero weights) with its card rates (``rates``:
 log-odds per card, only those off the group's ``floor``, and a constant
-``b``), the other decks' card rates (``other_rates``: small groups of their
-own given up, then all other decks), and which published
+``b``; ``levels``: its log-shares of copy levels where they differ from the
+model's ``levels``, the value most rows share), the other decks' card rates (``other_rates``: small
+groups of their own given up, then all other decks), and which published
 group each centre's decks are shown in (after season linking and the notes'
 merge_into and hide, exactly as the assignments export labels them). For each
 group: its page slug, name and address, its spread (median and 90th percentile
@@ -28,11 +29,12 @@ from typing import Any, Sequence
 import numpy as np
 import pandas as pd
 
+from ..analysis.membership import LEVEL_FLOOR
 from ..model import ALL_LEADERS, OTHER_KEY, CardLine, PartitionResult
 from . import pages as P
 
 #: Version of the model file layout; the command line refuses others.
-MODEL_FORMAT = 2
+MODEL_FORMAT = 3
 #: The window global model scripts register in.
 MODEL_GLOBAL = "SITEGEN_CLASSIFY"
 #: Significant digits of centre weights: enough that every distance (4 decimals) of the demo's decks comes out
@@ -71,15 +73,30 @@ def _sparse(vector: np.ndarray, digits: int = CENTRE_DIGITS) -> dict[str, list]:
     return {"i": nz.tolist(), "w": [_g(v, digits) for v in vector[nz].tolist()]}
 
 
-def _rates(log_odds: np.ndarray, constant: float) -> dict[str, Any]:
+def _rates(log_odds: np.ndarray, constant: float, levels: np.ndarray | None = None,
+           mix: np.ndarray | None = None) -> dict[str, Any]:
     """A row of card log-odds as the value most cards share (``floor``: a group's cards none of its
-    decks plays) and the cards off it, with the row's constant ``b``."""
+    decks plays) and the cards off it, with the row's constant ``b``; its copy levels' log-shares
+    (``levels``) only where they differ from the partition's ``mix`` (the cards its decks play)."""
     row = np.asarray(log_odds, dtype=np.float64)
     values, counts = np.unique(row, return_counts=True)
     floor = float(values[np.argmax(counts)]) if len(values) else 0.0
     off = np.flatnonzero(row != floor)
-    return {"i": off.tolist(), "w": [_g(v, RATE_DIGITS) for v in row[off].tolist()], "floor": _g(floor, RATE_DIGITS),
-            "b": _g(constant, RATE_DIGITS)}
+    out = {"i": off.tolist(), "w": [_g(v, RATE_DIGITS) for v in row[off].tolist()], "floor": _g(floor, RATE_DIGITS),
+           "b": _g(constant, RATE_DIGITS)}
+    if levels is not None and mix is not None:
+        differ = np.flatnonzero(np.asarray(levels, dtype=np.float64) != mix)
+        out["levels"] = {"i": differ.tolist(), "w": [_g(v, RATE_DIGITS) for v in levels[differ].tolist()]}
+    return out
+
+
+def _level_mix(levels: np.ndarray) -> np.ndarray:
+    """The value most rows hold in each column of copy-level log-shares: the partition's own mix,
+    which a row holds for the cards its decks do not play (the first row's value on a tie)."""
+    if levels.shape[0] == 0:
+        return np.zeros(levels.shape[1])
+    same = (levels[:, None, :] == levels[None, :, :]).sum(axis=1)  # rows x columns: rows sharing its value
+    return levels[np.argmax(same, axis=0), np.arange(levels.shape[1])]
 
 
 def _usual(line: CardLine) -> int:
@@ -147,14 +164,24 @@ def model_of(site, r: PartitionResult, keys_to: dict[str, str] | None, data, rar
     if placement is not None and len(placement.keys):
         cards = list(placement.cards)
         doc["idf"] = [float(x) for x in placement.idf.tolist()]
+        levels = placement.levels
+        mix = None
+        if levels is not None:
+            mix = _level_mix(levels)
+            kept = np.flatnonzero(mix != LEVEL_FLOOR)
+            doc["levels"] = {"count": int(levels.shape[1] // max(len(cards), 1)), "floor": LEVEL_FLOOR,
+                             "i": kept.tolist(), "w": [_g(v, RATE_DIGITS) for v in mix[kept].tolist()]}
+
+        def rates_of(i: int) -> dict[str, Any]:
+            return _rates(placement.log_odds[i], float(placement.constants[i]),
+                          None if levels is None else levels[i], mix)
+
         for i, (key, centre) in enumerate(zip(placement.keys, placement.centres)):
             now = (keys_to or {}).get(key, key)
             to = group_index.get(now, -1)
-            doc["centres"].append({"key": key, "to": to, "hidden": to < 0,
-                                   "rates": _rates(placement.log_odds[i], float(placement.constants[i])),
+            doc["centres"].append({"key": key, "to": to, "hidden": to < 0, "rates": rates_of(i),
                                    **_sparse(np.asarray(centre, dtype=np.float64))})
-        doc["other_rates"] = [_rates(placement.log_odds[i], float(placement.constants[i]))
-                              for i in range(len(placement.keys), placement.log_odds.shape[0])]
+        doc["other_rates"] = [rates_of(i) for i in range(len(placement.keys), placement.log_odds.shape[0])]
     else:
         found = _mean_direction(data, r)
         cards = found[0] if found else []

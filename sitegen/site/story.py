@@ -5,8 +5,8 @@ Card changes are read from the two seasons' card-inclusion tables (the same tabl
 CSV downloads hold): a card in the later table only came in, in the earlier only went out, in
 both moved by the difference of its share and of its mean copies.
 
-Flows place the decks of one season by the next season's rule (its :class:`Placement`: card
-presence scored by that season's archetypes' and other decks' card rates), so each archetype of the
+Flows place the decks of one season by the next season's rule (its :class:`Placement`: cards
+and their copies scored by that season's archetypes' and other decks' card rates), so each archetype of the
 earlier season is split over the later season's archetypes and the other decks. Decks are not
 the same decks from one season to the next; a flow says where decks built like these would be
 placed, not what players did.
@@ -85,7 +85,7 @@ def card_changes(before: Archetype, after: Archetype, top: int = MOVED_SHOWN
 def place_decks(cards: pd.DataFrame, deck_ids: list[str], rule) -> np.ndarray:
     """Index into ``rule.keys`` of the archetype each deck would join under ``rule`` (a
     :class:`~sitegen.model.Placement`), or -1 for an other deck. ``cards``: long-form deck_id,
-    card rows (any quantity)."""
+    card and (when there) quantity rows."""
     if rule is None or len(rule.keys) == 0 or not deck_ids:
         return np.full(len(deck_ids), -1)
     row_of = {d: i for i, d in enumerate(deck_ids)}
@@ -94,26 +94,28 @@ def place_decks(cards: pd.DataFrame, deck_ids: list[str], rule) -> np.ndarray:
     keep = ids.isin(row_of).to_numpy() & cards["card"].astype(str).isin(col_of).to_numpy()
     rows = ids[keep].map(row_of).to_numpy(dtype=np.int64)
     cols = cards["card"].astype(str)[keep].map(col_of).to_numpy(dtype=np.int64)
-    presence = sp.csr_matrix((np.ones(len(rows)), (rows, cols)), shape=(len(deck_ids), len(rule.cards)))
-    return place_rows(presence, tuple(rule.cards), rule)
+    qty = (cards["quantity"][keep].to_numpy(dtype=np.float64) if "quantity" in cards.columns
+           else np.ones(len(rows)))
+    copies = sp.csr_matrix((qty, (rows, cols)), shape=(len(deck_ids), len(rule.cards)))
+    return place_rows(copies, tuple(rule.cards), rule)
 
 
-def place_rows(presence: sp.csr_matrix, cards: tuple[str, ...], rule) -> np.ndarray:
-    """As :func:`place_decks`, for decks given as card presence over ``cards`` (a card counted once),
-    placed by the rule's own arithmetic (:func:`sitegen.analysis.membership.place`)."""
-    from ..analysis.membership import CardRates, as_presence, place
+def place_rows(copies: sp.csr_matrix, cards: tuple[str, ...], rule) -> np.ndarray:
+    """As :func:`place_decks`, for decks given as copies of each card over ``cards`` (repeated
+    entries add up), placed by the rule's own arithmetic (:func:`sitegen.analysis.membership.place`)."""
+    from ..analysis.membership import place
 
-    n = presence.shape[0]
+    n = copies.shape[0]
     if rule is None or len(rule.keys) == 0 or n == 0:
         return np.full(n, -1)
     col_of = {c: j for j, c in enumerate(rule.cards)}
     to = np.array([col_of.get(c, -1) for c in cards], dtype=np.int64)
-    coo = sp.coo_matrix(presence)
-    keep = to[coo.col] >= 0
+    coo = sp.coo_matrix(copies)
+    keep = (to[coo.col] >= 0) & (coo.data != 0)
     cols = to[coo.col[keep]]
-    m = as_presence(sp.csr_matrix((np.ones(len(cols)), (coo.row[keep], cols)), shape=(n, len(rule.cards))))
-    return place(m, CardRates(np.asarray(rule.log_odds, dtype=float), np.asarray(rule.constants, dtype=float),
-                              len(rule.keys)))
+    m = sp.csr_matrix((coo.data[keep].astype(np.float64), (coo.row[keep], cols)), shape=(n, len(rule.cards)))
+    m.sum_duplicates()
+    return place(m, rule.rates())
 
 
 def flows(before: PartitionResult, after: PartitionResult, cards: pd.DataFrame) -> dict[str, dict[str, float]]:
@@ -125,7 +127,8 @@ def flows(before: PartitionResult, after: PartitionResult, cards: pd.DataFrame) 
     if sample is not None and len(sample.drawn):
         # The decks drawn for the earlier map (a fixed sample of every group, with their cards at hand)
         # stand for their groups: reading a season's card rows again would cost more than all else here.
-        placed = place_rows(sample.presence, sample.cards, after.placement)
+        placed = place_rows(sample.copies if sample.copies is not None else sample.presence, sample.cards,
+                            after.placement)
         labels = asg["archetype"].astype(str).to_numpy()[sample.drawn]
     else:
         ids = asg["deck_id"].astype(str).tolist()

@@ -134,10 +134,20 @@
     });
     var rates = model.centres.map(function (c) { return c.rates; });
     if (model.centres.length) { rates = rates.concat(model.other_rates); }
+    var mix = null;
+    if (model.levels) {  /* the partition's own log-share of each card's copy levels */
+      mix = new Float64Array(model.levels.count * model.cards.length).fill(model.levels.floor);
+      for (var v = 0; v < model.levels.i.length; v++) { mix[model.levels.i[v]] = model.levels.w[v]; }
+    }
     rates = rates.map(function (r) {
       var w = new Float64Array(model.cards.length).fill(r.floor);
       for (var j = 0; j < r.i.length; j++) { w[r.i[j]] = r.w[j]; }
-      return { w: w, b: r.b };
+      var lv = null;
+      if (mix && r.levels) {
+        lv = Float64Array.from(mix);
+        for (var u = 0; u < r.levels.i.length; u++) { lv[r.levels.i[u]] = r.levels.w[u]; }
+      }
+      return { w: w, b: r.b, lv: lv };
     });
     var mean = null;
     if (model.mean) {
@@ -167,8 +177,8 @@
     return (neg ? "-" : "") + s.slice(0, s.length - 4) + "." + s.slice(s.length - 4);
   }
 
-  /* The build's rule: the deck's cards (presence) scored by each archetype's card rates and the
-   * other decks' (log-likelihood and log prior); the likeliest, the first on a tie. Its distance:
+  /* The build's rule: the deck's cards and their copies scored by each archetype's card rates and
+   * the other decks' (log-likelihood and log prior); the likeliest, the first on a tie. Its distance:
    * one less the cosine similarity of its idf-weighted unit row to that archetype's centre (an
    * other deck's: to the nearest centre). */
   function place(model, look, deck) {
@@ -197,10 +207,19 @@
       return s;
     }
     var sims = look.dense.map(sim);
+    var nCards = model.cards.length;
+    var levelCount = model.levels ? model.levels.count : 0;
     var scores = look.rates.map(function (r) {
       var s = 0;
       for (var q = 0; q < present.length; q++) { s += r.w[present[q]]; }
-      return s + r.b;
+      s += r.b;
+      if (r.lv) {  /* the level each card is played at: 1 copy, 2 copies ... levelCount or more */
+        for (var e = 0; e < present.length; e++) {
+          var level = Math.min(Math.max(Math.round(copies.get(present[e])), 1), levelCount);
+          s += r.lv[(level - 1) * nCards + present[e]];
+        }
+      }
+      return s;
     });
     var likeliest = -1;
     for (var l = 0; l < scores.length; l++) { if (likeliest < 0 || scores[l] > scores[likeliest]) { likeliest = l; } }
