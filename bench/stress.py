@@ -50,6 +50,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import scipy.sparse as sp
 
 ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:
@@ -668,6 +669,9 @@ class PartitionScore:
     informed: float = 1.0
     #: The same without the leave-one-out step: the classifier fitted on the very decks it labels.
     informed_fit: float = 1.0
+    #: The method's own model of cards and copies (:func:`copies_fit_labels`) fitted on the planted
+    #: labels of the very decks it labels, within the rules.
+    copies_fit: float = 1.0
 
     @property
     def k_exact(self) -> bool:
@@ -728,15 +732,44 @@ def informed_labels(present: np.ndarray, truth: Sequence, *, leave_one_out: bool
     return keys[np.argmax(scores, axis=1)].astype(object)
 
 
+def copies_matrix(planted: PlantedPartition) -> sp.csr_matrix:
+    """Each planted deck's copies of each card (decks in truth order x cards in name order)."""
+    cards = planted.part.cards
+    deck_of = pd.Series(np.arange(len(planted.truth)), index=planted.truth.index)
+    names = np.unique(cards["card"].to_numpy(dtype=str))
+    rows = deck_of.loc[cards["deck_id"]].to_numpy()
+    cols = np.searchsorted(names, cards["card"].to_numpy(dtype=str))
+    out = sp.csr_matrix((cards["quantity"].to_numpy(dtype=np.float64), (rows, cols)),
+                        shape=(len(planted.truth), len(names)))
+    out.sum_duplicates()
+    return out
+
+
+def copies_fit_labels(copies: sp.csr_matrix, truth: Sequence) -> np.ndarray:
+    """Each deck's likeliest planted label (archetype or :data:`BREW`) under the method's own model
+    of cards and copies (:func:`sitegen.analysis.membership.fit_rates`: card rates and copy levels)
+    fitted on the planted labels of these very decks: what the method's placement would do if it
+    had found every planted group exactly."""
+    from sitegen.analysis import membership
+
+    t = np.asarray(truth, dtype=object).astype(str)
+    keys, idx = np.unique(t, return_inverse=True)
+    rates = membership.fit_rates(copies, idx, len(keys), sp.csr_matrix((0, copies.shape[1])), 0.0)
+    return keys[np.argmax(membership.scores(copies, rates)[:, :len(keys)], axis=1)].astype(object)
+
+
+def _within(truth: np.ndarray, guess: np.ndarray, min_share: float) -> float:
+    allowed = set(within_rules(truth, min_share)) - {OTHER_KEY}
+    return ari_other_singletons(truth, np.array([g if g in allowed else OTHER_KEY for g in guess], dtype=object))
+
+
 def informed_ari(planted: PlantedPartition, min_share: float = 0.02, *, leave_one_out: bool = True,
                  present: np.ndarray | None = None) -> float:
     """ARI (other decks as singletons) of :func:`informed_labels` held to the rules: its decks given
     to a brew or to a planted archetype under ``min_share`` count as other decks."""
     truth = planted.truth.to_numpy()
     present = presence_matrix(planted) if present is None else present
-    guess = informed_labels(present, truth, leave_one_out=leave_one_out)
-    allowed = set(within_rules(truth, min_share)) - {OTHER_KEY}
-    return ari_other_singletons(truth, np.array([g if g in allowed else OTHER_KEY for g in guess], dtype=object))
+    return _within(truth, informed_labels(present, truth, leave_one_out=leave_one_out), min_share)
 
 
 def score_result(planted: PlantedPartition, result: PartitionResult, min_share: float = 0.02,
@@ -751,7 +784,9 @@ def score_result(planted: PlantedPartition, result: PartitionResult, min_share: 
                          seconds)
     present = presence_matrix(planted)
     return replace(score, informed=informed_ari(planted, min_share, present=present),
-                   informed_fit=informed_ari(planted, min_share, leave_one_out=False, present=present))
+                   informed_fit=informed_ari(planted, min_share, leave_one_out=False, present=present),
+                   copies_fit=_within(planted.truth.to_numpy(), copies_fit_labels(copies_matrix(planted),
+                                                                                  planted.truth.to_numpy()), min_share))
 
 
 @dataclass(frozen=True)
@@ -789,6 +824,10 @@ class CellScore:
     @property
     def informed_fit(self) -> float:
         return self._by_decks("informed_fit")
+
+    @property
+    def copies_fit(self) -> float:
+        return self._by_decks("copies_fit")
 
     @property
     def coverage(self) -> float | None:
@@ -1113,11 +1152,11 @@ def _fmt(x: float | None) -> str:
 def format_table(scores: Sequence[CellScore]) -> str:
     """One row per cell, then the worst figure of each column (its cell named below) and the mean."""
     head = (f"{'cell':22s} {'ARI':>6s} {'cover':>6s} {'brews':>6s} {'k-ex':>6s} {'sign':>6s} {'decks':>7s} {'time s':>7s}"
-            f" {'ARI ceiling':>11s} {'informed':>8s} {'fit':>6s}")
+            f" {'ARI ceiling':>11s} {'informed':>8s} {'fit':>6s} {'copies':>6s}")
     lines = [head, "-" * len(head)]
     for c in scores:
         lines.append(f"{c.name:22s} " + " ".join(_fmt(c.figure(m)) for m in METRICS)
-                     + f" {c.n_decks:7d} {c.seconds:7.1f} {_fmt(c.ceiling):>11s} {_fmt(c.informed):>8s} {_fmt(c.informed_fit)}")
+                     + f" {c.n_decks:7d} {c.seconds:7.1f} {_fmt(c.ceiling):>11s} {_fmt(c.informed):>8s} {_fmt(c.informed_fit)} {_fmt(c.copies_fit)}")
     lines.append("-" * len(head))
     worst, where = [], []
     for m in METRICS:
@@ -1141,7 +1180,9 @@ def format_table(scores: Sequence[CellScore]) -> str:
                  "informed: the ARI, within the same rules, of a naive Bayes classifier told each planted archetype's\n"
                  "card rates (each deck's own archetype's rates taken without it): about the best any rule reading\n"
                  "card presence can do, since a close variant's decks that lack its own cards look like its parent's;\n"
-                 "fit: the same classifier fitted on the very decks it labels (no leave-one-out), a looser bound")
+                 "fit: the same classifier fitted on the very decks it labels (no leave-one-out), a looser bound;\n"
+                 "copies: the method's own model of card presence and copy levels fitted on the planted labels of\n"
+                 "the very decks it labels: what its placement would reach had it found every planted group exactly")
     return "\n".join(lines)
 
 

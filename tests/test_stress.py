@@ -357,6 +357,25 @@ def test_informed_classifier_is_scikit_learns_bernoulli_naive_bayes(seed):
     assert (fair == truth).mean() <= (ours == truth).mean() and (fair == truth).mean() > 0.8
 
 
+@pytest.mark.parametrize("seed", range(2))
+def test_copies_bound_reads_presence_as_bernoulli_naive_bayes_and_copies_tell_more(seed):
+    # Source: scikit-learn's BernoulliNB (alpha 0.5, class priors from the data). With every copy count
+    # read as 1, the method's model fitted on the planted truth is BernoulliNB; with the planted copies
+    # (a core card at its archetype's own 2 or 3 copies) it gets at least as many decks right.
+    from sklearn.naive_bayes import BernoulliNB
+    planted = stress.planted_partition(StressSettings("even", 4, n_variants=2, variant_keep=0.8, play_rate=(0.6, 0.9),
+                                                      brew_share=0.05, partial_share=0.3, seed=50 + seed), 400)
+    copies = stress.copies_matrix(planted)
+    truth = planted.truth.to_numpy().astype(str)
+    assert copies.sum() == planted.part.cards["quantity"].sum() and copies.max() > 1
+    ones = copies.copy()
+    ones.data[:] = 1.0
+    reference = BernoulliNB(alpha=0.5).fit(ones.toarray(), truth).predict(ones.toarray())
+    assert list(stress.copies_fit_labels(ones, truth)) == list(reference)
+    with_copies = stress.copies_fit_labels(copies, truth)
+    assert (with_copies == truth).mean() >= (reference == truth).mean() > 0.8
+
+
 def test_informed_classifier_cannot_tell_a_close_variant_deck_without_its_own_card():
     # Planted by hand: a parent plays X and, 4 times in 5, Y; its variant plays X and, 4 times in 5, Z.
     # The 20 decks holding X alone are as likely to be either: every one gets the same label, so 10 are
