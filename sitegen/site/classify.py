@@ -12,8 +12,9 @@ A model holds the partition's rule as stored with its result
 archetype centre (only its nonzero weights) with its card rates (``rates``:
 log-odds per card, only those off the group's ``floor``, and a constant
 ``b``; ``levels``: its log-shares of copy levels where they differ from the
-model's ``levels``, the value most rows share), the other decks' card rates (``other_rates``: small
-groups of their own given up, then all other decks), and which published
+model's ``levels``, the value most rows share), the other decks' card rates
+(``other_rates``: small groups of their own given up, then all other decks),
+and which published
 group each centre's decks are shown in (after season linking and the notes'
 merge_into and hide, exactly as the assignments export labels them). For each
 group: its page slug, name and address, its spread (median and 90th percentile
@@ -77,7 +78,8 @@ def _rates(log_odds: np.ndarray, constant: float, levels: np.ndarray | None = No
            mix: np.ndarray | None = None) -> dict[str, Any]:
     """A row of card log-odds as the value most cards share (``floor``: a group's cards none of its
     decks plays) and the cards off it, with the row's constant ``b``; its copy levels' log-shares
-    (``levels``) only where they differ from the partition's ``mix`` (the cards its decks play)."""
+    (``levels``) only where they differ from ``mix``, the value most rows share (the partition's
+    own mix, which a row differs from for the cards its decks play)."""
     row = np.asarray(log_odds, dtype=np.float64)
     values, counts = np.unique(row, return_counts=True)
     floor = float(values[np.argmax(counts)]) if len(values) else 0.0
