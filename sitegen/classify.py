@@ -5,7 +5,7 @@ and one ``classify/<season>/<leader>.json`` per partition; see
 :mod:`sitegen.site.classify`), so nothing is analysed again: a deck's known
 cards and their copies go to the archetype under whose card rates they are
 likeliest, or to the other decks when the other decks' rates fit best
-(:func:`sitegen.analysis.membership.place`), and the deck is reported under
+(:func:`sitegen.analysis.card_rates.place`), and the deck is reported under
 the group the site shows that archetype's decks in. Its distance is one less
 the cosine similarity of its TF-IDF row (the known cards' idf weights, unit
 length) to that archetype's centre.
@@ -206,7 +206,7 @@ def _rows(model: _Prepared, decks: Sequence[Deck]) -> tuple[sp.csr_matrix, list[
 
 def place_decks(models: Models, decks: Sequence[Deck], season_opt: str | None) -> list[Placed]:
     """Every deck placed, in the order given."""
-    from .analysis.membership import CardRates, place
+    from .analysis.card_rates import CardRates, place
 
     out: list[Placed | None] = [None] * len(decks)
     groups: dict[tuple[str, str], list[int]] = {}

@@ -244,7 +244,7 @@ class Placement:
     A deck's card presence x (0 or 1 over ``cards``) scores ``x @ log_odds[i]
     + constants[i]`` for archetype ``keys[i]``, plus ``z @ levels[i]`` for the
     copy level z each played card is at (one column per card and level, see
-    :func:`sitegen.analysis.membership.as_levels`); the rows after the
+    :func:`sitegen.analysis.card_rates.as_levels`); the rows after the
     archetypes' (small groups of their own given up, then all other decks)
     stand for the other decks. It goes to the highest (ties: the first).
     ``centres[i]`` is
@@ -267,8 +267,8 @@ class Placement:
     levels: np.ndarray | None = None
 
     def rates(self):
-        """The rule as :class:`sitegen.analysis.membership.CardRates`, to place decks by."""
-        from .analysis.membership import CardRates
+        """The rule as :class:`sitegen.analysis.card_rates.CardRates`, to place decks by."""
+        from .analysis.card_rates import CardRates
 
         return CardRates(self.log_odds, self.constants, len(self.keys), self.levels)
 

@@ -8,7 +8,7 @@ from sklearn.metrics import jaccard_score
 from sklearn.metrics.pairwise import cosine_similarity
 from statsmodels.stats.contingency_tables import Table2x2
 
-from sitegen.analysis import features, membership, stability
+from sitegen.analysis import card_rates, features, membership, stability
 from sitegen.analysis.params import AnalysisParams
 from sitegen.analysis.partition import analyse_partition
 from sitegen.model import OTHER_KEY
@@ -166,18 +166,18 @@ def test_copy_levels_worked_by_hand():
     # Worked by hand from fit_rates' formula: among a group's decks playing a card, the share at each
     # level, drawn towards the partition's mix by LEVEL_SMOOTHING = 1 deck. Card 0: group 0 plays it at
     # 3, 3, 1 copies, group 1 at 1, 1; partition mix: 3 of 5 at 1 copy, 2 of 5 at 3 or more.
-    assert membership.LEVEL_SMOOTHING == 1.0 and membership.LEVELS == 3
+    assert card_rates.LEVEL_SMOOTHING == 1.0 and card_rates.LEVELS == 3
     counts = sp.csr_matrix(np.array([[3, 1], [3, 1], [1, 1], [1, 1], [1, 1]], dtype=float))
-    rates = membership.fit_rates(counts, np.array([0, 0, 0, 1, 1]), 2, sp.csr_matrix((0, 2)), 0.0)
+    rates = card_rates.fit_rates(counts, np.array([0, 0, 0, 1, 1]), 2, sp.csr_matrix((0, 2)), 0.0)
     lv = rates.levels  # columns: card 0 at 1, card 1 at 1, card 0 at 2, card 1 at 2, card 0 at 3+, card 1 at 3+
     assert lv.shape == (3, 6)
     np.testing.assert_allclose(np.exp(lv[0, [0, 4]]), [(1 + 3 / 5) / 4, (2 + 2 / 5) / 4])
     np.testing.assert_allclose(np.exp(lv[1, [0, 4]]), [(2 + 3 / 5) / 3, (0 + 2 / 5) / 3])
-    assert (lv[:2, 2] == membership.LEVEL_FLOOR).all()  # no deck plays card 0 at 2 copies
+    assert (lv[:2, 2] == card_rates.LEVEL_FLOOR).all()  # no deck plays card 0 at 2 copies
     np.testing.assert_allclose(lv[:2, 1], 0.0)  # card 1 is only ever played at 1 copy: its level says nothing
     # A deck at 3 copies of card 0 now leans to group 0, at 1 copy to group 1, by the shares' ratio.
-    both = membership.scores(sp.csr_matrix(np.array([[3.0, 1], [1, 1]])), rates)
-    plain = membership.scores(sp.csr_matrix(np.array([[1.0, 1], [1, 1]])), rates)
+    both = card_rates.scores(sp.csr_matrix(np.array([[3.0, 1], [1, 1]])), rates)
+    plain = card_rates.scores(sp.csr_matrix(np.array([[1.0, 1], [1, 1]])), rates)
     np.testing.assert_allclose(both[0, :2] - plain[1, :2], lv[:2, 4] - lv[:2, 0])
 
 
@@ -185,8 +185,8 @@ def test_presence_alone_is_read_as_one_copy_of_each_card():
     # Where every deck plays every card at one copy, the levels add nothing: the scores are the
     # presence scores (the BernoulliNB test below then holds for the whole rule).
     counts, _ = _rows(8, n=50, m=12, p=0.4)
-    rates = membership.fit_rates(counts, np.repeat([0, 1, -1], [20, 20, 10]), 2, sp.csr_matrix((0, 12)), 0.0)
-    np.testing.assert_allclose(membership.scores(counts, rates),
+    rates = card_rates.fit_rates(counts, np.repeat([0, 1, -1], [20, 20, 10]), 2, sp.csr_matrix((0, 12)), 0.0)
+    np.testing.assert_allclose(card_rates.scores(counts, rates),
                                counts.toarray() @ rates.log_odds.T + rates.constants, atol=1e-12)
 
 
@@ -199,7 +199,7 @@ def test_every_deck_is_placed_by_the_stored_rule():
     counts, cards = features.build_matrix(part.cards, ids)
     assert cards == rule.cards
     w = features.tfidf(counts)
-    placed = membership.place(counts, rule.rates())
+    placed = card_rates.place(counts, rule.rates())
     sims = membership.similarities(w, rule.centres)
     sim = np.where(placed >= 0, sims[np.arange(len(placed)), np.maximum(placed, 0)], sims.max(axis=1))
     keys = np.array([rule.keys[p] if p >= 0 else OTHER_KEY for p in placed], dtype=object)
@@ -260,13 +260,13 @@ def test_card_rates_are_scikit_learn_bernoulli_naive_bayes():
     present = features.presence(counts)
     labels = np.repeat([0, 1, 2, -1], [30, 25, 20, 15])
     null = features.presence(_rows(7, n=40, m=25, p=0.25)[0])
-    rates = membership.fit_rates(present, labels, 3, null, 12.0)
+    rates = card_rates.fit_rates(present, labels, 3, null, 12.0)
     x = sp.vstack([present, null]).toarray()
     y = np.concatenate([np.where(labels >= 0, labels, 3), np.full(40, 3)])
     weight = np.concatenate([np.ones(90), np.full(40, 12.0 / 40)])
-    nb = BernoulliNB(alpha=membership.RATE_SMOOTHING, force_alpha=True).fit(x, y, sample_weight=weight)
+    nb = BernoulliNB(alpha=card_rates.RATE_SMOOTHING, force_alpha=True).fit(x, y, sample_weight=weight)
     # The other decks' rates are capped at the random decks' own (BernoulliNB fitted on them alone).
-    alone = BernoulliNB(alpha=membership.RATE_SMOOTHING, force_alpha=True).fit(null.toarray(), np.zeros(40))
+    alone = BernoulliNB(alpha=card_rates.RATE_SMOOTHING, force_alpha=True).fit(null.toarray(), np.zeros(40))
     capped = np.minimum(nb.feature_log_prob_[3], alone.feature_log_prob_[0])
     assert (capped < nb.feature_log_prob_[3]).any()
     nb.feature_log_prob_[3] = capped
@@ -274,12 +274,12 @@ def test_card_rates_are_scikit_learn_bernoulli_naive_bayes():
     np.testing.assert_allclose(present.toarray() @ rates.log_odds.T + rates.constants,
                                nb.predict_joint_log_proba(present.toarray()), atol=1e-9)
     expected = nb.predict(present.toarray())
-    np.testing.assert_array_equal(membership.place(present, rates), np.where(expected == 3, -1, expected))
-    assert (membership.place(present, rates) == -1).any() and len(set(membership.place(present, rates))) == 4
+    np.testing.assert_array_equal(card_rates.place(present, rates), np.where(expected == 3, -1, expected))
+    assert (card_rates.place(present, rates) == -1).any() and len(set(card_rates.place(present, rates))) == 4
 
 
 def test_a_deck_with_none_of_the_rules_cards_is_an_other_deck():
     # Its score is the constants alone, which may favour an archetype; nothing in the deck does.
-    rates = membership.CardRates(np.log(np.full((2, 3), 0.25)), np.array([0.0, -5.0]))
+    rates = card_rates.CardRates(np.log(np.full((2, 3), 0.25)), np.array([0.0, -5.0]))
     present = sp.csr_matrix(np.array([[0, 0, 0], [1, 0, 1]], dtype=float))
-    assert membership.place(present, rates).tolist() == [-1, 0]
+    assert card_rates.place(present, rates).tolist() == [-1, 0]

@@ -30,7 +30,7 @@ from typing import Any, Sequence
 import numpy as np
 import pandas as pd
 
-from ..analysis.membership import LEVEL_FLOOR
+from ..analysis.card_rates import LEVEL_FLOOR
 from ..model import ALL_LEADERS, OTHER_KEY, CardLine, PartitionResult
 from . import pages as P
 

@@ -102,8 +102,8 @@ def place_decks(cards: pd.DataFrame, deck_ids: list[str], rule) -> np.ndarray:
 
 def place_rows(copies: sp.csr_matrix, cards: tuple[str, ...], rule) -> np.ndarray:
     """As :func:`place_decks`, for decks given as copies of each card over ``cards`` (repeated
-    entries add up), placed by the rule's own arithmetic (:func:`sitegen.analysis.membership.place`)."""
-    from ..analysis.membership import place
+    entries add up), placed by the rule's own arithmetic (:func:`sitegen.analysis.card_rates.place`)."""
+    from ..analysis.card_rates import place
 
     n = copies.shape[0]
     if rule is None or len(rule.keys) == 0 or n == 0:

@@ -1,0 +1,153 @@
+"""The card rates every deck is placed by last, and the arithmetic that places a deck by them.
+
+Each group (an archetype, a small group of its own, or the other decks) is
+described by its rate of playing each card and, among its decks playing a
+card, the share at each copy level (1, 2, :data:`LEVELS` or more); a deck
+goes to the group under whose rates the cards it plays, the copies it plays
+them at and the cards it lacks are likeliest (a naive Bayes model). On
+presence alone this is scikit-learn's BernoulliNB (tested). The rule of
+:mod:`.membership` fits the rates on the groups it settles; the build stores
+them (:class:`sitegen.model.Placement`), and the classify page and command
+and the season flows place decks by :func:`place`. Nothing here needs more
+than numpy and scipy.sparse, so the building process may import it.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+
+#: Card rates are smoothed by adding this many plays and this many misses (add-half).
+RATE_SMOOTHING = 0.5
+#: Copy levels the card rates read besides a card's presence: 1 copy, 2 copies, LEVELS or more.
+LEVELS = 3
+#: A group's mix of a card's copy levels is drawn towards the partition's own mix by this many decks.
+LEVEL_SMOOTHING = 1.0
+#: Log-share of a copy level no deck of the partition plays a card at: every row holds this same
+#: value there, so such a level tells no group from another.
+LEVEL_FLOOR = -30.0
+
+
+@dataclass(frozen=True)
+class CardRates:
+    """The rule decks are placed by: row i of ``log_odds`` (cards) and ``constants[i]`` score a
+    deck's card presence x as ``x @ log_odds[i] + constants[i]``, plus ``levels[i]`` at the copy
+    level of each card it plays (:func:`scores`): its log-likelihood (plus log prior) under group i's
+    card rates. The rows from ``archetypes`` on (small groups of their own,
+    then all other decks, last) place a deck among the other decks. See :func:`fit_rates`."""
+
+    log_odds: np.ndarray
+    constants: np.ndarray
+    #: Rows 0..archetypes-1 are archetypes'; the rest (small groups of their own, then all other
+    #: decks) place a deck among the other decks. None: only the last row does.
+    archetypes: int | None = None
+    #: Log-share of each copy level among a group's decks playing each card (rows x LEVELS*cards,
+    #: level l of card j in column (l-1)*cards + j), added for the level each played card is at;
+    #: None: presence alone.
+    levels: np.ndarray | None = None
+
+    @property
+    def n_archetypes(self) -> int:
+        return self.log_odds.shape[0] - 1 if self.archetypes is None else self.archetypes
+
+
+def group_sums(matrix: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
+    """Each group's rows added up (k x columns, dense); rows labelled -1 (or k and above) count nowhere."""
+    keep = (labels >= 0) & (labels < k)
+    onehot = sp.csr_matrix((np.ones(int(keep.sum())), (labels[keep], np.flatnonzero(keep))), shape=(k, matrix.shape[0]))
+    return np.asarray((onehot @ matrix).todense())
+
+
+def as_presence(matrix: sp.spmatrix) -> sp.csr_matrix:
+    """1 wherever a row holds a card (copies, weights or repeated entries alike), as the card rates read."""
+    out = sp.csr_matrix(matrix, copy=True)
+    out.sum_duplicates()
+    out.data = np.ones_like(out.data, dtype=np.float64)
+    return out
+
+
+def as_levels(counts: sp.spmatrix) -> sp.csr_matrix:
+    """Each played card's copy level as a 1 in its column (decks x LEVELS*cards): level l (1 copy,
+    2 copies, ... LEVELS or more) of card j in column (l-1)*cards + j."""
+    counts = sp.csr_matrix(counts, copy=True)
+    counts.sum_duplicates()
+    counts.eliminate_zeros()
+    m = counts.shape[1]
+    level = np.clip(np.rint(counts.data).astype(np.int64), 1, LEVELS)
+    rows = np.repeat(np.arange(counts.shape[0]), np.diff(counts.indptr))
+    return sp.csr_matrix((np.ones(len(level)), (rows, (level - 1) * m + counts.indices)),
+                         shape=(counts.shape[0], LEVELS * m))
+
+
+def scores(counts: sp.spmatrix, rates: CardRates) -> np.ndarray:
+    """Each deck's score under each row of ``rates`` (decks x rows): its log-likelihood plus log prior."""
+    out = np.asarray(as_presence(counts) @ rates.log_odds.T) + rates.constants
+    if rates.levels is not None:
+        out += np.asarray(as_levels(counts) @ rates.levels.T)
+    return out
+
+
+def fit_rates(copies: sp.csr_matrix, labels: np.ndarray, k: int, null_copies: sp.csr_matrix,
+              null_weight: float) -> CardRates:
+    """Card rates of groups 0..k-1 and of the other decks (-1), as a naive Bayes model.
+
+    Group i's rate of a card is (decks playing it + a) / (decks + 2a), a =
+    :data:`RATE_SMOOTHING`; its prior is its share of the decks. The other decks
+    are joined by the random decks ``null_copies``, weighing ``null_weight``
+    decks in all, so that a deck like none of the archetypes has somewhere to
+    go even when the data holds few other decks; and their rate of a card is at
+    most the random decks' own (smoothed alike), so that the decks of an
+    archetype that fell to the other decks cannot teach the other decks to
+    look like it and draw more of its decks. On presence alone this is
+    scikit-learn's BernoulliNB fitted with those sample weights, the other
+    decks' rates then capped (tested).
+
+    Copies: among a group's decks playing a card, the share at each copy level
+    (1, 2, :data:`LEVELS` or more), drawn towards the partition's own mix of
+    that card's levels by :data:`LEVEL_SMOOTHING` decks, scores the level a
+    deck plays it at. Where every deck plays every card at one copy this adds
+    nothing (each share is 1).
+    """
+    present, null_present = as_presence(copies), as_presence(null_copies)
+    group = np.where(labels >= 0, labels, k)
+    counts = group_sums(present, group, k + 1)
+    levels = group_sums(as_levels(copies), group, k + 1)
+    sizes = np.bincount(group, minlength=k + 1).astype(np.float64)
+    n_null = null_present.shape[0]
+    if n_null and null_weight > 0:
+        counts[k] += null_weight / n_null * np.asarray(null_present.sum(axis=0)).ravel()
+        levels[k] += null_weight / n_null * np.asarray(as_levels(null_copies).sum(axis=0)).ravel()
+        sizes[k] += null_weight
+    rate = (counts + RATE_SMOOTHING) / (sizes[:, None] + 2.0 * RATE_SMOOTHING)
+    if n_null:  # the other decks play no card more often than random decks do
+        random_rate = (np.asarray(null_present.sum(axis=0)).ravel() + RATE_SMOOTHING) / (n_null + 2.0 * RATE_SMOOTHING)
+        rate[k] = np.minimum(rate[k], random_rate)
+    with np.errstate(divide="ignore"):
+        prior = np.log(sizes / sizes.sum())
+    log_odds = np.log(rate) - np.log1p(-rate)
+    mix = np.asarray(as_levels(copies).sum(axis=0)).ravel()
+    mix = mix / np.maximum(np.tile(np.asarray(present.sum(axis=0)).ravel(), LEVELS), 1.0)
+    share = (levels + LEVEL_SMOOTHING * mix) / (np.tile(counts, LEVELS) + LEVEL_SMOOTHING)
+    with np.errstate(divide="ignore"):
+        level_log = np.where(share > 0, np.log(np.where(share > 0, share, 1.0)), LEVEL_FLOOR)
+    return CardRates(log_odds, np.log1p(-rate).sum(axis=1) + prior, None, level_log)
+
+
+def kept_rates(rates: CardRates, keep: np.ndarray) -> CardRates:
+    """The rows of the archetypes kept, then every other-deck row, in order."""
+    rows = np.concatenate([np.flatnonzero(keep), np.arange(len(keep), rates.log_odds.shape[0])])
+    return CardRates(rates.log_odds[rows], rates.constants[rows], int(keep.sum()),
+                     None if rates.levels is None else rates.levels[rows])
+
+
+def place(copies: sp.csr_matrix, rates: CardRates) -> np.ndarray:
+    """The build's rule for any decks (copies of each of the rule's cards; 1s where copies are not
+    read): the group under whose card rates the deck is likeliest, -1 for the other decks' (ties: the
+    first). A deck with none of the rule's cards is an other deck: nothing in it speaks for an archetype."""
+    n = copies.shape[0]
+    k = rates.n_archetypes
+    if k <= 0:
+        return np.full(n, -1)
+    best = np.argmax(scores(copies, rates), axis=1)
+    return np.where((best >= k) | (np.diff(as_presence(copies).indptr) == 0), -1, best)
