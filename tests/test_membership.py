@@ -283,3 +283,19 @@ def test_a_deck_with_none_of_the_rules_cards_is_an_other_deck():
     rates = card_rates.CardRates(np.log(np.full((2, 3), 0.25)), np.array([0.0, -5.0]))
     present = sp.csr_matrix(np.array([[0, 0, 0], [1, 0, 1]], dtype=float))
     assert card_rates.place(present, rates).tolist() == [-1, 0]
+
+
+def test_copy_levels_one_hot_matches_numpy():
+    # Reference: numpy, card by card: level min(copies, LEVELS) of card j in column (level-1)*cards + j;
+    # 0 copies (also an explicit zero entry) is no play; trailing empty decks stay empty.
+    rng = np.random.default_rng(9)
+    dense = (rng.random((25, 7)) < 0.4) * rng.integers(1, 6, (25, 7)).astype(float)
+    dense[-3:] = 0.0
+    counts = sp.csr_matrix(dense)
+    counts.data[::4] = 0.0  # explicit zeros
+    shown = counts.toarray()
+    expected = np.zeros((25, 21))
+    for i, j in zip(*np.nonzero(shown)):
+        expected[i, (min(int(shown[i, j]), card_rates.LEVELS) - 1) * 7 + j] = 1.0
+    np.testing.assert_array_equal(card_rates.as_levels(counts).toarray(), expected)
+    assert expected.sum() > 0

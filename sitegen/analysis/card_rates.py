@@ -70,14 +70,20 @@ def as_presence(matrix: sp.spmatrix) -> sp.csr_matrix:
 def as_levels(counts: sp.spmatrix) -> sp.csr_matrix:
     """Each played card's copy level as a 1 in its column (decks x LEVELS*cards): level l (1 copy,
     2 copies, ... LEVELS or more) of card j in column (l-1)*cards + j."""
-    counts = sp.csr_matrix(counts, copy=True)
-    counts.sum_duplicates()
-    counts.eliminate_zeros()
-    m = counts.shape[1]
-    level = np.clip(np.rint(counts.data).astype(np.int64), 1, LEVELS)
-    rows = np.repeat(np.arange(counts.shape[0]), np.diff(counts.indptr))
-    return sp.csr_matrix((np.ones(len(level)), (rows, (level - 1) * m + counts.indices)),
-                         shape=(counts.shape[0], LEVELS * m))
+    counts = sp.csr_matrix(counts)
+    if not counts.has_canonical_format:
+        counts = counts.copy()
+        counts.sum_duplicates()
+    n, m = counts.shape
+    played = counts.data != 0
+    level = np.clip(np.rint(counts.data[played]).astype(np.int64), 1, LEVELS)
+    indptr = counts.indptr
+    if not played.all():  # explicit zeros are no play
+        kept = np.bincount(np.repeat(np.arange(n), np.diff(indptr))[played], minlength=n)
+        indptr = np.concatenate([[0], np.cumsum(kept)])
+    out = sp.csr_matrix((np.ones(len(level)), (level - 1) * m + counts.indices[played], indptr), shape=(n, LEVELS * m))
+    out.sort_indices()
+    return out
 
 
 def scores(counts: sp.spmatrix, rates: CardRates) -> np.ndarray:
@@ -113,6 +119,8 @@ def fit_rates(copies: sp.csr_matrix, labels: np.ndarray, k: int, null_copies: sp
     group = np.where(labels >= 0, labels, k)
     counts = group_sums(present, group, k + 1)
     levels = group_sums(as_levels(copies), group, k + 1)
+    # The partition's own mix of each card's levels: its decks at each level over its decks playing it.
+    mix = levels.sum(axis=0) / np.maximum(np.tile(counts.sum(axis=0), LEVELS), 1.0)
     sizes = np.bincount(group, minlength=k + 1).astype(np.float64)
     n_null = null_present.shape[0]
     if n_null and null_weight > 0:
@@ -126,8 +134,6 @@ def fit_rates(copies: sp.csr_matrix, labels: np.ndarray, k: int, null_copies: sp
     with np.errstate(divide="ignore"):
         prior = np.log(sizes / sizes.sum())
     log_odds = np.log(rate) - np.log1p(-rate)
-    mix = np.asarray(as_levels(copies).sum(axis=0)).ravel()
-    mix = mix / np.maximum(np.tile(np.asarray(present.sum(axis=0)).ravel(), LEVELS), 1.0)
     share = (levels + LEVEL_SMOOTHING * mix) / (np.tile(counts, LEVELS) + LEVEL_SMOOTHING)
     with np.errstate(divide="ignore"):
         level_log = np.where(share > 0, np.log(np.where(share > 0, share, 1.0)), LEVEL_FLOOR)

@@ -205,8 +205,14 @@ def yules_q(both, only_x, only_y, neither):
         return np.where(ad + bc > 0, (ad - bc) / np.where(ad + bc > 0, ad + bc, 1.0), 0.0)
 
 
-def null_rows(present: sp.csr_matrix, idf: np.ndarray, staples: np.ndarray, n_null: int, seed: int
-              ) -> tuple[sp.csr_matrix, sp.csr_matrix]:
+def level_mix(present: sp.csr_matrix) -> np.ndarray:
+    """Each card's copy levels as cumulative shares of the decks playing it (cards x LEVELS)."""
+    mix = np.asarray(as_levels(present).sum(axis=0)).ravel().reshape(LEVELS, present.shape[1]).T
+    return np.cumsum(mix, axis=1) / np.maximum(mix.sum(axis=1, keepdims=True), 1.0)
+
+
+def null_rows(present: sp.csr_matrix, idf: np.ndarray, staples: np.ndarray, n_null: int, seed: int,
+              mix: np.ndarray | None = None) -> tuple[sp.csr_matrix, sp.csr_matrix]:
     """TF-IDF rows (unit length) of random decks of this partition, and their copies (see the module notes).
 
     Each random deck starts from a real deck drawn at random: its staples are
@@ -214,7 +220,8 @@ def null_rows(present: sp.csr_matrix, idf: np.ndarray, staples: np.ndarray, n_nu
     drawn without replacement from the partition's other cards, uniformly (the
     cards with the smallest of one random key each), at a copy level drawn
     from that card's own mix of levels in the partition. All decks are drawn
-    at once. ``present``: the partition's copies of each card (or 1s).
+    at once. ``present``: the partition's copies of each card (or 1s); ``mix``: its
+    :func:`level_mix`, when already at hand.
     """
     n, m = present.shape
     rng = np.random.default_rng(seed)
@@ -241,8 +248,7 @@ def null_rows(present: sp.csr_matrix, idf: np.ndarray, staples: np.ndarray, n_nu
         fresh_rows = fresh_cols = np.zeros(0, dtype=np.intp)
     # Each fresh card's copy level from its own mix in the partition (a generator of its own, so the
     # cards drawn are the same whether copies are read or not).
-    mix = np.asarray(as_levels(present).sum(axis=0)).ravel().reshape(LEVELS, m).T  # cards x levels
-    cum = np.cumsum(mix, axis=1) / np.maximum(mix.sum(axis=1, keepdims=True), 1.0)
+    cum = level_mix(present) if mix is None else mix
     u = np.random.default_rng([seed, 1]).random(len(fresh_cols))
     fresh_copies = 1.0 + (u[:, None] >= cum[fresh_cols, :-1]).sum(axis=1)
     rows = np.concatenate([kept_rows, fresh_rows])
@@ -490,13 +496,14 @@ class RandomDecks:
 
     def __init__(self, present: sp.csr_matrix, idf: np.ndarray, seed: int) -> None:
         self._present, self._idf, self._seed = present, idf, seed
+        self._mix = level_mix(present)
         self._made: dict[bytes, tuple[sp.csr_matrix, sp.csr_matrix]] = {}
 
     def _both(self, staples: np.ndarray) -> tuple[sp.csr_matrix, sp.csr_matrix]:
         key = np.packbits(staples).tobytes()
         if key not in self._made:
             # In batches of NULL_BATCH, each from its own seed, so memory stays small at any pool size.
-            made = [null_rows(self._present, self._idf, staples, NULL_BATCH, self._seed + i)
+            made = [null_rows(self._present, self._idf, staples, NULL_BATCH, self._seed + i, self._mix)
                     for i in range(NULL_DECKS // NULL_BATCH)]
             self._made[key] = (sp.vstack([a for a, _ in made], format="csr"),
                                sp.vstack([b for _, b in made], format="csr"))
