@@ -253,8 +253,8 @@ def _k_reason(found: membership.Membership, k: int, n_other: int, n: int, least:
     text = "; ".join(words) + "."
     if n_other:
         text += (f" {_count(n_other, 'deck')} of {n:,} ({n_other / n:.0%}) fit no archetype: the cards each plays "
-                 f"and lacks are likelier among the other decks and random decks of this partition than in "
-                 f"any archetype")
+                 f"(and at how many copies) and lacks are likelier among the other decks and random decks of "
+                 f"this partition than in any archetype")
         if found.dropped_small or found.dropped_loose:
             text += ", among them decks of the groups given up"
         if found.own_decks:
