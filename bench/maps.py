@@ -60,7 +60,7 @@ def _maps_input(cfg_path: Path, n_leaders: int):
     params = AnalysisParams.from_config(cfg)
     truth_file = Path(cfg.path("data.decks")).parent / "truth.csv"
     truth = pd.read_csv(truth_file, dtype=str).set_index("deck_id")["archetype"]
-    parts = {(p.season, p.leader): p for p in split(data, cfg)}
+    parts = {(p.season, p.leader): p for p in split(data, bool(cfg["analysis.by_leader"]))}
     first, second = data.seasons[0], data.seasons[1]
     leaders = sorted({leader for s, leader in parts if s == first} & {leader for s, leader in parts if s == second})
     out = []

@@ -109,7 +109,7 @@ def child_load(config: str) -> dict:
     t0 = time.perf_counter()
     data = check_rules(load_data(cfg), cfg)
     t1 = time.perf_counter()
-    parts = split(data, cfg)
+    parts = split(data, bool(cfg["analysis.by_leader"]))
 
     def weigh(p):
         counts, _ = features.build_matrix(p.cards, p.decks["deck_id"].tolist())

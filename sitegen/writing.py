@@ -36,7 +36,7 @@ from pathlib import Path, PurePosixPath
 from typing import Iterator, Mapping, Sequence
 
 from .errors import BuildBusyError, SitegenError
-from .reuse.digest import file_stat
+from .reuse.files import file_stat
 
 try:
     import fcntl

@@ -15,7 +15,7 @@ from pathlib import Path
 import pytest
 
 import sitegen
-from sitegen.reuse import digest, keys
+from sitegen.reuse import digest, files, keys
 
 SITEGEN_PARENT = str(Path(sitegen.__file__).resolve().parent.parent)
 
@@ -143,7 +143,7 @@ def test_a_file_stamp_is_name_size_and_time_as_the_system_gives_them(tmp_path):
     f = tmp_path / "decks.csv"
     f.write_bytes(b"deck_id\n1\n")
     st = os.stat(f)  # the reference: the operating system's own record of the file
-    assert digest.file_stamp(f) == f"{f}|{st.st_size}|{st.st_mtime_ns}"
-    assert digest.file_stat(f) == (10, st.st_mtime_ns)
-    assert digest.file_stamp(tmp_path / "gone.csv") is None
-    assert digest.file_stat(tmp_path, regular_only=True) is None  # a folder is not a regular file
+    assert files.file_stamp(f) == f"{f}|{st.st_size}|{st.st_mtime_ns}"
+    assert files.file_stat(f) == (10, st.st_mtime_ns)
+    assert files.file_stamp(tmp_path / "gone.csv") is None
+    assert files.file_stat(tmp_path, regular_only=True) is None  # a folder is not a regular file

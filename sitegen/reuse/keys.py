@@ -132,8 +132,8 @@ import pyarrow.compute as pc
 
 from .. import __version__
 from ..model import CARD_ROW_COLUMNS, DECK_COLUMNS, PartitionInput, in_row_order
-from .digest import (code_digest, column_bytes, column_order, feed_labelled, file_stamp, files_under,
-                     narrowest_bytes, row_digests, text_array)
+from .digest import code_digest, column_bytes, column_order, feed_labelled, narrowest_bytes, row_digests, text_array
+from .files import file_stamp, files_under
 
 #: Each kind of reusable work and the root modules whose code (with every sitegen module they
 #: import, at any depth) it depends on. A module moved or renamed changes only these names.

@@ -12,7 +12,7 @@ import os
 from pathlib import Path
 from typing import Any
 
-from .digest import file_stat, files_under
+from .files import file_stat, files_under
 from .keys import input_stamp, render_salt
 
 STAMP_FILE = "last-build.json"

@@ -293,7 +293,7 @@ def check_salt(code_salt: str) -> str:
     (``code_salt``), the schema file and the vl-convert release that compiles."""
     from importlib.metadata import PackageNotFoundError, version
 
-    from ..reuse.digest import file_stamp
+    from ..reuse.files import file_stamp
 
     path, schema_version = _schema_file()
     try:

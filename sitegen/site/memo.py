@@ -21,7 +21,7 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
-from ..reuse.digest import file_stat
+from ..reuse.files import file_stat
 from ..reuse.keys import page_key
 from .keys import key_bytes
 
