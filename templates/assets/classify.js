@@ -334,9 +334,9 @@
       var g = model.groups[res.group];
       head.appendChild(document.createTextNode("Archetype: "));
       head.appendChild(link(g));
-      reason.textContent = "Of the " + model.centres.length + " archetype(s) of " + leaderName + " in " + season +
-        " and its other decks, the cards this list plays and lacks are likeliest in this one, by how often " +
-        "each one's decks play each card.";
+      reason.textContent = "Of the " + model.groups.length + " archetype(s) of " + leaderName + " in " + season +
+        " and its other decks, the cards this list plays (and at how many copies) and lacks are likeliest in this " +
+        "one, by how often each one's decks play each card and at how many copies.";
     } else {
       head.textContent = "Other decks";
       var near = res.best >= 0 ? model.centres[res.best] : null;
@@ -350,13 +350,13 @@
       } else if (res.why === "none") {
         reason.textContent = "No archetype was found among " + leaderName + "'s decks of " + season + "; every deck counts as an other deck.";
       } else if (res.why === "own") {
-        reason.textContent = "The cards it plays and lacks are likeliest in a small group of " + leaderName + "'s decks of " +
+        reason.textContent = "The cards it plays (and at how many copies) and lacks are likeliest in a small group of " + leaderName + "'s decks of " +
           "their own, too few in " + season + " to count as an archetype; its decks are counted with the other decks.";
       } else if (res.why === "hidden") {
-        reason.textContent = "Its nearest group of decks is one the site's editors do not publish as an archetype; its decks are counted with the other decks.";
+        reason.textContent = "The group of decks it is likeliest in is one the site's editors do not publish as an archetype; its decks are counted with the other decks.";
       } else {
         reason.textContent = "Its nearest archetype is " + (nearName || "one not published") + ", but the cards it plays " +
-          "and lacks are likelier among " + leaderName + "'s other decks and random decks of its cards than in any " +
+          "(and at how many copies) and lacks are likelier among " + leaderName + "'s other decks and random decks of its cards than in any " +
           "archetype: it looks like none of them.";
       }
     }
@@ -376,7 +376,7 @@
     }
     if (res.next) {
       var nx = el("p");
-      nx.appendChild(document.createTextNode(res.group >= 0 ? "Next closest archetype: " : "Nearest archetype: "));
+      nx.appendChild(document.createTextNode(res.group >= 0 ? "Nearest other archetype: " : "Nearest archetype: "));
       nx.appendChild(link(model.groups[res.next.group]));
       nx.appendChild(document.createTextNode(" at distance " + fixed4(round4(Math.min(Math.max(1 - res.next.sim, 0), 2))) + "."));
       out.appendChild(nx);
