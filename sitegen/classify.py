@@ -150,8 +150,8 @@ class _Prepared:
             self.log_odds[row] = r["floor"]
             self.log_odds[row, r["i"]] = r["w"]
         self.constants = np.asarray([r["b"] for r in rates], dtype=np.float64)
-        self.levels = None
-        if doc.get("levels"):
+        self.levels: np.ndarray | None = None
+        if rates:  # each row's copy-level log-shares: the model's base, with the row's own where they differ
             mix = np.full(doc["levels"]["count"] * m, float(doc["levels"]["floor"]))
             mix[doc["levels"]["i"]] = doc["levels"]["w"]
             self.levels = np.tile(mix, (len(rates), 1))

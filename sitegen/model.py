@@ -276,15 +276,14 @@ class Placement:
 @dataclass(frozen=True)
 class MapSample:
     """What a partition's map is drawn from: the drawn decks (``drawn``, rows of the
-    partition's assignments), their SVD rows, and their card presence over ``cards``
-    (so the next season's decks can find their nearest decks of this map), and their
-    copies of each card (so the next season's rule can place them)."""
+    partition's assignments), their SVD rows, and their copies of each card over ``cards``
+    (so the next season's decks can find their nearest decks of this map, and the next
+    season's rule can place them)."""
 
     drawn: np.ndarray
     rows: np.ndarray
-    presence: sp.csr_matrix
+    copies: sp.csr_matrix
     cards: tuple[str, ...]
-    copies: sp.csr_matrix | None = None
 
 
 @dataclass(frozen=True)

@@ -400,10 +400,13 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     centres = centres_of(blind, labels, k)
     sims = similarities(weights, centres)
     sim = np.where(labels >= 0, sims[np.arange(n), np.maximum(labels, 0)], sims.max(axis=1))
-    row = np.argmax(scores(copies, rates), axis=1)
-    own_decks = int(((row >= k) & (row < rates.log_odds.shape[0] - 1)).sum())
+    own_groups = rates.log_odds.shape[0] - 1 - k
+    own_decks = 0
+    if own_groups:  # other decks likeliest in a small group of their own, for the page
+        row = np.argmax(scores(copies, rates), axis=1)
+        own_decks = int(((row >= k) & (row < rates.log_odds.shape[0] - 1)).sum())
     return Membership(labels, centres, rates, sim, int((labels < 0).sum()), dropped_small, dropped_loose,
-                      merged, split, rates.log_odds.shape[0] - 1 - k, own_decks)
+                      merged, split, own_groups, own_decks)
 
 
 def _place_by_rates(copies, labels, null_copies, least, own: Sequence[np.ndarray] = ()

@@ -111,7 +111,7 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
         drawn = drawn[:0]
         reason += f" {embed.NO_MAP}."
     sample = MapSample(drawn=drawn, rows=np.ascontiguousarray(rows[drawn], dtype=np.float64),
-                       presence=present[drawn], cards=tuple(cards), copies=counts[drawn]) if len(drawn) else None
+                       copies=counts[drawn], cards=tuple(cards)) if len(drawn) else None
     map_points = pd.DataFrame({
         "deck_id": [ids[i] for i in drawn],
         "archetype": [keys[i] for i in drawn],
@@ -136,8 +136,8 @@ def draw_map(sample: MapSample, params: AnalysisParams, previous: tuple[MapSampl
         start = None
         if previous is not None:
             prev_sample, prev_layout = previous
-            start = embed.warm_start(sample.presence, sample.cards, prev_sample.presence, prev_sample.cards,
-                                     prev_layout.coords)
+            start = embed.warm_start(features.presence(sample.copies), sample.cards,
+                                     features.presence(prev_sample.copies), prev_sample.cards, prev_layout.coords)
         steps = params.map_iterations if start is None else embed.warm_steps(params.map_iterations)
         with np.errstate(invalid="ignore", divide="ignore"):
             coords = embed.tsne(sample.rows, params.seed, steps, init=start)

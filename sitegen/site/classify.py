@@ -30,7 +30,7 @@ from typing import Any, Sequence
 import numpy as np
 import pandas as pd
 
-from ..analysis.card_rates import LEVEL_FLOOR
+from ..analysis.card_rates import LEVEL_FLOOR, LEVELS
 from ..model import ALL_LEADERS, OTHER_KEY, CardLine, PartitionResult
 from . import pages as P
 
@@ -74,8 +74,7 @@ def _sparse(vector: np.ndarray, digits: int = CENTRE_DIGITS) -> dict[str, list]:
     return {"i": nz.tolist(), "w": [_g(v, digits) for v in vector[nz].tolist()]}
 
 
-def _rates(log_odds: np.ndarray, constant: float, levels: np.ndarray | None = None,
-           mix: np.ndarray | None = None) -> dict[str, Any]:
+def _rates(log_odds: np.ndarray, constant: float, levels: np.ndarray, mix: np.ndarray) -> dict[str, Any]:
     """A row of card log-odds as the value most cards share (``floor``: a group's cards none of its
     decks plays) and the cards off it, with the row's constant ``b``; its copy levels' log-shares
     (``levels``) only where they differ from ``mix``, the value most rows share (the partition's
@@ -84,12 +83,10 @@ def _rates(log_odds: np.ndarray, constant: float, levels: np.ndarray | None = No
     values, counts = np.unique(row, return_counts=True)
     floor = float(values[np.argmax(counts)]) if len(values) else 0.0
     off = np.flatnonzero(row != floor)
-    out = {"i": off.tolist(), "w": [_g(v, RATE_DIGITS) for v in row[off].tolist()], "floor": _g(floor, RATE_DIGITS),
-           "b": _g(constant, RATE_DIGITS)}
-    if levels is not None and mix is not None:
-        differ = np.flatnonzero(np.asarray(levels, dtype=np.float64) != mix)
-        out["levels"] = {"i": differ.tolist(), "w": [_g(v, RATE_DIGITS) for v in levels[differ].tolist()]}
-    return out
+    differ = np.flatnonzero(np.asarray(levels, dtype=np.float64) != mix)
+    return {"i": off.tolist(), "w": [_g(v, RATE_DIGITS) for v in row[off].tolist()], "floor": _g(floor, RATE_DIGITS),
+            "b": _g(constant, RATE_DIGITS),
+            "levels": {"i": differ.tolist(), "w": [_g(v, RATE_DIGITS) for v in levels[differ].tolist()]}}
 
 
 def _level_mix(levels: np.ndarray) -> np.ndarray:
@@ -167,16 +164,13 @@ def model_of(site, r: PartitionResult, keys_to: dict[str, str] | None, data, rar
         cards = list(placement.cards)
         doc["idf"] = [float(x) for x in placement.idf.tolist()]
         levels = placement.levels
-        mix = None
-        if levels is not None:
-            mix = _level_mix(levels)
-            kept = np.flatnonzero(mix != LEVEL_FLOOR)
-            doc["levels"] = {"count": int(levels.shape[1] // max(len(cards), 1)), "floor": LEVEL_FLOOR,
-                             "i": kept.tolist(), "w": [_g(v, RATE_DIGITS) for v in mix[kept].tolist()]}
+        mix = _level_mix(levels)
+        kept = np.flatnonzero(mix != LEVEL_FLOOR)
+        doc["levels"] = {"count": LEVELS, "floor": LEVEL_FLOOR, "i": kept.tolist(),
+                         "w": [_g(v, RATE_DIGITS) for v in mix[kept].tolist()]}
 
         def rates_of(i: int) -> dict[str, Any]:
-            return _rates(placement.log_odds[i], float(placement.constants[i]),
-                          None if levels is None else levels[i], mix)
+            return _rates(placement.log_odds[i], float(placement.constants[i]), levels[i], mix)
 
         for i, (key, centre) in enumerate(zip(placement.keys, placement.centres)):
             now = (keys_to or {}).get(key, key)

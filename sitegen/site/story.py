@@ -127,8 +127,7 @@ def flows(before: PartitionResult, after: PartitionResult, cards: pd.DataFrame) 
     if sample is not None and len(sample.drawn):
         # The decks drawn for the earlier map (a fixed sample of every group, with their cards at hand)
         # stand for their groups: reading a season's card rows again would cost more than all else here.
-        placed = place_rows(sample.copies if sample.copies is not None else sample.presence, sample.cards,
-                            after.placement)
+        placed = place_rows(sample.copies, sample.cards, after.placement)
         labels = asg["archetype"].astype(str).to_numpy()[sample.drawn]
     else:
         ids = asg["deck_id"].astype(str).tolist()

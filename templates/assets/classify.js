@@ -134,19 +134,13 @@
     });
     var rates = model.centres.map(function (c) { return c.rates; });
     if (model.centres.length) { rates = rates.concat(model.other_rates); }
-    var mix = null;
-    if (model.levels) {  /* the partition's own log-share of each card's copy levels */
-      mix = new Float64Array(model.levels.count * model.cards.length).fill(model.levels.floor);
-      for (var v = 0; v < model.levels.i.length; v++) { mix[model.levels.i[v]] = model.levels.w[v]; }
-    }
     rates = rates.map(function (r) {
       var w = new Float64Array(model.cards.length).fill(r.floor);
       for (var j = 0; j < r.i.length; j++) { w[r.i[j]] = r.w[j]; }
-      var lv = null;
-      if (mix && r.levels) {
-        lv = Float64Array.from(mix);
-        for (var u = 0; u < r.levels.i.length; u++) { lv[r.levels.i[u]] = r.levels.w[u]; }
-      }
+      /* copy-level log-shares: the model's base (the value most rows share), the row's own where they differ */
+      var lv = new Float64Array(model.levels.count * model.cards.length).fill(model.levels.floor);
+      for (var v = 0; v < model.levels.i.length; v++) { lv[model.levels.i[v]] = model.levels.w[v]; }
+      for (var u = 0; u < r.levels.i.length; u++) { lv[r.levels.i[u]] = r.levels.w[u]; }
       return { w: w, b: r.b, lv: lv };
     });
     var mean = null;
@@ -208,16 +202,13 @@
     }
     var sims = look.dense.map(sim);
     var nCards = model.cards.length;
-    var levelCount = model.levels ? model.levels.count : 0;
     var scores = look.rates.map(function (r) {
       var s = 0;
       for (var q = 0; q < present.length; q++) { s += r.w[present[q]]; }
       s += r.b;
-      if (r.lv) {  /* the level each card is played at: 1 copy, 2 copies ... levelCount or more */
-        for (var e = 0; e < present.length; e++) {
-          var level = Math.min(Math.max(Math.round(copies.get(present[e])), 1), levelCount);
-          s += r.lv[(level - 1) * nCards + present[e]];
-        }
+      for (var e = 0; e < present.length; e++) {  /* the level each card is at: 1 copy, 2 copies ... count or more */
+        var level = Math.min(Math.max(Math.round(copies.get(present[e])), 1), model.levels.count);
+        s += r.lv[(level - 1) * nCards + present[e]];
       }
       return s;
     });
