@@ -2,12 +2,10 @@
 
 Built column by column from the results (one Arrow or numpy column per field,
 never a Python object per deck), so a million decks write in seconds; cells
-that hold data text are made safe for spreadsheets as in :mod:`.exports`.
+that hold data text are made safe for spreadsheets as in :mod:`.cells`.
 """
 from __future__ import annotations
 
-import csv
-import io
 import json
 import math
 from dataclasses import dataclass
@@ -19,7 +17,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from ..model import OTHER_KEY, DeckData, PartitionResult
-from .cells import _FORMULA_START, csv_bytes, fixed, json_bytes, safe_cell
+from .cells import csv_bytes, csv_cells, fixed, json_bytes, safe_csv_cells
 from .cells import rounded as _round
 
 
@@ -173,39 +171,6 @@ def _count_column(values: pd.Series | None, n: int, order: np.ndarray) -> Column
     return Column(distinct, codes[order])
 
 
-def assignment_rows(data: DeckData, results: Sequence[PartitionResult],
-                    page_slugs: dict[tuple[str, str, str], str]) -> list[dict[str, Any]]:
-    """One row per deck, sorted by season order, leader, deck id."""
-    return assignment_table(data, results, page_slugs).rows()
-
-
-#: Characters for which csv.writer (QUOTE_MINIMAL) may quote or refuse a cell; cells without one are written as they are.
-_CSV_SPECIAL = ',"\r\n\x00'
-
-
-def _csv_cell(text: str) -> str:
-    """One cell exactly as :func:`csv_bytes` writes it inside a row."""
-    buf = io.StringIO(newline="")
-    csv.writer(buf, lineterminator="\r\n").writerow((text, ""))
-    return buf.getvalue()[:-3]  # drop the empty second cell and the line end
-
-
-def _csv_cells(texts: list[str]) -> list[str]:
-    """Each text as a CSV cell; texts with nothing to quote (looked for in all of them at once) stay as they are."""
-    joined = "\t".join(texts)
-    if any(ch in joined for ch in _CSV_SPECIAL):
-        return [_csv_cell(t) if any(ch in t for ch in _CSV_SPECIAL) else t for t in texts]
-    return texts
-
-
-def _safe_csv_cells(texts: list[str]) -> list[str]:
-    """:func:`safe_cell` then CSV quoting of each data text."""
-    joined = "\n" + "\n".join(texts)  # a text starting with a formula character has it after a newline here
-    if any("\n" + ch in joined for ch in _FORMULA_START):
-        texts = [safe_cell(t) for t in texts]
-    return _csv_cells(texts)
-
-
 def _joined(pieces: list[pa.Array | str]) -> bytes | memoryview:
     """Row by row, the pieces (columns, or one text for every row) one after another, as UTF-8 bytes
     (a view of Arrow's result: a million rows are a few hundred MB, not copied again here)."""
@@ -220,8 +185,8 @@ def _joined(pieces: list[pa.Array | str]) -> bytes | memoryview:
 def assignments_csv(table: AssignmentTable) -> bytes:
     """``data/assignments.csv``: the same bytes :func:`csv_bytes` makes from the rows."""
     cols = table.columns
-    cells = [cols[c].cells(_safe_csv_cells) for c in _TEXT_COLUMNS]
-    cells += [cols[c].cells(lambda values: _csv_cells([fixed(v, 6) for v in values])) for c in _NUMBER_COLUMNS]
+    cells = [cols[c].cells(safe_csv_cells) for c in _TEXT_COLUMNS]
+    cells += [cols[c].cells(lambda values: csv_cells([fixed(v, 6) for v in values])) for c in _NUMBER_COLUMNS]
     cells += [cols[c].cells(lambda values: ["" if v is None else str(v) for v in values]) for c in COUNT_COLUMNS]
     pieces: list[pa.Array | str] = []
     for cell in cells:

@@ -68,3 +68,30 @@ def rounded(x: float | None, digits: int = 6) -> float | None:
     if x is None or (isinstance(x, float) and math.isnan(x)):
         return None
     return round(float(x), digits)
+
+
+#: Characters for which csv.writer (QUOTE_MINIMAL) may quote or refuse a cell; cells without one are written as they are.
+_CSV_SPECIAL = ',"\r\n\x00'
+
+
+def _csv_cell(text: str) -> str:
+    """One cell exactly as :func:`csv_bytes` writes it inside a row."""
+    buf = io.StringIO(newline="")
+    csv.writer(buf, lineterminator="\r\n").writerow((text, ""))
+    return buf.getvalue()[:-3]  # drop the empty second cell and the line end
+
+
+def csv_cells(texts: list[str]) -> list[str]:
+    """Each text as a CSV cell; texts with nothing to quote (looked for in all of them at once) stay as they are."""
+    joined = "\t".join(texts)
+    if any(ch in joined for ch in _CSV_SPECIAL):
+        return [_csv_cell(t) if any(ch in t for ch in _CSV_SPECIAL) else t for t in texts]
+    return texts
+
+
+def safe_csv_cells(texts: list[str]) -> list[str]:
+    """:func:`safe_cell` then CSV quoting of each data text."""
+    joined = "\n" + "\n".join(texts)  # a text starting with a formula character has it after a newline here
+    if any("\n" + ch in joined for ch in _FORMULA_START):
+        texts = [safe_cell(t) for t in texts]
+    return csv_cells(texts)
