@@ -1,7 +1,8 @@
 """Reading deck data: tables (CSV/Parquet), a Parquet folder, or text decklists.
 
-:func:`load_data` is the one entry point. It reads whichever input the
-config names, checks every row, and returns a validated
+:func:`load_data` is the entry point for a build's deck data (a season folder
+is opened with :func:`open_season_folder`; :mod:`sitegen.load.settings` lists
+every entry point). It reads whichever input the config names, checks every row, and returns a validated
 :class:`~sitegen.model.DeckData`; every problem in the data becomes a
 :class:`~sitegen.errors.DataError` (many at once as
 :class:`~sitegen.errors.DataErrors`), never a traceback.

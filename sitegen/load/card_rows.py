@@ -88,13 +88,12 @@ def _quantities(cards: Table, problems: Problems) -> np.ndarray:
     from 1 to :data:`~.numbers.QUANTITY_MAX` is a problem."""
     raw = cards.frame["quantity"]
     if isinstance(raw.dtype, np.dtype) and raw.dtype.kind in "iu":
-        # Whole numbers already (Parquet, as narrow as the reader found them): no parsing, no copy.
+        # Whole numbers already (Parquet, or a CSV column of plain whole numbers), as narrow as read: no parsing, no copy.
         quantity = raw.to_numpy()
         bad = np.flatnonzero(quantity < 1)
         over = np.flatnonzero(quantity > QUANTITY_MAX)  # compared in the column's type (uint64 too)
     else:
         parsed, bad, over = parse_counts(raw, positive=True, most=QUANTITY_MAX)
-        bad = np.setdiff1d(bad, over)
         bad = np.setdiff1d(np.union1d(bad, np.flatnonzero(parsed.isna().to_numpy())), over)
         quantity = parsed.to_numpy(dtype=np.int64, na_value=0)
     problems.flag(cards, bad, "quantity is not a whole number of 1 or more", column="quantity",

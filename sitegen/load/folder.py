@@ -225,7 +225,7 @@ class SeasonMemo:
     keys: set[str] = field(default_factory=set)
     _last_key: str = ""
 
-    def key_of(self, files: SeasonFiles, spellings: normalise.Spellings) -> str:
+    def key_of(self, files: SeasonFiles, spellings: Spellings) -> str:
         key = keys.season_record_key(self.salt, (files.decks, files.cards), (spellings.cards, spellings.leaders))
         self.keys.add(key)
         self._last_key = key

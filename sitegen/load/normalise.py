@@ -1,7 +1,7 @@
 """Validating and normalising read tables into one :class:`DeckData`.
 
-Input tables are already read (see :mod:`.tables`, :mod:`.decklists`) and
-hold text. :func:`build` checks the deck table (:mod:`.deck_table`), the
+Input tables are already read (see :mod:`.tables`, :mod:`.decklists`): text,
+and number columns as numbers where the file gave plain whole numbers. :func:`build` checks the deck table (:mod:`.deck_table`), the
 long-form table's rows against it (:mod:`.card_rows`) and the card table
 (:mod:`.card_table`), collecting every problem as a DataError naming file,
 row, column, value and fix, so a user fixes them all in one go; then it

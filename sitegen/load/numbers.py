@@ -32,7 +32,7 @@ def parse_counts(series: pd.Series, *, positive: bool, most: int) -> tuple[pd.Se
     least = 1 if positive else 0
     kind = series.dtype
     bad_format = np.array([], dtype=np.int64)
-    if isinstance(kind, np.dtype) and kind.kind in "iu":  # numbers already (Parquet): one pass
+    if isinstance(kind, np.dtype) and kind.kind in "iu":  # numbers already (Parquet, or plain whole numbers in a CSV): one pass
         raw = series.to_numpy()
         over = raw > most  # compared in the column's own type: uint64 beyond int64 stays itself
         plain = (np.where(over, 0, raw) if over.any() else raw).astype(np.int64, copy=False)

@@ -5,9 +5,10 @@ optional byte-order mark), ``.parquet`` or ``.pq`` is Parquet. CSV is read
 with pyarrow (fast, multi-threaded, only the needed columns); when pyarrow
 refuses a file the csv module finds the row to blame, and the pandas C
 engine is the last resort (:mod:`.csv_reader`; Parquet: :mod:`.parquet_reader`).
-Every CSV value is read as text so ids keep their leading zeros and a card
-called ``NA`` stays a card; numbers are checked later, where the row can be
-named.
+Every CSV value but those of the number columns is read as text, so ids
+keep their leading zeros and a card called ``NA`` stays a card; a number
+column is read as numbers when every cell is a plain whole number, else as
+text, and checked later, where the row can be named.
 """
 from __future__ import annotations
 
@@ -88,8 +89,9 @@ def read_table(
     ``required`` and ``optional`` map logical names to the file's column
     names; a missing required column is an error that lists the columns the
     file has, a missing optional one is left out. ``numeric`` names logical
-    columns a Parquet file may keep as numbers (everything else becomes
-    text). ``categorical`` names text columns of few distinct values over
+    columns a file may give as numbers (a Parquet file's own number columns;
+    a CSV column whose every cell is a plain whole number); everything else
+    becomes text. ``categorical`` names text columns of few distinct values over
     many rows (the long-form table's deck ids and card names): they are read
     dictionary-encoded and come back as pandas categoricals, which costs a
     fraction of the time and memory of one string per row; every later
