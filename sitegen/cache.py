@@ -1,7 +1,7 @@
 """Stored partition analyses, keyed by a fingerprint of what they came from.
 
 Analysing a season x leader partition is the slow part of a build, and most
-partitions do not change between builds. :func:`sitegen.reuse.keys.fingerprint`
+partitions do not change between builds. :func:`sitegen.reuse.partition_key.fingerprint`
 digests everything an analysis depends on (the partition's deck rows and card
 rows, the analysis settings, the tool version); :class:`Cache` keeps one file
 per fingerprint (and the other kinds of work filed under keys made there).
@@ -30,10 +30,9 @@ from pathlib import Path
 
 from . import __version__
 from .model import MapLayout, PartitionResult
-from .reuse.keys import fingerprint
 
 #: The partition key is made in sitegen.reuse.keys; named here too, beside the cache it files.
-__all__ = ["Cache", "fingerprint", "FORMAT", "MAGIC", "SUFFIX"]
+__all__ = ["Cache", "FORMAT", "MAGIC", "SUFFIX"]
 
 MAGIC = b"SITEGEN-CACHE"
 #: Bumped when the entry layout changes; entries of another format are ignored.

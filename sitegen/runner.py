@@ -23,7 +23,8 @@ from .model import DeckData, MapLayout, MapSample, PartitionInput, PartitionResu
 from .progress import Progress
 from .resources import usable_cores
 from .reuse import keys
-from .reuse.keys import analysis_version, fingerprint
+from .reuse.keys import analysis_version
+from .reuse.partition_key import fingerprint
 
 __all__ = ["Analyses", "analyse_all", "analyse_partition", "analysis_version", "draw_map", "worker_count"]
 

@@ -9,7 +9,8 @@ import pytest
 
 import sitegen
 from sitegen import cache as cache_mod
-from sitegen.cache import Cache, fingerprint
+from sitegen.cache import Cache
+from sitegen.reuse.partition_key import fingerprint
 from sitegen.model import PartitionInput, PartitionResult
 
 

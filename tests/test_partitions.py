@@ -1,7 +1,7 @@
 """Splitting by season and leader, and the season keys that let a rebuild skip unchanged seasons.
 
 The data is the scaffold's invented sample, loaded as a build loads it; every change below is
-planted by the test. The partition fingerprints (sitegen.cache.fingerprint, tested on their own
+planted by the test. The partition fingerprints (sitegen.reuse.partition_key.fingerprint, tested on their own
 in test_cache.py) are the check that a season's key follows exactly what its partitions hold.
 """
 from __future__ import annotations
@@ -12,7 +12,7 @@ import pytest
 
 from sitegen import config
 from sitegen.analysis.params import AnalysisParams
-from sitegen.cache import fingerprint
+from sitegen.reuse.partition_key import fingerprint
 from sitegen.check import check_rules
 from sitegen.load import load_data
 from sitegen.partitions import season_keys, split

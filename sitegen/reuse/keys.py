@@ -14,7 +14,7 @@ Kinds of key, and where they are filed:
 ============== ==================================== ======================================
 kind           digest of                            kept in
 ============== ==================================== ======================================
-partition      rows, card types, settings, code     the cache (:func:`fingerprint`)
+partition      rows, card types, settings, code     the cache (:func:`.partition_key.fingerprint`)
 map            partition key, previous map's key    the cache (:func:`map_key`)
 season split   a season's rows (partitions.py)      the cache (salt: :func:`split_salt`)
 season record  a season's files (stamps), spellings the cache (:func:`season_record_key`)
@@ -71,7 +71,7 @@ rows grouped by deck in deck order) and there are two seasons or more;
 otherwise every season is cut (``tests/test_partitions.py`` checks that a key
 changes exactly when one of its season's partition fingerprints does).
 
-*Partition analyses* (:func:`fingerprint`, :func:`analysis_version`;
+*Partition analyses* (:func:`.partition_key.fingerprint`, :func:`analysis_version`;
 ``cache.py``, ``runner.py``). Each result is stored under a fingerprint of
 its rows, its card types, its settings, the tool's version and a digest of
 the analysis code.
@@ -118,7 +118,6 @@ per vl-convert and Vega-Lite version (in its name).
 """
 from __future__ import annotations
 
-import dataclasses
 import hashlib
 import json
 import os
@@ -127,19 +126,16 @@ from pathlib import Path
 from typing import Any
 
 import numpy as np
-import pandas as pd
-import pyarrow.compute as pc
 
 from .. import __version__
-from ..model import CARD_ROW_COLUMNS, DECK_COLUMNS, PartitionInput, in_row_order
-from .digest import code_digest, column_bytes, column_order, feed_labelled, narrowest_bytes, row_digests, text_array
+from .digest import code_digest
 from .files import file_stamp, files_under
 
 #: Each kind of reusable work and the root modules whose code (with every sitegen module they
 #: import, at any depth) it depends on. A module moved or renamed changes only these names.
 CODE_ROOTS: dict[str, tuple[str, ...]] = {
     # A partition's analysis and its map (runner.analyse_partition/draw_map), and its key (below).
-    "analysis": ("sitegen.analysis.partition", "sitegen.reuse.keys"),
+    "analysis": ("sitegen.analysis.partition", "sitegen.reuse.partition_key"),
     # Cutting a season into partitions.
     "split": ("sitegen.partitions",),
     # A season of a season folder: read, checked and cut.
@@ -150,8 +146,6 @@ CODE_ROOTS: dict[str, tuple[str, ...]] = {
     "pages": ("sitegen.site.render",),
 }
 
-#: Bumped when the partition key's layout changes (it is also the cache entry format's).
-FINGERPRINT_FORMAT = 1
 #: Bumped when the way maps are drawn changes in a way the analysis code digest does not see.
 MAP_FORMAT = 1
 #: Bumped when how a page's key is made changes.
@@ -174,129 +168,6 @@ def analysis_version() -> str:
     """The tool's version plus a digest of the analysis code, so a cached result made by
     other code (even under the same version number) is never reused."""
     return f"{__version__}+{code_salt('analysis')[:12]}"
-
-
-def fingerprint(part: PartitionInput, params: Any, version: str = __version__) -> str:
-    """A sha256 hex digest of a partition's rows, the analysis settings and the tool version.
-
-    The same rows in any order give the same digest; changing any value of
-    any deck or card row, any setting, a card's type or the version gives
-    another one. Text counts by its value, whatever its dtype (object,
-    string or category), and so do whole numbers.
-
-    The rows are digested in a canonical form (decks by id; card rows by
-    deck, then card, as numbers into the sorted distinct ids and names),
-    which the partitions a build cuts already have, so their bytes are
-    hashed as they lie: at a million decks, a tenth of the time of hashing
-    each row on its own and sorting the hashes. Rows with no such form (a
-    deck id twice, a missing id or name) are digested row by row instead.
-    """
-    h = hashlib.sha256()
-
-    def feed(label: str, data: bytes | list) -> None:
-        feed_labelled(h, label, data)
-
-    feed("format", str(FINGERPRINT_FORMAT).encode("ascii"))
-    feed("rows", b"canonical-1")  # how rows are digested (below)
-    feed("version", version.encode("utf-8"))
-    feed("season", str(part.season).encode("utf-8"))
-    feed("leader", str(part.leader).encode("utf-8"))
-    for label, frame, first, canonical in (("decks", part.decks, DECK_COLUMNS, _canonical_decks),
-                                           ("cards", part.cards, CARD_ROW_COLUMNS, _canonical_cards)):
-        pieces = canonical(frame)
-        if pieces is None:
-            columns, digests = row_digests(frame, first)
-            pieces = [("rows-digested", [digests.astype("<u8", copy=False)])]
-        else:
-            columns = column_order(frame, first)
-        feed(label + "-columns", json.dumps(columns).encode("utf-8"))
-        for name, data in pieces:
-            feed(f"{label}-{name}", data)
-    feed("card-types", json.dumps(sorted((str(k), str(v)) for k, v in part.card_types.items())).encode("utf-8"))
-    feed("settings", settings_text(params).encode("utf-8"))
-    return h.hexdigest()
-
-
-def settings_text(params: Any) -> str:
-    """A canonical text of settings (any frozen dataclass, dict or None)."""
-    if params is None:
-        body: Any = None
-    elif dataclasses.is_dataclass(params) and not isinstance(params, type):
-        body = {"type": f"{type(params).__module__}.{type(params).__qualname__}", "fields": dataclasses.asdict(params)}
-    elif isinstance(params, dict):
-        body = params
-    else:
-        body = repr(params)
-    return json.dumps(body, sort_keys=True, default=_json_fallback, ensure_ascii=True, separators=(",", ":"))
-
-
-def _json_fallback(value: Any) -> Any:
-    # Sets have no order; tuples and paths have an unambiguous text.
-    if isinstance(value, (set, frozenset)):
-        return sorted(map(repr, value))
-    return repr(value)
-
-
-def _canonical_decks(frame: pd.DataFrame) -> list[tuple[str, list]] | None:
-    """A deck table's bytes, rows by deck id; None when an id is missing or repeated."""
-    if "deck_id" not in frame.columns:
-        return None
-    ids = text_array(frame["deck_id"])
-    if ids is None or ids.null_count:
-        return None
-    if len(ids) > 1 and not pc.all(pc.greater(ids[1:], ids[:-1])).as_py():
-        order = pc.sort_indices(ids)
-        in_order = ids.take(order)
-        if pc.any(pc.equal(in_order[1:], in_order[:-1])).as_py():
-            return None
-        frame = frame.iloc[order.to_numpy()]
-    return [(f"column-{c}", column_bytes(frame[c])) for c in column_order(frame, DECK_COLUMNS)]
-
-
-def _canonical_cards(frame: pd.DataFrame) -> list[tuple[str, list]] | None:
-    """Card rows' bytes: the sorted distinct deck ids and card names, then per row the two
-    positions among them and the other columns, rows in that order; None when a deck id or
-    card name is missing or a (deck, card) pair repeats."""
-    if "deck_id" not in frame.columns or "card" not in frame.columns:
-        return None
-    decks, cards = _sorted_codes(frame["deck_id"]), _sorted_codes(frame["card"])
-    if decks is None or cards is None:
-        return None
-    (deck_codes, deck_names), (card_codes, card_names) = decks, cards
-    if in_row_order(deck_codes, card_codes):
-        order = None
-    else:
-        order = np.lexsort((card_codes, deck_codes))
-        deck_codes, card_codes = deck_codes[order], card_codes[order]
-        if not in_row_order(deck_codes, card_codes):
-            return None  # a (deck, card) pair twice
-    pieces = [("deck-ids", column_bytes(pd.Series(deck_names, dtype="str"))),
-              ("card-names", column_bytes(pd.Series(card_names, dtype="str"))),
-              ("deck-at", narrowest_bytes(deck_codes)), ("card-at", narrowest_bytes(card_codes))]
-    for c in column_order(frame, CARD_ROW_COLUMNS):
-        if c not in ("deck_id", "card"):
-            column = frame[c] if order is None else frame[c].iloc[order]
-            pieces.append((f"column-{c}", column_bytes(column)))
-    return pieces
-
-
-def _sorted_codes(column: pd.Series) -> tuple[np.ndarray, pd.Index] | None:
-    """Each value's position among the column's distinct values sorted (code point order);
-    None when a value is missing. A categorical whose categories are exactly that (a
-    partition cut by a build) needs no work."""
-    if isinstance(column.dtype, pd.CategoricalDtype):
-        codes = np.asarray(column.array.codes)
-        if codes.size and codes.min() < 0:
-            return None
-        categories = column.cat.categories
-        used = np.zeros(len(categories), dtype=bool)
-        used[codes] = True
-        if used.all() and categories.is_monotonic_increasing:
-            return codes, categories
-    if column.isna().any():
-        return None
-    codes, uniques = pd.factorize(column.astype("str"), sort=True)
-    return codes, pd.Index(uniques, dtype="str")
 
 
 def map_key(partition_key: str, previous_map_key: str | None) -> str:
