@@ -18,6 +18,7 @@ from .build_report import BuildReport
 from .build_settings import BuildSettings
 from .config import Config
 from .progress import Progress
+from .reuse.keys import input_stamp
 from .reuse.last_build import LastBuild
 from .writing import build_lock, write_site
 
@@ -51,9 +52,9 @@ def build(
     progress = Progress(stream=stream, quiet=quiet)
     with build_lock(out):
         last = LastBuild(settings.cache_folder)
-        stamp = last.stamp(settings, out)
-        previous = last.unchanged_report(stamp, out)
-        previous = BuildReport.from_record(out, previous) if previous is not None else None
+        stamp = input_stamp(settings.values_json, out, settings.input_roots)
+        unchanged = last.unchanged_report(stamp, out)
+        previous = BuildReport.from_record(out, unchanged) if unchanged is not None else None
         if previous is not None:
             progress.say(f"• nothing changed since the last build: {out} is up to date")
             return replace(previous, seconds=time.perf_counter() - start)

@@ -160,7 +160,7 @@ def _stamp(paths: list[Path]) -> tuple:
 
 def serve(target: Path, *, host: str = "127.0.0.1", port: int = 8000, watch: bool = False, quiet: bool = False) -> None:
     """Serve a built site (a config file's output, or a folder) until interrupted."""
-    cfg = None
+    cfg = settings = None
     if target.is_dir() and not (target / "site.toml").is_file():
         root = target
     else:
@@ -168,13 +168,12 @@ def serve(target: Path, *, host: str = "127.0.0.1", port: int = 8000, watch: boo
         from .build_settings import BuildSettings
 
         cfg = config_mod.load(target / "site.toml" if target.is_dir() else target)
-        root = BuildSettings.from_config(cfg).output_dir()
-    if watch and cfg is None:
+        settings = BuildSettings.from_config(cfg)
+        root = settings.output_dir()
+    if watch and settings is None:
         raise SitegenError("--watch needs the site's config file, not a built folder; give the path of site.toml")
     if watch:
-        from .build_settings import BuildSettings
-
-        BuildSettings.from_config(cfg).checked_output()  # --watch rebuilds into the output: refuse one a build must not replace, now
+        settings.checked_output()  # --watch rebuilds into the output: refuse one a build must not replace, now
     if not root.is_dir():
         raise SitegenError(f"no built site at {root}; run 'sitegen build' first")
     state = _WatchState() if watch else None

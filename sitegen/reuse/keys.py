@@ -264,7 +264,7 @@ def page_key(salt: str, template: str, context_pickle: bytes) -> str:
     return h.hexdigest()
 
 
-def input_stamp(settings_json: str, out: Path, roots: Iterable[Path | None]) -> str:
+def input_stamp(settings_json: str, out: Path, roots: Iterable[Path]) -> str:
     """A digest of everything a build reads: settings, the names, sizes and times of the files
     under ``roots`` (data, notes, templates and sitegen's own program files). Equal stamps mean
     the same site."""
@@ -274,8 +274,6 @@ def input_stamp(settings_json: str, out: Path, roots: Iterable[Path | None]) -> 
     h.update(str(out).encode())
     h.update(os.environ.get("SOURCE_DATE_EPOCH", "").encode())
     for root in roots:
-        if root is None:
-            continue
         h.update(f"\0{root}".encode())
         for f in files_under(root):
             if f.suffix == ".pyc":

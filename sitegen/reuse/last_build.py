@@ -13,7 +13,7 @@ from pathlib import Path
 from typing import Any
 
 from .files import file_stat, files_under
-from .keys import input_stamp, render_salt
+from .keys import render_salt
 
 STAMP_FILE = "last-build.json"
 #: The assignments files whose season blocks a build may copy from the last build's (site/exports.py).
@@ -43,10 +43,6 @@ class LastBuild:
                 record = None
             self.record = record if isinstance(record, dict) else None
 
-    def _listing(self) -> dict[str, tuple[int, int]]:
-        """Each output file of the last build with the (size, time of change) it left it at."""
-        return {path: (size, mtime) for path, size, mtime in self.record["output"]}
-
     def known_output(self) -> dict[str, tuple[int, int]] | None:
         """The output files the last build wrote (see :func:`sitegen.writing.check_output`), or None."""
         try:
@@ -54,12 +50,6 @@ class LastBuild:
                 if self.record else None
         except (KeyError, TypeError, ValueError):
             return None
-
-    @staticmethod
-    def stamp(settings, out: Path) -> str:
-        """The stamp (:func:`sitegen.reuse.keys.input_stamp`) of a build of ``settings``
-        (a :class:`sitegen.build_settings.BuildSettings`) into ``out``."""
-        return input_stamp(settings.values_json, out, settings.input_roots)
 
     def unchanged_report(self, stamp: str, out: Path) -> dict | None:
         """The last build's report (see :meth:`write`) when its inputs and its output are exactly as they were."""
@@ -85,7 +75,7 @@ class LastBuild:
         try:
             if not record or not record.get("export_blocks"):
                 return ExportBlocks()  # nothing to copy: the files need not be read
-            listed = self._listing()
+            listed = self.known_output() or {}
             files = []
             for name in BLOCK_FILES:
                 if listed.get(name) != file_stat(out / name):
@@ -107,7 +97,7 @@ class LastBuild:
             pages = self.record.get("pages") if self.record else None
             if not pages or pages.get("salt") != salt:
                 return PageMemo(salt)
-            return PageMemo(salt, out, {str(k): str(v) for k, v in pages["keys"].items()}, self._listing())
+            return PageMemo(salt, out, {str(k): str(v) for k, v in pages["keys"].items()}, self.known_output() or {})
         except (ValueError, KeyError, TypeError, AttributeError):
             return PageMemo(salt)
 
