@@ -299,3 +299,21 @@ def test_copy_levels_one_hot_matches_numpy():
         expected[i, (min(int(shown[i, j]), card_rates.LEVELS) - 1) * 7 + j] = 1.0
     np.testing.assert_array_equal(card_rates.as_levels(counts).toarray(), expected)
     assert expected.sum() > 0
+
+
+def test_a_variant_told_only_by_copies_stays_apart_and_a_count_flex_does_not():
+    # Planted by hand. Two groups of 40 decks play the same cards, X and Y at 2 copies in one and at 3 in the
+    # other: each plays two cards at counts of its own, and X at 2 copies never meets Y at 3, so they are two
+    # archetypes; by presence alone they are one. A count flex: 80 decks play X and Y at 2 or 3 copies
+    # independently; cut by X's count, the pieces differ only in one card's count (whose two counts no deck
+    # plays at once), so they are not two archetypes.
+    rng = np.random.default_rng(3)
+    z = np.ones(80)
+    w = (rng.random(80) < 0.5).astype(float)
+    counts = sp.csr_matrix(np.column_stack([np.repeat([2.0, 3.0], 40), np.repeat([2.0, 3.0], 40), z, w]))
+    a, b = np.arange(40), np.arange(40, 80)
+    assert membership.DeckCards.of(features.presence(counts), counts).apart(a, b)
+    assert not membership.DeckCards.of(features.presence(counts)).apart(a, b)
+    x, y = rng.choice([2.0, 3.0], 80), rng.choice([2.0, 3.0], 80)
+    flex = sp.csr_matrix(np.column_stack([x, y, z, w]))
+    assert not membership.DeckCards.of(features.presence(flex), flex).apart(np.flatnonzero(x == 2), np.flatnonzero(x == 3))

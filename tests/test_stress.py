@@ -403,3 +403,22 @@ def test_a_tiny_close_variant_is_a_group_of_its_own_among_the_other_decks():
         assert mine.sum() >= 15 and (found[mine] == "other").mean() >= 0.9
         assert "small group with cards of its own" in result.k_reason
         assert score.covered / score.coverable >= 0.98
+
+
+def test_a_small_group_of_its_own_that_draws_enough_decks_is_an_archetype():
+    # Planted truth (development settings: a dominant family, power shares, 20% partial lists): P03, a close
+    # variant of P01 at 4.1% of 3 000 decks, is too sparse for the archetype-sized density groups and is
+    # found as a small group of its own. Its decks were other decks (k 2 of 3); a small group of its own
+    # that draws at least min_share of the decks is an archetype.
+    planted = stress.planted_partition(StressSettings("power", 3, n_tail=1, n_tiny=1, n_variants=2, variant_keep=0.8,
+                                                      play_rate=(0.62, 0.9), core_size=(8, 11), neutral_core=0.3,
+                                                      brew_share=0.08, brew_kind="staples", partial_share=0.2,
+                                                      sizes=(3000,), seed=304), 3000)
+    assert planted.parents.get("P03") == "P01" and 0.03 < planted.shares["P03"] < 0.05
+    result, score = stress.run_partition(planted)
+    found = result.assignments.set_index("deck_id")["archetype"].reindex(planted.truth.index).to_numpy()
+    mine = found[planted.truth.to_numpy() == "P03"]
+    keys, counts = np.unique(mine, return_counts=True)
+    assert keys[np.argmax(counts)] != "other" and counts.max() >= 0.85 * len(mine)
+    assert score.k_found == score.k_planted == 3
+    assert "drew at least" in result.k_reason

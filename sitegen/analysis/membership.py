@@ -31,7 +31,11 @@ distances in (card presence weighted by rarity, each deck a unit row):
   of its parent's cards for cards of its own. Two halves of one archetype cut
   along flex cards do not, for its decks play those cards independently; they
   are joined. Each group also gets a 2-way k-means cut tried on it, kept when
-  the pieces pass the same test.
+  the pieces pass the same test. Where copies are read, a (card, copy level)
+  pair counts as a card of its own too, so a variant that keeps its parent's
+  cards at other counts stays apart; the two that exclude each other must be
+  different cards, for two counts of one card never meet in a deck
+  (:class:`DeckCards`).
 
 - **Every deck is placed last by card rates** (:mod:`.card_rates`): each
   archetype's rate of playing each card, and the other decks' (with the random
@@ -50,7 +54,9 @@ distances in (card presence weighted by rarity, each deck a unit row):
   (from :data:`SMALL_SHARE` of ``min_share``) that the placement gave to an
   archetype, yet is distinct from the rest of it (the strict test above: a
   close variant of it), gets card rates of its own in one last round; the
-  decks likeliest under them are other decks, not the archetype's.
+  decks likeliest under them are other decks, not the archetype's. One that
+  draws at least ``least`` decks that way is not too small: it is an
+  archetype, and the round is placed again.
 
 The card rates the final labels were placed by are stored with the results
 (:class:`sitegen.model.Placement`, with the centres distances are measured
@@ -90,8 +96,9 @@ EXCLUSION_P = 1e-6
 STAPLE_SHARE = 0.5
 #: Rounds of placing every deck by card rates, each on the groups the round before left.
 RATE_ROUNDS = 2
-#: Groups of their own too small to be archetypes are looked for from this share of min_share
-#: (dense groups of at least that many of the decks looked at), and from OWN_FLOOR decks.
+#: Small groups of their own (too small to be archetypes unless they draw enough decks) are looked
+#: for from this share of min_share (dense groups of at least that many of the decks looked at),
+#: and from OWN_FLOOR decks.
 SMALL_SHARE = 0.25
 OWN_FLOOR = 10
 
@@ -119,6 +126,8 @@ class Membership:
     #: Small groups of their own given up (their decks other decks), and how many decks they hold.
     own_groups: int = 0
     own_decks: int = 0
+    #: Small groups of their own that drew at least ``least`` decks, and so are archetypes.
+    promoted: int = 0
 
 
 def unit_rows(matrix: np.ndarray) -> np.ndarray:
@@ -149,7 +158,8 @@ def rates(present: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
 
 
 def distinct(present: sp.csr_matrix, a: np.ndarray, b: np.ndarray, rate_a: np.ndarray | None = None,
-             rate_b: np.ndarray | None = None, *, strict: bool = False, by_card: sp.csc_matrix | None = None) -> bool:
+             rate_b: np.ndarray | None = None, *, strict: bool = False, by_card: sp.csc_matrix | None = None,
+             cards: int | None = None) -> bool:
     """True when decks ``a`` and ``b`` are two archetypes, not one cut in two (see the module notes).
 
     Each side needs a card of its own: played by at least :data:`OWN_IN` of
@@ -159,7 +169,10 @@ def distinct(present: sp.csr_matrix, a: np.ndarray, b: np.ndarray, rate_a: np.nd
     each other across both sides (Yule's Q of the 2x2 table of playing one
     and the other at most :data:`EXCLUSION`): a variant drops cards of its
     parent for cards of its own, while k-means readily cuts one archetype in
-    two along flex cards that its decks play independently.
+    two along flex cards that its decks play independently. ``cards``: the
+    columns are (card, copy level) pairs of that many cards (:func:`as_levels`),
+    and two levels of one card, which no deck plays at once, are never taken
+    for a pair that excludes each other.
     """
     if rate_a is None:
         rate_a = np.asarray(present[a].mean(axis=0)).ravel()
@@ -186,6 +199,8 @@ def distinct(present: sp.csr_matrix, a: np.ndarray, b: np.ndarray, rate_a: np.nd
     only_y = ny - together
     neither = x.shape[0] - together - only_x - only_y
     q = yules_q(together, only_x, only_y, neither)
+    if cards is not None:
+        q = np.where((own_a % cards)[:, None] == (own_b % cards)[None, :], 0.0, q)
     if (q <= EXCLUSION).any():
         return True
     from scipy.stats import fisher_exact  # here: importing this module needs none of scipy.stats
@@ -283,22 +298,52 @@ def loo_similarity(weights: sp.csr_matrix, members: np.ndarray) -> np.ndarray:
     return (dots - own) / rest
 
 
-def merge_alike(present: sp.csr_matrix, weights: sp.csr_matrix, labels: np.ndarray,
-                by_card: sp.csc_matrix | None = None, known: dict | None = None) -> tuple[np.ndarray, int]:
-    """Join groups that have no card of their own against each other, most similar pair first.
+@dataclass(frozen=True)
+class DeckCards:
+    """A partition's decks as the "two archetypes" test reads them: card presence and, where
+    copies are read, (card, copy level) columns, each also by column (a few columns of many decks
+    are read fast from it)."""
+
+    present: sp.csr_matrix
+    by_card: sp.csc_matrix
+    levels: sp.csr_matrix | None = None
+    by_level: sp.csc_matrix | None = None
+
+    @classmethod
+    def of(cls, present: sp.csr_matrix, copies: sp.csr_matrix | None = None) -> "DeckCards":
+        """``copies``: each deck's copies of each card (None, or every copy 1: presence alone)."""
+        levels = None if copies is None else as_levels(copies)
+        if levels is not None and levels.nnz and levels.indices.max() < present.shape[1]:
+            levels = None  # one copy of every card: the levels say what presence says
+        return cls(present, sp.csc_matrix(present), levels, None if levels is None else sp.csc_matrix(levels))
+
+    def apart(self, a: np.ndarray, b: np.ndarray, rates: tuple | None = None) -> bool:
+        """:func:`distinct` (strict) on card presence, or else on (card, copy level) columns: a close
+        variant that keeps its parent's cards may play them at other counts. ``rates``: the two
+        sides' rates of presence and of levels, when at hand."""
+        ra, rb, la, lb = rates if rates is not None else (None, None, None, None)
+        if distinct(self.present, a, b, ra, rb, strict=True, by_card=self.by_card):
+            return True
+        return self.levels is not None and distinct(self.levels, a, b, la, lb, strict=True, by_card=self.by_level,
+                                                    cards=self.present.shape[1])
+
+
+def merge_alike(decks: DeckCards, weights: sp.csr_matrix, labels: np.ndarray,
+                known: dict | None = None) -> tuple[np.ndarray, int]:
+    """Join groups that are not two archetypes (:meth:`DeckCards.apart`), most similar pair first.
 
     ``known`` remembers the verdict on each pair of member sets across calls (a pair left as it was
     is not judged again)."""
     labels = labels.copy()
     merged = 0
-    by_card = sp.csc_matrix(present) if by_card is None else by_card
     known = {} if known is None else known
     while True:
         keys = [c for c in np.unique(labels) if c >= 0]
         if len(keys) < 2:
             return labels, merged
         k = int(max(keys)) + 1
-        share = rates(present, labels, k)
+        share = rates(decks.present, labels, k)
+        level_share = rates(decks.levels, labels, k) if decks.levels is not None else share
         centres = centres_of(weights, labels, k)
         members = {c: np.flatnonzero(labels == c) for c in keys}
         best = None
@@ -306,8 +351,8 @@ def merge_alike(present: sp.csr_matrix, weights: sp.csr_matrix, labels: np.ndarr
             for b in keys[i + 1:]:
                 pair = (members[a].tobytes(), members[b].tobytes())
                 if pair not in known:
-                    known[pair] = distinct(present, members[a], members[b], share[a], share[b], strict=True,
-                                           by_card=by_card)
+                    known[pair] = decks.apart(members[a], members[b],
+                                              (share[a], share[b], level_share[a], level_share[b]))
                 if known[pair]:
                     continue
                 sim = float(centres[a] @ centres[b])
@@ -338,13 +383,13 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     deck's copies of each card, read by the card rates (None: presence alone).
     """
     n = present.shape[0]
+    decks = DeckCards.of(present, copies)
     copies = present if copies is None else copies
     labels = _compact(labels)
     merged = dropped_small = dropped_loose = 0
-    split = 0
+    split = promoted = 0
     tried: set[bytes] = set()
     nulls = RandomDecks(copies, idf, seed) if nulls is None else nulls
-    by_card = sp.csc_matrix(present)
     known: dict = {}
     for _ in range(64):
         labels, small, loose = _prune(present, weights, nulls, labels, least)
@@ -352,7 +397,7 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
         dropped_loose += loose
         if not merge:
             break
-        joined, count = (merge_alike(present, weights, labels, by_card, known) if labels.max(initial=-1) >= 1
+        joined, count = (merge_alike(decks, weights, labels, known) if labels.max(initial=-1) >= 1
                          else (labels, 0))
         if count:
             merged += count
@@ -364,7 +409,7 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
             continue
         if rows is None or (most is not None and labels.max(initial=-1) + 1 >= most):
             break
-        cut = _split_one(present, rows, labels, least, seed, tried, by_card)
+        cut = _split_one(decks, rows, labels, least, seed, tried)
         if cut is None:
             break
         labels = cut
@@ -389,14 +434,24 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
         labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least)
         dropped_small += given_up
     k = int(labels.max(initial=-1)) + 1
-    own = _own_groups(present, labels, k, smalls, by_card) if k else []
+    own = _own_groups(decks, labels, k, smalls) if k else []
     if own:
         labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, own)
         dropped_small += given_up
         k = int(labels.max(initial=-1)) + 1
+        row = np.argmax(scores(copies, rates), axis=1)
+        grown = [j for j in range(len(own)) if int((row == k + j).sum()) >= least]
+        if grown:  # a group of its own that draws at least ``least`` decks is an archetype, not other decks
+            for step, j in enumerate(grown):
+                labels[row == k + j] = k + step
+            own = [members for j, members in enumerate(own) if j not in grown]
+            labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, own)
+            dropped_small += given_up
+            promoted += len(grown)
+            k = int(labels.max(initial=-1)) + 1
     if k == 0:
         return Membership(labels, np.zeros((0, m)), rates, np.zeros(n), int(n), dropped_small, dropped_loose,
-                          merged, split)
+                          merged, split, promoted=promoted)
     centres = centres_of(blind, labels, k)
     sims = similarities(weights, centres)
     sim = np.where(labels >= 0, sims[np.arange(n), np.maximum(labels, 0)], sims.max(axis=1))
@@ -406,7 +461,7 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
         row = np.argmax(scores(copies, rates), axis=1)
         own_decks = int(((row >= k) & (row < rates.log_odds.shape[0] - 1)).sum())
     return Membership(labels, centres, rates, sim, int((labels < 0).sum()), dropped_small, dropped_loose,
-                      merged, split, own_groups, own_decks)
+                      merged, split, own_groups, own_decks, promoted)
 
 
 def _place_by_rates(copies, labels, null_copies, least, own: Sequence[np.ndarray] = ()
@@ -431,7 +486,7 @@ def _place_by_rates(copies, labels, null_copies, least, own: Sequence[np.ndarray
         given_up += 1
 
 
-def _own_groups(present, labels, k, smalls, by_card) -> list[np.ndarray]:
+def _own_groups(decks: DeckCards, labels, k, smalls) -> list[np.ndarray]:
     """The small groups (``smalls``: member sets of at least :data:`OWN_FLOOR` decks) that are groups
     of their own: :func:`distinct` (strict) from the rest of the archetype most of their decks joined,
     which holds at least as many decks."""
@@ -444,7 +499,7 @@ def _own_groups(present, labels, k, smalls, by_card) -> list[np.ndarray]:
         if len(went) == 0:
             continue
         rest = np.setdiff1d(np.flatnonzero(labels == np.bincount(went).argmax()), members)
-        if len(rest) >= len(members) and distinct(present, members, rest, strict=True, by_card=by_card):
+        if len(rest) >= len(members) and decks.apart(members, rest):
             out.append(members)
     return out
 
@@ -461,7 +516,7 @@ def _join_closest(weights: sp.csr_matrix, labels: np.ndarray) -> np.ndarray:
     return out
 
 
-def _split_one(present, rows, labels, least, seed, tried, by_card=None) -> np.ndarray | None:
+def _split_one(decks: DeckCards, rows, labels, least, seed, tried) -> np.ndarray | None:
     """Labels with one group cut in two, or None: the first group (largest first) whose 2-way k-means
     cut (on the reduced ``rows``) leaves two pieces of at least ``least`` decks, each with a card of its
     own against the other. ``tried`` remembers groups already looked at, so none is tried twice."""
@@ -487,7 +542,7 @@ def _split_one(present, rows, labels, least, seed, tried, by_card=None) -> np.nd
             continue
         cut = labels.copy()
         cut[members[piece == 1]] = k
-        if distinct(present, members[piece == 0], members[piece == 1], strict=True, by_card=by_card):
+        if decks.apart(members[piece == 0], members[piece == 1]):
             return cut
     return None
 

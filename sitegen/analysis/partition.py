@@ -236,13 +236,16 @@ def _k_reason(found: membership.Membership, k: int, n_other: int, n: int, least:
         words = [f"k-means with the {pinned} groups pinned in the settings (analysis.pinned_k); "
                  f"{_count(k, 'archetype')} kept"]
     else:
-        words = [f"{_count(k, 'archetype')}: dense groups of decks, each with cards of its own"]
+        words = [f"{_count(k, 'archetype')}: dense groups of decks, each with cards (or copy counts) of its own"]
     if found.merged:
-        words.append(f"{_count(found.merged, 'pair')} of groups without cards of their own against each other "
+        words.append(f"{_count(found.merged, 'pair')} of groups without cards or copy counts of their own against each other "
                      f"{'was' if found.merged == 1 else 'were'} joined")
     if found.split:
         words.append(f"{_count(found.split, 'group')} holding two sets of decks with cards of their own "
                      f"{'was' if found.split == 1 else 'were'} cut in two")
+    if found.promoted:
+        words.append(f"{_count(found.promoted, 'small group')} with cards of {'its' if found.promoted == 1 else 'their'} own "
+                     f"drew at least {least} decks and so {'is an archetype' if found.promoted == 1 else 'are archetypes'}")
     if found.dropped_small:
         words.append(f"{_count(found.dropped_small, 'group')} with fewer than {least} decks "
                      f"({params.min_share:.0%} of the partition, setting analysis.min_share) "
