@@ -8,7 +8,7 @@ from sklearn.metrics import jaccard_score
 from sklearn.metrics.pairwise import cosine_similarity
 from statsmodels.stats.contingency_tables import Table2x2
 
-from sitegen.analysis import card_rates, features, membership, stability
+from sitegen.analysis import card_rates, features, membership, random_decks, stability
 from sitegen.analysis.params import AnalysisParams
 from sitegen.analysis.partition import analyse_partition
 from sitegen.model import OTHER_KEY
@@ -126,7 +126,7 @@ def test_cuts_are_quantiles_of_random_decks_over_the_centres():
     # Reference: numpy.quantile at 1 - (1 - NULL_QUANTILE) / k of the random decks' similarities to each centre.
     counts, w = _rows(4)
     centres = membership.centres_of(w, np.arange(60) % 2, 2)
-    null, _ = membership.null_rows(features.presence(counts), features.idf(counts), np.zeros(30, bool), 500, 0)
+    null, _ = random_decks.null_rows(features.presence(counts), features.idf(counts), np.zeros(30, bool), 500, 0)
     assert null.shape == (500, 30)
     np.testing.assert_allclose(np.asarray(null.multiply(null).sum(axis=1)).ravel(), 1.0)
     ref = np.quantile(cosine_similarity(null, centres), 1 - (1 - membership.NULL_QUANTILE) / 2, axis=0)
@@ -138,7 +138,7 @@ def test_random_decks_keep_staples_and_size():
     present = features.presence(counts)
     staples = np.zeros(30, bool)
     staples[0] = True
-    null, copies = membership.null_rows(present, features.idf(counts), staples, 200, 1)
+    null, copies = random_decks.null_rows(present, features.idf(counts), staples, 200, 1)
     assert (null[:, 0].toarray() > 0).all()  # card 0 is in every deck and is a staple
     sizes = np.diff(null.indptr)
     assert sizes.min() >= 1 and sizes.max() <= np.diff(present.indptr).max()
@@ -155,7 +155,7 @@ def test_random_decks_keep_staple_copies_and_draw_levels_a_card_is_played_at():
     counts = sp.csr_matrix(dense)
     staples = np.zeros(20, bool)
     staples[0] = True
-    _, copies = membership.null_rows(counts, features.idf(counts), staples, 300, 2)
+    _, copies = random_decks.null_rows(counts, features.idf(counts), staples, 300, 2)
     held = copies.toarray()
     assert (held[:, 0] == 3).all()
     assert set(np.unique(held[:, 1:10])) <= {0.0, 1.0} and set(np.unique(held[:, 10:])) <= {0.0, 2.0, 3.0}

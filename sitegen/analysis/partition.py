@@ -17,7 +17,7 @@ from threadpoolctl import threadpool_limits
 
 from ..model import OTHER_KEY, Archetype, MapLayout, MapSample, PartitionInput, PartitionResult, Placement
 from ..slugs import SlugSet, slugify
-from . import cluster, describe, embed, features, membership, results, stability
+from . import cluster, describe, embed, features, membership, random_decks, results, stability
 from .params import AnalysisParams
 
 ASSIGNMENT_COLUMNS = ("deck_id", "archetype", "distance", "x", "y")
@@ -68,7 +68,7 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
         rows = features.reduce(weights, params.svd_dims, params.seed, params.fit_sample)
     least = max(1, math.ceil(params.min_share * n - 1e-9))
     # One set of random decks for the rule and its reruns on halves (the same seed would make the same ones).
-    nulls = membership.RandomDecks(counts, idf, params.seed)
+    nulls = random_decks.RandomDecks(counts, idf, params.seed)
     found = _rule(rows, present, weights, idf, least, part, params, nulls, counts)
     labels = found.labels
     k = len(found.centres)
