@@ -430,8 +430,8 @@ def _place_by_rates(copies, labels, null_copies, least, own: Sequence[np.ndarray
 
 def _own_groups(decks: DeckCards, labels, k, smalls) -> list[np.ndarray]:
     """The small groups (``smalls``: member sets of at least :data:`OWN_FLOOR` decks) that are groups
-    of their own: :func:`distinct` (strict) from the rest of the archetype most of their decks joined,
-    which holds at least as many decks."""
+    of their own: apart (:meth:`DeckCards.apart`) from the rest of the archetype most of their decks
+    joined, which holds at least as many decks."""
     out: list[np.ndarray] = []
     for members in smalls:
         if len(members) < OWN_FLOOR:
@@ -460,8 +460,8 @@ def _join_closest(weights: sp.csr_matrix, labels: np.ndarray) -> np.ndarray:
 
 def _split_one(decks: DeckCards, rows, labels, least, seed, tried) -> np.ndarray | None:
     """Labels with one group cut in two, or None: the first group (largest first) whose 2-way k-means
-    cut (on the reduced ``rows``) leaves two pieces of at least ``least`` decks, each with a card of its
-    own against the other. ``tried`` remembers groups already looked at, so none is tried twice."""
+    cut (on the reduced ``rows``) leaves two pieces of at least ``least`` decks that are two archetypes
+    (:meth:`DeckCards.apart`). ``tried`` remembers groups already looked at, so none is tried twice."""
     from sklearn.cluster import KMeans
 
     from .cluster import distinct_rows, sample_rows
