@@ -90,7 +90,7 @@ SETTINGS: tuple[Setting, ...] = (
     _S("analysis.k_max", 12, int, "Most archetypes per partition; beyond it the most alike are joined.", minimum=1),
     _S("analysis.pinned_k", [], list, "Fixed archetype counts, each {season, leader, k}."),
     _S("analysis.min_decks", 30, int, "Partitions with fewer decks are not clustered.", minimum=2),
-    _S("analysis.min_share", 0.02, float, "Groups below this share of their partition are not archetypes; their decks go to the archetype they fit best, or to the other decks (those that fit it best when the group has cards of its own and at least 10 decks).", minimum=0, maximum=1),
+    _S("analysis.min_share", 0.02, float, "Groups below this share of their partition are not archetypes; their decks go to the archetype they fit best, or to the other decks (those that fit it best when the group has cards of its own and at least 5 decks).", minimum=0, maximum=1),
     _S("analysis.seed", 0, int, "Random seed for sampling, random decks, k-means and maps, from 0 to 2147483647.", minimum=0, maximum=2**31 - 1),
     _S("analysis.inclusion_min_share", 0.05, float, "Cards played by fewer of an archetype's decks are left out of its card table.", minimum=0, maximum=1),
     _S("analysis.name_cards", 2, int, "Signature cards used in an archetype's default name.", minimum=1, maximum=5),

@@ -110,6 +110,35 @@ def test_a_variant_is_distinct_and_a_flex_cut_is_not():
     assert len(both) > 0
 
 
+def _two_card_decks(both: int, only_x: int, only_y: int, neither: int) -> sp.csr_matrix:
+    """Decks over cards x, y in the four cells of a 2x2 table, in that order."""
+    rows = [[1, 1]] * both + [[1, 0]] * only_x + [[0, 1]] * only_y + [[0, 0]] * neither
+    return sp.csr_matrix(np.array(rows, dtype=float))
+
+
+def test_a_cut_needs_its_pair_to_pass_fishers_test_and_a_variant_does():
+    # A cut k-means drew through one archetype of 40 decks along two flex cards: x on one piece, y on
+    # the other. Across all 40 they met once: Q about -0.85, yet chance gives such a table about 1 time
+    # in 130 (scipy's Fisher exact test, one-sided), so the cut is not kept.
+    from scipy.stats import fisher_exact
+
+    present = _two_card_decks(1, 15, 11, 13)
+    a = np.r_[0:16, 27:32]  # x's decks and 5 of those playing neither
+    b = np.setdiff1d(np.arange(40), a)
+    assert membership.yules_q(1, 15, 11, 13) <= membership.EXCLUSION
+    p = fisher_exact([[1, 15], [11, 13]], alternative="less").pvalue
+    assert membership.SPLIT_P < p < 0.05
+    assert membership.distinct(present, a, b, strict=True)  # two groups found apart by density stay apart
+    assert not membership.distinct(present, a, b, strict=True, p_max=membership.SPLIT_P)
+    # A variant of 10 decks cut from its parent's 40: its own card x on 8 of its decks and 2 of the
+    # parent's, the parent's own card y on 33 of the parent's and none of its: p about 3e-5, kept.
+    present = _two_card_decks(0, 10, 33, 7)
+    variant = np.r_[0:8, 43:45]
+    parent = np.setdiff1d(np.arange(50), variant)
+    assert fisher_exact([[0, 10], [33, 7]], alternative="less").pvalue < membership.SPLIT_P
+    assert membership.distinct(present, variant, parent, strict=True, p_max=membership.SPLIT_P)
+
+
 def test_yules_q_of_the_exclusion_check_matches_statsmodels():
     # Two own cards that never meet: Yule's Q is -1 (statsmodels' odds ratio is 0 there).
     present = sp.csr_matrix(np.array([[1, 0]] * 10 + [[0, 1]] * 10 + [[0, 0]] * 5, dtype=float))

@@ -31,7 +31,9 @@ distances in (card presence weighted by rarity, each deck a unit row):
   of its parent's cards for cards of its own. Two halves of one archetype cut
   along flex cards do not, for its decks play those cards independently; they
   are joined. Each group also gets a 2-way k-means cut tried on it, kept when
-  the pieces pass the same test. Where copies are read, a (card, copy level)
+  the pieces pass the same test with the Fisher test required of the pair at
+  Q -0.8 too (p below :data:`SPLIT_P`: the cut is drawn from the very decks it is
+  judged on). Where copies are read, a (card, copy level)
   pair counts as a card of its own too, so a variant that keeps its parent's
   cards at other counts stays apart; the two that exclude each other must be
   different cards, for two counts of one card never meet in a deck
@@ -89,6 +91,11 @@ EXCLUSION = -0.8
 #: blur a clear exclusion, while chance picks the most opposed of many flex cards.
 EXCLUSION_LOOSE = -0.5
 EXCLUSION_P = 1e-6
+#: A cut k-means proposes inside one group is drawn from the very decks it is then judged on, and a
+#: group of a few dozen decks shows a Q of -0.8 between two of its flex cards by chance: such a cut
+#: also needs the pair's Fisher test under this p-value (about 2% over the up to 18 pairs, cards and
+#: copy levels, that one cut is judged on).
+SPLIT_P = 1e-3
 #: Staples: cards played by at least this share of the decks of every group.
 STAPLE_SHARE = 0.5
 #: Rounds of placing every deck by card rates, each on the groups the round before left.
@@ -97,7 +104,7 @@ RATE_ROUNDS = 2
 #: for from this share of min_share (dense groups of at least that many of the decks looked at),
 #: and from OWN_FLOOR decks.
 SMALL_SHARE = 0.25
-OWN_FLOOR = 10
+OWN_FLOOR = 5
 
 
 @dataclass(frozen=True)
@@ -156,7 +163,7 @@ def rates(present: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
 
 def distinct(present: sp.csr_matrix, a: np.ndarray, b: np.ndarray, rate_a: np.ndarray | None = None,
              rate_b: np.ndarray | None = None, *, strict: bool = False, by_card: sp.csc_matrix | None = None,
-             cards: int | None = None) -> bool:
+             cards: int | None = None, p_max: float | None = None) -> bool:
     """True when decks ``a`` and ``b`` are two archetypes, not one cut in two (see the module notes).
 
     Each side needs a card of its own: played by at least :data:`OWN_IN` of
@@ -169,7 +176,9 @@ def distinct(present: sp.csr_matrix, a: np.ndarray, b: np.ndarray, rate_a: np.nd
     two along flex cards that its decks play independently. ``cards``: the
     columns are (card, copy level) pairs of that many cards (:func:`as_levels`),
     and two levels of one card, which no deck plays at once, are never taken
-    for a pair that excludes each other.
+    for a pair that excludes each other. ``p_max``: a pair at most
+    :data:`EXCLUSION` must also show so few decks playing both that chance
+    would give it less often than this (Fisher's exact test, one-sided).
     """
     if rate_a is None:
         rate_a = np.asarray(present[a].mean(axis=0)).ravel()
@@ -198,13 +207,14 @@ def distinct(present: sp.csr_matrix, a: np.ndarray, b: np.ndarray, rate_a: np.nd
     q = yules_q(together, only_x, only_y, neither)
     if cards is not None:
         q = np.where((own_a % cards)[:, None] == (own_b % cards)[None, :], 0.0, q)
-    if (q <= EXCLUSION).any():
+    if p_max is None and (q <= EXCLUSION).any():
         return True
     from scipy.stats import fisher_exact  # here: importing this module needs none of scipy.stats
 
     for i, j in zip(*np.nonzero(q <= EXCLUSION_LOOSE)):
         table = [[together[i, j], only_x[i, j]], [only_y[i, j], neither[i, j]]]
-        if fisher_exact(table, alternative="less").pvalue < EXCLUSION_P:
+        p = fisher_exact(table, alternative="less").pvalue
+        if p < EXCLUSION_P or (p_max is not None and q[i, j] <= EXCLUSION and p < p_max):
             return True
     return False
 
@@ -259,15 +269,15 @@ class DeckCards:
             levels = None  # one copy of every card: the levels say what presence says
         return cls(present, sp.csc_matrix(present), levels, None if levels is None else sp.csc_matrix(levels))
 
-    def apart(self, a: np.ndarray, b: np.ndarray, rates: tuple | None = None) -> bool:
+    def apart(self, a: np.ndarray, b: np.ndarray, rates: tuple | None = None, p_max: float | None = None) -> bool:
         """:func:`distinct` (strict) on card presence, or else on (card, copy level) columns: a close
         variant that keeps its parent's cards may play them at other counts. ``rates``: the two
-        sides' rates of presence and of levels, when at hand."""
+        sides' rates of presence and of levels, when at hand; ``p_max``: as :func:`distinct`'s."""
         ra, rb, la, lb = rates if rates is not None else (None, None, None, None)
-        if distinct(self.present, a, b, ra, rb, strict=True, by_card=self.by_card):
+        if distinct(self.present, a, b, ra, rb, strict=True, by_card=self.by_card, p_max=p_max):
             return True
         return self.levels is not None and distinct(self.levels, a, b, la, lb, strict=True, by_card=self.by_level,
-                                                    cards=self.present.shape[1])
+                                                    cards=self.present.shape[1], p_max=p_max)
 
 
 def merge_alike(decks: DeckCards, weights: sp.csr_matrix, labels: np.ndarray,
@@ -382,6 +392,16 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
         dropped_small += given_up
         k = int(labels.max(initial=-1)) + 1
         row = np.argmax(scores(copies, rates), axis=1)
+        for _ in range(RATE_ROUNDS):  # each small group refitted on the decks its rates drew, as archetypes are
+            drawn = [np.flatnonzero(row == k + j) for j in range(len(own))]
+            drawn = [now if len(now) >= OWN_FLOOR else was for now, was in zip(drawn, own)]
+            if all(np.array_equal(now, was) for now, was in zip(drawn, own)):
+                break
+            own = drawn
+            labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, own)
+            dropped_small += given_up
+            k = int(labels.max(initial=-1)) + 1
+            row = np.argmax(scores(copies, rates), axis=1)
         grown = [j for j in range(len(own)) if int((row == k + j).sum()) >= least]
         if grown:  # a group of its own that draws at least ``least`` decks is an archetype, not other decks
             for step, j in enumerate(grown):
@@ -461,7 +481,7 @@ def _join_closest(weights: sp.csr_matrix, labels: np.ndarray) -> np.ndarray:
 def _split_one(decks: DeckCards, rows, labels, least, seed, tried) -> np.ndarray | None:
     """Labels with one group cut in two, or None: the first group (largest first) whose 2-way k-means
     cut (on the reduced ``rows``) leaves two pieces of at least ``least`` decks that are two archetypes
-    (:meth:`DeckCards.apart`). ``tried`` remembers groups already looked at, so none is tried twice."""
+    (:meth:`DeckCards.apart`, with the pair's Fisher test under :data:`SPLIT_P`). ``tried`` remembers groups already looked at, so none is tried twice."""
     from sklearn.cluster import KMeans
 
     from .cluster import distinct_rows, sample_rows
@@ -484,7 +504,7 @@ def _split_one(decks: DeckCards, rows, labels, least, seed, tried) -> np.ndarray
             continue
         cut = labels.copy()
         cut[members[piece == 1]] = k
-        if decks.apart(members[piece == 0], members[piece == 1]):
+        if decks.apart(members[piece == 0], members[piece == 1], p_max=SPLIT_P):
             return cut
     return None
 
