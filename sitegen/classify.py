@@ -150,6 +150,8 @@ class _Prepared:
             self.log_odds[row] = r["floor"]
             self.log_odds[row, r["i"]] = r["w"]
         self.constants = np.asarray([r["b"] for r in rates], dtype=np.float64)
+        length = doc.get("length") or {}
+        self.full = float(length.get("full", 0.0))
         self.levels: np.ndarray | None = None
         if rates:  # each row's copy-level log-shares: the model's base, with the row's own where they differ
             mix = np.full(doc["levels"]["count"] * m, float(doc["levels"]["floor"]))
@@ -220,7 +222,8 @@ def place_decks(models: Models, decks: Sequence[Deck], season_opt: str | None) -
         rows, unknown, held = _rows(model, [decks[i] for i in members])
         names = [(g["slug"], g["name"]) for g in doc["groups"]]
         if len(model.to):
-            labels = place(held, CardRates(model.log_odds, model.constants, len(model.to), model.levels))
+            sizes = np.asarray([sum(int(q) for q in decks[i].cards.values()) for i in members], dtype=np.float64)
+            labels = place(held, CardRates(model.log_odds, model.constants, len(model.to), model.levels, model.full), sizes)
             sims = np.asarray(rows @ model.centres.T)
             sim = np.where(labels >= 0, sims[np.arange(len(labels)), np.maximum(labels, 0)], sims.max(axis=1))
         else:

@@ -265,12 +265,15 @@ class Placement:
     #: Log-share of each copy level among each row's decks playing each card (rows x levels*cards);
     #: None: the rule reads presence alone.
     levels: np.ndarray | None = None
+    #: A full deck's copies (the partition's median deck), which shorter decks are read against as
+    #: partial lists (:func:`sitegen.analysis.card_rates.length_shares`); 0: every deck is read as full.
+    full_size: float = 0.0
 
     def rates(self):
         """The rule as :class:`sitegen.analysis.card_rates.CardRates`, to place decks by."""
         from .analysis.card_rates import CardRates
 
-        return CardRates(self.log_odds, self.constants, len(self.keys), self.levels)
+        return CardRates(self.log_odds, self.constants, len(self.keys), self.levels, self.full_size)
 
 
 @dataclass(frozen=True)

@@ -12,6 +12,7 @@ import random
 import shutil
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from sitegen.build import build
@@ -258,4 +259,49 @@ def test_hostile_paste_is_shown_as_text(demo, browser):  # noqa: F811
     assert page.evaluate("() => 1 + 1") == 2
     assert errors == [] and dialogs == []
     assert page.evaluate("() => window.__cspViolations") == []
+    page.close()
+
+
+def test_page_reads_partial_lists_as_the_command_does(demo, browser, monkeypatch):  # noqa: F811
+    # Partial lists cut from the demo's decks (whole cards dropped at random down to 22-36 copies,
+    # against full decks of 40-50): the page must place each where the command does, which places
+    # by the build's own rule (sitegen.analysis.card_rates.place, tested against scipy above).
+    from sitegen.analysis import card_rates
+    from sitegen.classify import Deck, Models, place_decks
+
+    config, site, export = demo
+    decks = _decks_by_id(config.parent)
+    season = json.loads((site / "classify" / "index.json").read_text(encoding="utf-8"))["seasons"][-1]
+    rng = random.Random(5)
+    partial: list[Deck] = []
+    for deck_id in rng.sample(sorted(d for d, v in decks.items() if v[0] == season), 160):
+        cards = dict(decks[deck_id][2])
+        target = rng.randint(22, 36)
+        for card in rng.sample(sorted(cards), len(cards)):
+            if sum(cards.values()) - cards[card] >= target:
+                del cards[card]
+        partial.append(Deck(deck_id, decks[deck_id][1], season, cards))
+    want = [p.archetype for p in place_decks(Models(site), partial, season)]
+    with monkeypatch.context() as m:  # the same lists read as full decks: the lengths must matter somewhere
+        m.setattr(card_rates, "length_shares", lambda sizes, full: np.ones(len(sizes)))
+        as_full = [p.archetype for p in place_decks(Models(site), partial, season)]
+    assert want != as_full and len(set(want) - {"other"}) >= 2
+    page = browser.new_page()
+    errors: list[str] = []
+    page.on("pageerror", lambda e: errors.append(str(e)))
+    with serve_folder(site) as base:
+        assert check_page(page, base + "classify.html") == []
+        page.select_option("#classify-season", season)
+        got: dict[int, str] = {}
+        for leader in sorted({d.leader for d in partial}):
+            mine = [i for i, d in enumerate(partial) if d.leader == leader]
+            # the first loads the leader's model (the page waits for it); the rest are placed at once
+            page.evaluate("() => document.getElementById('classify-result').removeAttribute('data-done')")
+            page.fill("#classify-text", _deck_text(leader, partial[mine[0]].cards, 0))
+            page.click("#classify-go")
+            page.wait_for_selector("#classify-result[data-done]")
+            rows = page.evaluate(_PASTE_ALL, [_deck_text(leader, partial[i].cards, i) for i in mine])
+            got.update({i: _slug_of_href(row["href"]) for i, row in zip(mine, rows)})
+    assert [got[i] for i in range(len(partial))] == want
+    assert errors == []
     page.close()

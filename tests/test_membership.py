@@ -1,6 +1,8 @@
 """The archetype rule: centres, random-deck cuts, own cards, leave-one-out scores, placement, stability."""
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 import pytest
 import scipy.sparse as sp
@@ -305,6 +307,41 @@ def test_card_rates_are_scikit_learn_bernoulli_naive_bayes():
     expected = nb.predict(present.toarray())
     np.testing.assert_array_equal(card_rates.place(present, rates), np.where(expected == 3, -1, expected))
     assert (card_rates.place(present, rates) == -1).any() and len(set(card_rates.place(present, rates))) == 4
+
+
+def test_a_partial_list_scores_its_card_rates_scaled_by_its_length():
+    # Reference: scipy.stats.bernoulli.logpmf of each card at rate f x r (f: the deck's length share,
+    # r: the group's rate), summed over the cards. The log f of each card played is the same in every
+    # row, so scores() leaves it out: the rows' differences must equal the reference's.
+    from scipy.stats import bernoulli
+
+    counts, _ = _rows(8, n=80, m=20, p=0.35)
+    labels = np.repeat([0, 1, -1], [35, 35, 10])
+    null = _rows(9, n=30, m=20, p=0.3)[0]
+    rates = card_rates.fit_rates(counts, labels, 2, null, 8.0, full_size=10.0)
+    sizes = card_rates.deck_sizes(counts)
+    share = card_rates.length_shares(sizes, 10.0)
+    assert (share < 1).any() and (share == 1).any() and rates.full_size == 10.0
+    got = card_rates.scores(counts, rates)
+    rate = 1.0 / (1.0 + np.exp(-rates.log_odds))
+    prior = rates.constants - np.log1p(-rate).sum(axis=1)
+    x = features.presence(counts).toarray()
+    want = np.array([[bernoulli.logpmf(x[d], share[d] * rate[g]).sum() + prior[g] for g in range(rate.shape[0])]
+                     for d in range(len(x))])
+    np.testing.assert_allclose(got - got[:, :1], want - want[:, :1], atol=1e-9)
+    # Steps of a twentieth, rounded down; full from 0.9 of a full deck; never below 0.3.
+    np.testing.assert_array_equal(card_rates.length_shares(np.array([10, 9, 8.9, 8, 1, 0]), 10.0),
+                                  [1.0, 1.0, 0.85, 0.8, 0.3, 0.3])
+    # Without a full length (or with every deck full) the rates are the presence rule's, unchanged.
+    plain = card_rates.fit_rates(counts, labels, 2, null, 8.0)
+    np.testing.assert_array_equal(card_rates.scores(counts, plain), card_rates.scores(counts, replace(plain, full_size=0.0)))
+    full = card_rates.fit_rates(counts, labels, 2, null, 8.0, full_size=1.0)
+    np.testing.assert_allclose(full.log_odds, plain.log_odds)
+    # A group's rate is taken over its decks' length shares: decks half as long count half.
+    half = sp.csr_matrix(np.array([[1, 0], [1, 0], [0, 1], [0, 1]], dtype=float))
+    fit = card_rates.fit_rates(half, np.array([0, 0, 0, 0]), 1, sp.csr_matrix((0, 2)), 0.0, full_size=2.0)
+    a = card_rates.RATE_SMOOTHING
+    np.testing.assert_allclose(1.0 / (1.0 + np.exp(-fit.log_odds[0])), [(2 + a) / (4 * 0.5 + 2 * a)] * 2)
 
 
 def test_a_deck_with_none_of_the_rules_cards_is_an_other_deck():

@@ -5,7 +5,9 @@ described by its rate of playing each card and, among its decks playing a
 card, the share at each copy level (1, 2, :data:`LEVELS` or more); a deck
 goes to the group under whose rates the cards it plays, the copies it plays
 them at and the cards it lacks are likeliest (a naive Bayes model). On
-presence alone this is scikit-learn's BernoulliNB (tested). The rule of
+presence alone this is scikit-learn's BernoulliNB (tested). A deck shorter
+than the partition's usual deck is read as a partial list: a card it lacks
+counts as missing in proportion to its length (:func:`length_shares`). The rule of
 :mod:`.membership` fits the rates on the groups it settles; the build stores
 them (:class:`sitegen.model.Placement`), and the classify page and command
 and the season flows place decks by :func:`place`. Nothing here needs more
@@ -13,7 +15,7 @@ than numpy and scipy.sparse, so the building process may import it.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import scipy.sparse as sp
@@ -27,6 +29,13 @@ LEVEL_SMOOTHING = 1.0
 #: Log-share of a copy level no deck of the partition plays a card at: every row holds this same
 #: value there, so such a level tells no group from another.
 LEVEL_FLOOR = -30.0
+#: A deck's length as a share of a full deck (the partition's median deck, in copies) is read in
+#: steps of 1/LENGTH_STEPS, and never below LENGTH_FLOOR: a card a short deck lacks still says a little.
+#: From LENGTH_FULL of a full deck on it is full: full decks differ by a few copies (decks of 40-50
+#: cards, 0.9 of 45, is common practice, no source), and only a list shorter than that is partial.
+LENGTH_STEPS = 20
+LENGTH_FLOOR = 0.3
+LENGTH_FULL = 0.9
 
 
 @dataclass(frozen=True)
@@ -46,6 +55,9 @@ class CardRates:
     #: level l of card j in column (l-1)*cards + j), added for the level each played card is at;
     #: None: presence alone.
     levels: np.ndarray | None = None
+    #: A full deck's length in copies (the partition's median deck), which shorter decks are read
+    #: against (:func:`length_shares`); 0: every deck is read as full.
+    full_size: float = 0.0
 
     @property
     def n_archetypes(self) -> int:
@@ -86,16 +98,47 @@ def as_levels(counts: sp.spmatrix) -> sp.csr_matrix:
     return out
 
 
-def scores(counts: sp.spmatrix, rates: CardRates) -> np.ndarray:
-    """Each deck's score under each row of ``rates`` (decks x rows): its log-likelihood plus log prior."""
-    out = np.asarray(as_presence(counts) @ rates.log_odds.T) + rates.constants
+def deck_sizes(counts: sp.spmatrix) -> np.ndarray:
+    """Each deck's copies in all (its number of cards, where only presence is held)."""
+    return np.asarray(sp.csr_matrix(counts).sum(axis=1), dtype=np.float64).ravel()
+
+
+def length_shares(sizes: np.ndarray, full_size: float) -> np.ndarray:
+    """Each deck's length as a share of a full deck of ``full_size`` copies: whole steps of
+    1/:data:`LENGTH_STEPS` of it, rounded down, between :data:`LENGTH_FLOOR` and 1, and 1 from
+    :data:`LENGTH_FULL` on (all 1 when ``full_size`` is 0). A partial list of share f plays each card a full deck of its group would
+    with probability f times the group's rate: cards dropped from a list are dropped at random."""
+    sizes = np.asarray(sizes, dtype=np.float64)
+    if full_size <= 0:
+        return np.ones(len(sizes))
+    share = np.clip(np.floor(LENGTH_STEPS * sizes / full_size) / LENGTH_STEPS, LENGTH_FLOOR, 1.0)
+    return np.where(share >= LENGTH_FULL, 1.0, share)
+
+
+def scores(counts: sp.spmatrix, rates: CardRates, sizes: np.ndarray | None = None) -> np.ndarray:
+    """Each deck's score under each row of ``rates`` (decks x rows): its log-likelihood plus log prior.
+    ``sizes``: each deck's copies in all, where ``counts`` holds only some of its cards (default:
+    the copies in ``counts``)."""
+    present = as_presence(counts)
+    out = np.asarray(present @ rates.log_odds.T) + rates.constants
+    if rates.full_size > 0 and present.shape[0]:
+        share = length_shares(deck_sizes(counts) if sizes is None else sizes, rates.full_size)
+        if (share < 1.0).any():
+            # A card rate r read at share f: playing it scores log(f r), lacking it log(1 - f r). The
+            # log f of each card played is the same in every row, so only the cards lacked gain.
+            miss = -np.logaddexp(0.0, rates.log_odds)  # log(1 - r)
+            rate = np.exp(rates.log_odds + miss)
+            for f in np.unique(share[share < 1.0]):
+                rows = np.flatnonzero(share == f)
+                gain = np.log1p(-f * rate) - miss
+                out[rows] += gain.sum(axis=1) - np.asarray(present[rows] @ gain.T)
     if rates.levels is not None:
         out += np.asarray(as_levels(counts) @ rates.levels.T)
     return out
 
 
 def fit_rates(copies: sp.csr_matrix, labels: np.ndarray, k: int, null_copies: sp.csr_matrix,
-              null_weight: float) -> CardRates:
+              null_weight: float, full_size: float = 0.0) -> CardRates:
     """Card rates of groups 0..k-1 and of the other decks (-1), as a naive Bayes model.
 
     Group i's rate of a card is (decks playing it + a) / (decks + 2a), a =
@@ -114,6 +157,12 @@ def fit_rates(copies: sp.csr_matrix, labels: np.ndarray, k: int, null_copies: sp
     that card's levels by :data:`LEVEL_SMOOTHING` decks, scores the level a
     deck plays it at. Where every deck plays every card at one copy this adds
     nothing (each share is 1).
+
+    Lengths: against a full deck of ``full_size`` copies, a deck of length
+    share f (:func:`length_shares`) counts as f of a deck in the number of
+    decks a rate is taken over, so partial lists do not pull a group's rates
+    down (at most the rate of a card every deck plays). ``full_size`` 0: every
+    deck is full, as above.
     """
     present, null_present = as_presence(copies), as_presence(null_copies)
     group = np.where(labels >= 0, labels, k)
@@ -122,14 +171,20 @@ def fit_rates(copies: sp.csr_matrix, labels: np.ndarray, k: int, null_copies: sp
     # The partition's own mix of each card's levels: its decks at each level over its decks playing it.
     mix = levels.sum(axis=0) / np.maximum(np.tile(counts.sum(axis=0), LEVELS), 1.0)
     sizes = np.bincount(group, minlength=k + 1).astype(np.float64)
+    reach = np.bincount(group, weights=length_shares(deck_sizes(copies), full_size), minlength=k + 1)
     n_null = null_present.shape[0]
+    null_reach = float(length_shares(deck_sizes(null_copies), full_size).sum())
     if n_null and null_weight > 0:
         counts[k] += null_weight / n_null * np.asarray(null_present.sum(axis=0)).ravel()
         levels[k] += null_weight / n_null * np.asarray(as_levels(null_copies).sum(axis=0)).ravel()
         sizes[k] += null_weight
-    rate = (counts + RATE_SMOOTHING) / (sizes[:, None] + 2.0 * RATE_SMOOTHING)
+        reach[k] += null_weight / n_null * null_reach
+    rate = np.minimum((counts + RATE_SMOOTHING) / (reach[:, None] + 2.0 * RATE_SMOOTHING),
+                      ((sizes + RATE_SMOOTHING) / (sizes + 2.0 * RATE_SMOOTHING))[:, None])
     if n_null:  # the other decks play no card more often than random decks do
-        random_rate = (np.asarray(null_present.sum(axis=0)).ravel() + RATE_SMOOTHING) / (n_null + 2.0 * RATE_SMOOTHING)
+        random_rate = np.minimum((np.asarray(null_present.sum(axis=0)).ravel() + RATE_SMOOTHING)
+                                 / (null_reach + 2.0 * RATE_SMOOTHING),
+                                 (n_null + RATE_SMOOTHING) / (n_null + 2.0 * RATE_SMOOTHING))
         rate[k] = np.minimum(rate[k], random_rate)
     with np.errstate(divide="ignore"):
         prior = np.log(sizes / sizes.sum())
@@ -137,23 +192,24 @@ def fit_rates(copies: sp.csr_matrix, labels: np.ndarray, k: int, null_copies: sp
     share = (levels + LEVEL_SMOOTHING * mix) / (np.tile(counts, LEVELS) + LEVEL_SMOOTHING)
     with np.errstate(divide="ignore"):
         level_log = np.where(share > 0, np.log(np.where(share > 0, share, 1.0)), LEVEL_FLOOR)
-    return CardRates(log_odds, np.log1p(-rate).sum(axis=1) + prior, None, level_log)
+    return CardRates(log_odds, np.log1p(-rate).sum(axis=1) + prior, None, level_log, float(full_size))
 
 
 def kept_rates(rates: CardRates, keep: np.ndarray) -> CardRates:
     """The rows of the archetypes kept, then every other-deck row, in order."""
     rows = np.concatenate([np.flatnonzero(keep), np.arange(len(keep), rates.log_odds.shape[0])])
-    return CardRates(rates.log_odds[rows], rates.constants[rows], int(keep.sum()),
-                     None if rates.levels is None else rates.levels[rows])
+    return replace(rates, log_odds=rates.log_odds[rows], constants=rates.constants[rows], archetypes=int(keep.sum()),
+                   levels=None if rates.levels is None else rates.levels[rows])
 
 
-def place(copies: sp.csr_matrix, rates: CardRates) -> np.ndarray:
+def place(copies: sp.csr_matrix, rates: CardRates, sizes: np.ndarray | None = None) -> np.ndarray:
     """The build's rule for any decks (copies of each of the rule's cards; 1s where copies are not
     read): the group under whose card rates the deck is likeliest, -1 for the other decks' (ties: the
-    first). A deck with none of the rule's cards is an other deck: nothing in it speaks for an archetype."""
+    first). A deck with none of the rule's cards is an other deck: nothing in it speaks for an archetype.
+    ``sizes``: each deck's copies in all, cards the rule does not know included (as :func:`scores`)."""
     n = copies.shape[0]
     k = rates.n_archetypes
     if k <= 0:
         return np.full(n, -1)
-    best = np.argmax(scores(copies, rates), axis=1)
+    best = np.argmax(scores(copies, rates, sizes), axis=1)
     return np.where((best >= k) | (np.diff(as_presence(copies).indptr) == 0), -1, best)

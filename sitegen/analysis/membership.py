@@ -67,13 +67,13 @@ rule. The measurements behind these choices are in docs/method.md.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Sequence
 
 import numpy as np
 import scipy.sparse as sp
 
-from .card_rates import CardRates, as_levels, fit_rates, group_sums, kept_rates, place, scores
+from .card_rates import CardRates, as_levels, deck_sizes, fit_rates, group_sums, kept_rates, place, scores
 from .random_decks import RandomDecks
 
 #: Share of random decks the cuts keep out, over all of a partition's centres.
@@ -382,13 +382,14 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     null = nulls(staples)
     labels = np.where(sims[np.arange(n), near] >= cuts_for(null, centres)[near], near, -1)
     null_copies = nulls.copies(staples)
+    full_size = float(np.median(deck_sizes(copies)))  # a full deck: partial lists are read against it
     for _ in range(RATE_ROUNDS):
-        labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least)
+        labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, full_size)
         dropped_small += given_up
     k = int(labels.max(initial=-1)) + 1
     own = _own_groups(decks, labels, k, smalls) if k else []
     if own:
-        labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, own)
+        labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, full_size, own)
         dropped_small += given_up
         k = int(labels.max(initial=-1)) + 1
         row = np.argmax(scores(copies, rates), axis=1)
@@ -398,7 +399,7 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
             if all(np.array_equal(now, was) for now, was in zip(drawn, own)):
                 break
             own = drawn
-            labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, own)
+            labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, full_size, own)
             dropped_small += given_up
             k = int(labels.max(initial=-1)) + 1
             row = np.argmax(scores(copies, rates), axis=1)
@@ -407,7 +408,7 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
             for step, j in enumerate(grown):
                 labels[row == k + j] = k + step
             own = [members for j, members in enumerate(own) if j not in grown]
-            labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, own)
+            labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, full_size, own)
             dropped_small += given_up
             promoted += len(grown)
             k = int(labels.max(initial=-1)) + 1
@@ -426,10 +427,11 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
                       merged, split, own_groups, own_decks, promoted)
 
 
-def _place_by_rates(copies, labels, null_copies, least, own: Sequence[np.ndarray] = ()
+def _place_by_rates(copies, labels, null_copies, least, full_size, own: Sequence[np.ndarray] = ()
                     ) -> tuple[np.ndarray, CardRates, int]:
     """One round: rates fitted on ``labels``, every deck placed by them; groups left under ``least``
-    decks given up (fewest first, one at a time) and the round placed again without them. ``own``:
+    decks given up (fewest first, one at a time) and the round placed again without them. ``full_size``:
+    a full deck's copies, which shorter decks are read against. ``own``:
     member sets of small groups of their own, each fitted as a group whose decks are other decks."""
     given_up = 0
     while True:
@@ -437,8 +439,8 @@ def _place_by_rates(copies, labels, null_copies, least, own: Sequence[np.ndarray
         fit = labels.copy()
         for j, members in enumerate(own):
             fit[members] = k + j
-        rates = fit_rates(copies, fit, k + len(own), null_copies, float(least))
-        rates = CardRates(rates.log_odds, rates.constants, k, rates.levels)
+        rates = fit_rates(copies, fit, k + len(own), null_copies, float(least), full_size)
+        rates = replace(rates, archetypes=k)
         placed = place(copies, rates)
         sizes = np.bincount(placed[placed >= 0], minlength=k)
         if k == 0 or sizes.min() >= least:

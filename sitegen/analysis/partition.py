@@ -96,7 +96,8 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
                           log_odds=np.ascontiguousarray(found.rates.log_odds[rows_kept]),
                           constants=np.asarray(found.rates.constants[rows_kept], dtype=np.float64), mean=_mean(weights),
                           levels=(None if found.rates.levels is None
-                                  else np.ascontiguousarray(found.rates.levels[rows_kept])))
+                                  else np.ascontiguousarray(found.rates.levels[rows_kept])),
+                          full_size=found.rates.full_size)
     archetypes = _unique_slugs(archetypes, other)
     if other is not None:
         archetypes, other = archetypes[:-1], archetypes[-1]

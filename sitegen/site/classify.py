@@ -14,7 +14,10 @@ log-odds per card, only those off the group's ``floor``, and a constant
 ``b``; ``levels``: its log-shares of copy levels where they differ from the
 model's ``levels``, the value most rows share), the other decks' card rates
 (``other_rates``: small groups of their own given up, then all other decks),
-and which published
+how deck lengths are read (``length``: a full deck's copies, ``full``, which
+shorter decks are read against as partial lists in ``steps`` down to
+``floor``, from ``whole`` of it on as full, as :func:`sitegen.analysis.card_rates.length_shares`; full 0:
+every deck is read as full), and which published
 group each centre's decks are shown in (after season linking and the notes'
 merge_into and hide, exactly as the assignments export labels them). For each
 group: its page slug, name and address, its spread (median and 90th percentile
@@ -30,12 +33,12 @@ from typing import Any, Sequence
 import numpy as np
 import pandas as pd
 
-from ..analysis.card_rates import LEVEL_FLOOR, LEVELS
+from ..analysis.card_rates import LENGTH_FLOOR, LENGTH_FULL, LENGTH_STEPS, LEVEL_FLOOR, LEVELS
 from ..model import ALL_LEADERS, OTHER_KEY, CardLine, PartitionResult
 from . import pages as P
 
 #: Version of the model file layout; the command line refuses others.
-MODEL_FORMAT = 3
+MODEL_FORMAT = 4
 #: The window global model scripts register in.
 MODEL_GLOBAL = "SITEGEN_CLASSIFY"
 #: Significant digits of centre weights: enough that every distance (4 decimals) of the demo's decks comes out
@@ -178,6 +181,8 @@ def model_of(site, r: PartitionResult, keys_to: dict[str, str] | None, data, rar
             doc["centres"].append({"key": key, "to": to, "hidden": to < 0, "rates": rates_of(i),
                                    **_sparse(np.asarray(centre, dtype=np.float64))})
         doc["other_rates"] = [rates_of(i) for i in range(len(placement.keys), placement.log_odds.shape[0])]
+        doc["length"] = {"full": float(placement.full_size), "steps": LENGTH_STEPS, "floor": LENGTH_FLOOR,
+                         "whole": LENGTH_FULL}
     else:
         found = _mean_direction(data, r)
         cards = found[0] if found else []

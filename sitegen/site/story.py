@@ -91,19 +91,24 @@ def place_decks(cards: pd.DataFrame, deck_ids: list[str], rule) -> np.ndarray:
     row_of = {d: i for i, d in enumerate(deck_ids)}
     col_of = {c: j for j, c in enumerate(rule.cards)}
     ids = cards["deck_id"].astype(str)
-    keep = ids.isin(row_of).to_numpy() & cards["card"].astype(str).isin(col_of).to_numpy()
+    mine = ids.isin(row_of).to_numpy()
+    keep = mine & cards["card"].astype(str).isin(col_of).to_numpy()
+    qty_all = (cards["quantity"].to_numpy(dtype=np.float64) if "quantity" in cards.columns
+               else np.ones(len(cards)))
+    # Each deck's copies in all, cards the rule does not know included: a short list reads as partial.
+    sizes = np.bincount(ids[mine].map(row_of).to_numpy(dtype=np.int64), weights=qty_all[mine],
+                        minlength=len(deck_ids))
     rows = ids[keep].map(row_of).to_numpy(dtype=np.int64)
     cols = cards["card"].astype(str)[keep].map(col_of).to_numpy(dtype=np.int64)
-    qty = (cards["quantity"][keep].to_numpy(dtype=np.float64) if "quantity" in cards.columns
-           else np.ones(len(rows)))
-    copies = sp.csr_matrix((qty, (rows, cols)), shape=(len(deck_ids), len(rule.cards)))
-    return place_rows(copies, tuple(rule.cards), rule)
+    copies = sp.csr_matrix((qty_all[keep], (rows, cols)), shape=(len(deck_ids), len(rule.cards)))
+    return place_rows(copies, tuple(rule.cards), rule, sizes)
 
 
-def place_rows(copies: sp.csr_matrix, cards: tuple[str, ...], rule) -> np.ndarray:
+def place_rows(copies: sp.csr_matrix, cards: tuple[str, ...], rule, sizes: np.ndarray | None = None) -> np.ndarray:
     """As :func:`place_decks`, for decks given as copies of each card over ``cards`` (repeated
-    entries add up), placed by the rule's own arithmetic (:func:`sitegen.analysis.card_rates.place`)."""
-    from ..analysis.card_rates import place
+    entries add up), placed by the rule's own arithmetic (:func:`sitegen.analysis.card_rates.place`).
+    ``sizes``: each deck's copies in all (default: its copies over ``cards``)."""
+    from ..analysis.card_rates import deck_sizes, place
 
     n = copies.shape[0]
     if rule is None or len(rule.keys) == 0 or n == 0:
@@ -115,7 +120,7 @@ def place_rows(copies: sp.csr_matrix, cards: tuple[str, ...], rule) -> np.ndarra
     cols = to[coo.col[keep]]
     m = sp.csr_matrix((coo.data[keep].astype(np.float64), (coo.row[keep], cols)), shape=(n, len(rule.cards)))
     m.sum_duplicates()
-    return place(m, rule.rates())
+    return place(m, rule.rates(), deck_sizes(copies) if sizes is None else sizes)
 
 
 def flows(before: PartitionResult, after: PartitionResult, cards: pd.DataFrame) -> dict[str, dict[str, float]]:

@@ -202,10 +202,28 @@
     }
     var sims = look.dense.map(sim);
     var nCards = model.cards.length;
+    /* a list shorter than the season's usual deck is read as a partial list: each card it lacks
+       counts as missing in proportion to its length (the build's card_rates.length_shares) */
+    var share = 1;
+    if (model.length && model.length.full > 0) {
+      var total = 0;
+      deck.cards.forEach(function (c) { total += c.qty; });
+      share = Math.min(Math.max(Math.floor(model.length.steps * total / model.length.full) / model.length.steps,
+                                model.length.floor), 1);
+      if (share >= model.length.whole) { share = 1; }
+    }
+    function softplus(x) { return x > 0 ? x + Math.log1p(Math.exp(-x)) : Math.log1p(Math.exp(x)); }
     var scores = look.rates.map(function (r) {
       var s = 0;
       for (var q = 0; q < present.length; q++) { s += r.w[present[q]]; }
       s += r.b;
+      if (share < 1) {  /* a card rate p read at this share: lacking the card scores log(1 - share p) */
+        var gain = function (w) { var miss = -softplus(w); return Math.log1p(-share * Math.exp(w + miss)) - miss; };
+        var all = 0;
+        for (var j = 0; j < nCards; j++) { all += gain(r.w[j]); }
+        for (var g = 0; g < present.length; g++) { all -= gain(r.w[present[g]]); }
+        s += all;
+      }
       for (var e = 0; e < present.length; e++) {  /* the level each card is at: 1 copy, 2 copies ... count or more */
         var level = Math.min(Math.max(Math.round(copies.get(present[e])), 1), model.levels.count);
         s += r.lv[(level - 1) * nCards + present[e]];
