@@ -2,6 +2,7 @@
 
     python bench/stress.py --grid small        # a few small partitions (what the tests run)
     python bench/stress.py --grid dev          # the development settings
+    python bench/stress.py --grid draw         # development draws: drawn like the evaluation grid, other seeds
     python bench/stress.py --grid eval         # the evaluation grid: never used to tune the method
     python bench/stress.py --grid eval --list  # print the grid's settings and stop
     python bench/stress.py --grid eval --identity  # identity across planted seasons (pages, names)
@@ -35,8 +36,9 @@ Metrics (defined here once, used by the benchmark and the tests):
 * signature: share of found archetypes whose top 3 signature cards are all
   core cards of the planted archetype that holds most of its decks.
 
-The settings are split once: :data:`DEV_GRID` is for developing the method,
-:func:`eval_grid` (and its small version) only for measuring it.
+The settings are split once: :data:`DEV_GRID` and :func:`draw_grid` (settings
+drawn the evaluation grid's way from development seeds) are for developing the
+method, :func:`eval_grid` (and its small version) only for measuring it.
 """
 from __future__ import annotations
 
@@ -1134,13 +1136,31 @@ def eval_grid(small: bool = False) -> tuple[Cell, ...]:
                  for i in range(EVAL_CELLS))
 
 
+#: Development draws: (seed, partition size) of each set of DRAW_CELLS settings drawn the evaluation
+#: grid's way (:func:`_draw_settings`), one partition each; none of their seeds is an evaluation seed.
+DRAW_SETS = ((9100, 300), (9200, 300), (9300, 300), (9400, 1000), (9500, 2500), (9600, 500))
+DRAW_CELLS = 16
+
+
+def draw_grid() -> tuple[Cell, ...]:
+    """The development draws: settings of the evaluation grid's kind (so the method can be tuned on
+    data like it) from development seeds, named ``draw-<seed>-<i>``."""
+    out = []
+    for seed, size in DRAW_SETS:
+        rng = np.random.default_rng(seed)
+        out.extend(Cell(f"draw-{seed}-{j:02d}", _draw_settings(rng, (size,), 20000 + seed + j)) for j in range(DRAW_CELLS))
+    return tuple(out)
+
+
 def grid(name: str) -> tuple[Cell, ...]:
-    """A grid by name: ``dev``, ``eval`` or ``small``."""
+    """A grid by name: ``dev``, ``draw``, ``eval`` or ``small``."""
     if name == "dev":
         return DEV_GRID
+    if name == "draw":
+        return draw_grid()
     if name in ("eval", "small"):
         return eval_grid(small=name == "small")
-    raise ValueError(f"grid must be dev, eval or small, got {name!r}")
+    raise ValueError(f"grid must be dev, draw, eval or small, got {name!r}")
 
 
 # ---------------------------------------------------------------- table
@@ -1237,7 +1257,7 @@ def format_partitions(scores: Sequence[CellScore]) -> str:
 
 def main(argv: Sequence[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description="Archetype quality on the planted stress grid.")
-    ap.add_argument("--grid", choices=("small", "dev", "eval"), default="small")
+    ap.add_argument("--grid", choices=("small", "dev", "draw", "eval"), default="small")
     ap.add_argument("--list", action="store_true", help="print the grid's settings and stop")
     ap.add_argument("--processes", type=int, default=2, help="worker processes (default 2)")
     ap.add_argument("--partitions", action="store_true", help="also print one row per partition")
