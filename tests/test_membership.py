@@ -141,6 +141,26 @@ def test_a_cut_needs_its_pair_to_pass_fishers_test_and_a_variant_does():
     assert membership.distinct(present, variant, parent, strict=True, p_max=membership.SPLIT_P)
 
 
+def test_a_small_variant_inside_a_group_is_cut_out_by_its_own_card():
+    # Planted: 90 decks of a parent (core cards 0-5) and 10 of a variant that keeps cards 0-3, drops
+    # 4-5 and plays its own cards 6-7; both play flex cards 8-13 independently at 40%. The variant's
+    # own card cuts it out; the parent alone, cut along any flex card, gives nothing.
+    rng = np.random.default_rng(3)
+    n_parent, n_variant = 90, 10
+    dense = np.zeros((n_parent + n_variant, 14))
+    dense[:, :4] = rng.random((n_parent + n_variant, 4)) < 0.9
+    dense[:n_parent, 4:6] = rng.random((n_parent, 2)) < 0.9
+    dense[n_parent:, 6:8] = rng.random((n_variant, 2)) < 0.9
+    dense[:, 8:] = rng.random((n_parent + n_variant, 6)) < 0.4
+    decks = membership.DeckCards.of(sp.csr_matrix(dense))
+    everyone = np.arange(n_parent + n_variant)
+    own = membership._card_cut(decks, everyone, 6, seed=0)
+    assert own is not None
+    variant = set(range(n_parent, n_parent + n_variant))
+    assert len(set(own.tolist()) & variant) >= 0.8 * len(own) and len(set(own.tolist()) & variant) >= 7
+    assert membership._card_cut(decks, np.arange(n_parent), 6, seed=0) is None
+
+
 def test_yules_q_of_the_exclusion_check_matches_statsmodels():
     # Two own cards that never meet: Yule's Q is -1 (statsmodels' odds ratio is 0 there).
     present = sp.csr_matrix(np.array([[1, 0]] * 10 + [[0, 1]] * 10 + [[0, 0]] * 5, dtype=float))

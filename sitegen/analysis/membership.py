@@ -481,9 +481,11 @@ def _join_closest(weights: sp.csr_matrix, labels: np.ndarray) -> np.ndarray:
 
 
 def _split_one(decks: DeckCards, rows, labels, least, seed, tried) -> np.ndarray | None:
-    """Labels with one group cut in two, or None: the first group (largest first) whose 2-way k-means
-    cut (on the reduced ``rows``) leaves two pieces of at least ``least`` decks that are two archetypes
-    (:meth:`DeckCards.apart`, with the pair's Fisher test under :data:`SPLIT_P`). ``tried`` remembers groups already looked at, so none is tried twice."""
+    """Labels with one group cut in two, or None: the first group (largest first) with a cut into two
+    pieces of at least ``least`` decks that are two archetypes (:meth:`DeckCards.apart`, with the
+    pair's Fisher test under :data:`SPLIT_P`): its 2-way k-means cut (on the reduced ``rows``), or
+    else the cut between the decks playing one card and the rest (:func:`_card_cut`). ``tried``
+    remembers groups already looked at, so none is tried twice."""
     from sklearn.cluster import KMeans
 
     from .cluster import distinct_rows, sample_rows
@@ -497,17 +499,50 @@ def _split_one(decks: DeckCards, rows, labels, least, seed, tried) -> np.ndarray
             continue
         tried.add(key)
         fit = members[sample_rows(len(members), 5000, seed)]
-        if distinct_rows(rows[fit]) < 2:
-            continue
-        km = KMeans(n_clusters=2, n_init=4, random_state=seed, algorithm="lloyd").fit(rows[fit])
-        scores = rows[members] @ km.cluster_centers_.T * -2.0 + (km.cluster_centers_ ** 2).sum(axis=1)
-        piece = np.argmin(scores, axis=1)
-        if min(np.bincount(piece, minlength=2)) < least:
-            continue
         cut = labels.copy()
-        cut[members[piece == 1]] = k
-        if decks.apart(members[piece == 0], members[piece == 1], p_max=SPLIT_P):
+        if distinct_rows(rows[fit]) >= 2:
+            km = KMeans(n_clusters=2, n_init=4, random_state=seed, algorithm="lloyd").fit(rows[fit])
+            scores = rows[members] @ km.cluster_centers_.T * -2.0 + (km.cluster_centers_ ** 2).sum(axis=1)
+            piece = np.argmin(scores, axis=1)
+            if (min(np.bincount(piece, minlength=2)) >= least
+                    and decks.apart(members[piece == 0], members[piece == 1], p_max=SPLIT_P)):
+                cut[members[piece == 1]] = k
+                return cut
+        own = _card_cut(decks, members, least, seed)
+        if own is not None:
+            cut[own] = k
             return cut
+    return None
+
+
+def _card_cut(decks: DeckCards, members: np.ndarray, least: int, seed: int) -> np.ndarray | None:
+    """The decks of ``members`` that play one card, when they and the rest are two archetypes; else
+    None. A variant of a few percent inside a large group is a cut k-means passes by (its best 2-way
+    cut halves the group); its own card finds it. Tried: the :data:`OWN_TRIED` cards played by at
+    least ``least`` decks and at most half the group whose players most lack a card the rest mostly
+    plays (a card of the rest's own), ranked on up to 5 000 of the group's decks; each cut is held to
+    :meth:`DeckCards.apart` with the pair's Fisher test under :data:`SPLIT_P` / :data:`OWN_TRIED`
+    (Bonferroni over the cards tried)."""
+    from .cluster import sample_rows
+
+    n = len(members)
+    played = np.asarray(decks.present[members].sum(axis=0)).ravel()
+    tried = np.flatnonzero((played >= least) & (played <= n / 2) & (n - played >= least))
+    if len(tried) == 0:
+        return None
+    look = decks.present[members[sample_rows(n, 5000, seed)]]
+    seen = np.asarray(look.sum(axis=0)).ravel()
+    both = np.asarray((look[:, tried].T @ look).todense())  # tried x cards: decks playing the two
+    with np.errstate(invalid="ignore", divide="ignore"):
+        with_it = both / seen[tried][:, None]
+        without = (seen[None, :] - both) / (look.shape[0] - seen[tried])[:, None]
+    gap = np.nan_to_num(np.where(without >= OWN_IN, without - with_it, -1.0), nan=-1.0).max(axis=1)
+    for j in np.argsort(-gap, kind="stable")[:OWN_TRIED]:
+        if gap[j] <= 0:
+            break
+        plays = decks.by_card[:, tried[j]].toarray().ravel()[members] > 0
+        if decks.apart(members[plays], members[~plays], p_max=SPLIT_P / OWN_TRIED):
+            return members[plays]
     return None
 
 
