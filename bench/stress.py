@@ -1148,7 +1148,8 @@ def draw_grid() -> tuple[Cell, ...]:
     out = []
     for seed, size in DRAW_SETS:
         rng = np.random.default_rng(seed)
-        out.extend(Cell(f"draw-{seed}-{j:02d}", _draw_settings(rng, (size,), 20000 + seed + j)) for j in range(DRAW_CELLS))
+        out.extend(Cell(f"draw-{seed}-{j:02d}", _draw_settings(rng, (size,), 20000 + seed + j))
+                   for j in range(DRAW_CELLS))
     return tuple(out)
 
 

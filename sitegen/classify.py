@@ -223,7 +223,8 @@ def place_decks(models: Models, decks: Sequence[Deck], season_opt: str | None) -
         names = [(g["slug"], g["name"]) for g in doc["groups"]]
         if len(model.to):
             sizes = np.asarray([sum(int(q) for q in decks[i].cards.values()) for i in members], dtype=np.float64)
-            labels = place(held, CardRates(model.log_odds, model.constants, len(model.to), model.levels, model.full), sizes)
+            rule = CardRates(model.log_odds, model.constants, len(model.to), model.levels, model.full)
+            labels = place(held, rule, sizes)
             sims = np.asarray(rows @ model.centres.T)
             sim = np.where(labels >= 0, sims[np.arange(len(labels)), np.maximum(labels, 0)], sims.max(axis=1))
         else:

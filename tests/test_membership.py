@@ -354,7 +354,8 @@ def test_a_partial_list_scores_its_card_rates_scaled_by_its_length():
                                   [1.0, 1.0, 0.85, 0.8, 0.3, 0.3])
     # Without a full length (or with every deck full) the rates are the presence rule's, unchanged.
     plain = card_rates.fit_rates(counts, labels, 2, null, 8.0)
-    np.testing.assert_array_equal(card_rates.scores(counts, plain), card_rates.scores(counts, replace(plain, full_size=0.0)))
+    np.testing.assert_array_equal(card_rates.scores(counts, plain),
+                                  card_rates.scores(counts, replace(plain, full_size=0.0)))
     full = card_rates.fit_rates(counts, labels, 2, null, 8.0, full_size=1.0)
     np.testing.assert_allclose(full.log_odds, plain.log_odds)
     # A group's rate is taken over its decks' length shares: decks half as long count half.

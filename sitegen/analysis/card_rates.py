@@ -106,8 +106,9 @@ def deck_sizes(counts: sp.spmatrix) -> np.ndarray:
 def length_shares(sizes: np.ndarray, full_size: float) -> np.ndarray:
     """Each deck's length as a share of a full deck of ``full_size`` copies: whole steps of
     1/:data:`LENGTH_STEPS` of it, rounded down, between :data:`LENGTH_FLOOR` and 1, and 1 from
-    :data:`LENGTH_FULL` on (all 1 when ``full_size`` is 0). A partial list of share f plays each card a full deck of its group would
-    with probability f times the group's rate: cards dropped from a list are dropped at random."""
+    :data:`LENGTH_FULL` on (all 1 when ``full_size`` is 0). A partial list of share f plays each card
+    a full deck of its group would with probability f times the group's rate: cards dropped from a
+    list are dropped at random."""
     sizes = np.asarray(sizes, dtype=np.float64)
     if full_size <= 0:
         return np.ones(len(sizes))

@@ -205,9 +205,9 @@
     /* a list shorter than the season's usual deck is read as a partial list: each card it lacks
        counts as missing in proportion to its length (the build's card_rates.length_shares) */
     var share = 1;
+    var total = 0;
+    deck.cards.forEach(function (c) { total += c.qty; });
     if (model.length && model.length.full > 0) {
-      var total = 0;
-      deck.cards.forEach(function (c) { total += c.qty; });
       share = Math.min(Math.max(Math.floor(model.length.steps * total / model.length.full) / model.length.steps,
                                 model.length.floor), 1);
       if (share >= model.length.whole) { share = 1; }
@@ -239,7 +239,7 @@
       for (var k = 0; k < sims.length; k++) { if (best < 0 || sims[k] > sims[best]) { best = k; } }
     }
     var res = { copies: copies, present: present, unknown: unknown, renamed: renamed, sims: sims, best: best,
-                group: -1, why: "", distance: null };
+                group: -1, why: "", distance: null, share: share, total: total };
     var nearest;
     if (best >= 0) {
       var centre = model.centres[best];
@@ -396,6 +396,11 @@
     if (compare >= 0) { differences(out, model, look, res, compare, deck); }
     var notes = extra.concat(deck.notes);
     res.renamed.forEach(function (r) { notes.push("Read '" + shortText(r[0]) + "' as '" + r[1] + "'."); });
+    if (res.share < 1) {
+      notes.push("This list holds " + res.total + " cards, under " + Math.round(model.length.whole * 100) + "% of the " +
+        model.length.full + " of a usual deck of " + leaderName + " in " + season + ": it is read as a partial list " +
+        "(about " + Math.round(res.share * 100) + "% of a deck), so each card it lacks counts for less.");
+    }
     list(out, "Notes", notes);
     list(out, "Cards not known among " + leaderName + "'s decks of " + season + " (left out of the placement)",
       res.unknown.map(shortText));
