@@ -266,3 +266,10 @@ def test_demo_two_runs_identical(demo):
         pd.testing.assert_frame_equal(again.map_points, results[i].map_points)
         assert again.archetypes == results[i].archetypes and again.other == results[i].other
         assert again.silhouette == results[i].silhouette and again.k_reason == results[i].k_reason
+
+
+def test_shares_in_the_reason_never_read_zero_for_some_decks():
+    from sitegen.analysis.partition import _share
+
+    assert _share(4, 1045) == "under 1%" and _share(5, 1000) == "under 1%" and _share(6, 1000) == "1%"
+    assert _share(0, 10) == "0%" and _share(5, 40) == "12%" and _share(40, 40) == "100%"

@@ -33,7 +33,7 @@ def test_how_many_agrees_with_the_table_below(demo_site):
             words = " ".join(_text(p) for p in section.iter("p"))
             said = re.search(r"(\d+) archetypes?\b", words)
             assert said and int(said.group(1)) == archetypes, (page, said and said.group(0), archetypes)
-            fit_none = re.search(r"([\d,]+) decks? of [\d,]+ \(\d+%\) fit no archetype", words)
+            fit_none = re.search(r"([\d,]+) decks? of [\d,]+ \((?:\d+%|under 1%)\) fit no archetype", words)
             if others:
                 other_decks = int(_text(others[0].findall("td")[1]).strip())
                 assert fit_none and int(fit_none.group(1).replace(",", "")) == other_decks, (page, other_decks)

@@ -7,7 +7,6 @@ this project are named beside each check.
 """
 from __future__ import annotations
 
-import os
 import re
 import subprocess
 import sys

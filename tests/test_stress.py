@@ -423,3 +423,22 @@ def test_a_small_group_of_its_own_that_draws_enough_decks_is_an_archetype():
     assert keys[np.argmax(counts)] != "other" and counts.max() >= 0.85 * len(mine)
     assert score.k_found == score.k_planted == 3
     assert "drew at least" in result.k_reason
+
+
+def test_the_season_reason_counts_the_partial_lists():
+    # Planted truth (development settings, 25% partial lists of 25-39 cards against full decks of 40-50):
+    # the reason counts the decks under 90% of the median deck, counted here with pandas: planted partial
+    # lists all, but those of 39 cards when a quarter of short lists pulls the median down to 43.
+    import re
+
+    planted = stress.planted_partition(stress.DEV_GRID[3].settings, 300)
+    assert planted.settings.partial_share >= 0.2
+    result, _ = stress.run_partition(planted)
+    found = re.search(r"(\d+) decks of 300 \(\d+%\) are shorter than 90% of this partition's usual deck of "
+                      r"([\d.]+) cards and were read as partial lists", result.k_reason)
+    assert found is not None, result.k_reason
+    sizes = planted.part.cards.groupby("deck_id")["quantity"].sum()
+    assert float(found[2]) == sizes.median()
+    short = set(sizes.index[sizes < 0.9 * sizes.median()])
+    assert int(found[1]) == len(short) and short <= planted.partial
+    assert len(short) >= 0.85 * len(planted.partial) > 0

@@ -90,7 +90,8 @@ def _analyse(part: PartitionInput, params: AnalysisParams) -> PartitionResult:
     if len(rest):
         keys[rest] = OTHER_KEY
         other = ctx.group(OTHER_KEY, rest, is_other=True)
-    reason = _k_reason(found, k, len(rest), n, least, params, params.pinned(part.season, part.leader))
+    reason = _k_reason(found, k, len(rest), n, least, params, params.pinned(part.season, part.leader),
+                       _partial_lists(counts, found.rates.full_size) if k else 0)
     placement = Placement(cards=tuple(cards), idf=idf, keys=tuple(f"a{i}" for i in range(1, k + 1)),
                           centres=np.ascontiguousarray(centres),
                           log_odds=np.ascontiguousarray(found.rates.log_odds[rows_kept]),
@@ -230,9 +231,17 @@ def _stability(rows, present, weights, idf, nulls, labels, part, params, copies)
     return stability.stability(labels, rerun, seed=params.seed)
 
 
+def _partial_lists(counts, full_size: float) -> int:
+    """Decks read as partial lists by the card rates (shorter than LENGTH_FULL of a full deck)."""
+    from .card_rates import deck_sizes, length_shares
+
+    return int((length_shares(deck_sizes(counts), full_size) < 1.0).sum())
+
+
 def _k_reason(found: membership.Membership, k: int, n_other: int, n: int, least: int, params,
-              pinned: int | None) -> str:
-    """How the number of archetypes came about, in plain words with the numbers of this partition."""
+              pinned: int | None, partial: int = 0) -> str:
+    """How the number of archetypes came about, in plain words with the numbers of this partition;
+    ``partial``: decks read as partial lists."""
     if pinned is not None:
         words = [f"k-means with the {pinned} groups pinned in the settings (analysis.pinned_k); "
                  f"{_count(k, 'archetype')} kept"]
@@ -256,7 +265,7 @@ def _k_reason(found: membership.Membership, k: int, n_other: int, n: int, least:
                      f"{'was' if found.dropped_loose == 1 else 'were'} given up")
     text = "; ".join(words) + "."
     if n_other:
-        text += (f" {_count(n_other, 'deck')} of {n:,} ({n_other / n:.0%}) fit no archetype: the cards each plays "
+        text += (f" {_count(n_other, 'deck')} of {n:,} ({_share(n_other, n)}) fit no archetype: the cards each plays "
                  f"(and at how many copies) and lacks are likelier among the other decks and random decks of "
                  f"this partition than in any archetype")
         if found.dropped_small or found.dropped_loose:
@@ -266,6 +275,13 @@ def _k_reason(found: membership.Membership, k: int, n_other: int, n: int, least:
                      f"in {_count(found.own_groups, 'small group')} with cards of {'its' if found.own_groups == 1 else 'their'} "
                      f"own, too few decks for an archetype")
         text += "."
+    if partial:
+        from .card_rates import LENGTH_FULL
+
+        text += (f" {_count(partial, 'deck')} of {n:,} ({_share(partial, n)}) {'is' if partial == 1 else 'are'} shorter than "
+                 f"{LENGTH_FULL:.0%} of this partition's usual deck of {found.rates.full_size:g} cards and "
+                 f"{'was' if partial == 1 else 'were'} read as partial lists: each card such a list lacks "
+                 f"counted for less.")
     return text
 
 
@@ -276,6 +292,12 @@ def _mean(weights) -> np.ndarray | None:
     centre = np.asarray(weights.mean(axis=0)).ravel()
     norm = np.linalg.norm(centre)
     return centre / norm if norm > 0 else None
+
+
+def _share(part: int, n: int) -> str:
+    """``part`` of ``n`` as a whole percentage, "under 1%" where that would read 0%."""
+    text = f"{part / n:.0%}"
+    return "under 1%" if part and text == "0%" else text
 
 
 def _count(n: int, word: str) -> str:
