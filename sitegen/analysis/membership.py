@@ -533,10 +533,9 @@ def _card_cut(decks: DeckCards, members: np.ndarray, least: int, seed: int) -> n
     look = decks.present[members[sample_rows(n, 5000, seed)]]
     seen = np.asarray(look.sum(axis=0)).ravel()
     both = np.asarray((look[:, tried].T @ look).todense())  # tried x cards: decks playing the two
-    with np.errstate(invalid="ignore", divide="ignore"):
-        with_it = both / seen[tried][:, None]
-        without = (seen[None, :] - both) / (look.shape[0] - seen[tried])[:, None]
-    gap = np.nan_to_num(np.where(without >= OWN_IN, without - with_it, -1.0), nan=-1.0).max(axis=1)
+    with_it = both / np.maximum(seen[tried], 1.0)[:, None]
+    without = (seen[None, :] - both) / np.maximum(look.shape[0] - seen[tried], 1.0)[:, None]
+    gap = np.where(without >= OWN_IN, without - with_it, -1.0).max(axis=1)
     for j in np.argsort(-gap, kind="stable")[:OWN_TRIED]:
         if gap[j] <= 0:
             break
