@@ -535,9 +535,11 @@ def _card_cut(decks: DeckCards, members: np.ndarray, least: int, seed: int) -> n
     both = np.asarray((look[:, tried].T @ look).todense())  # tried x cards: decks playing the two
     with_it = both / np.maximum(seen[tried], 1.0)[:, None]
     without = (seen[None, :] - both) / np.maximum(look.shape[0] - seen[tried], 1.0)[:, None]
-    gap = np.where(without >= OWN_IN, without - with_it, -1.0).max(axis=1)
+    # Only a card whose players lack a card of the rest's own (OWN_IN of the rest, OWN_OUT of them at
+    # most) can pass the test: the others are not tried.
+    gap = np.where((without >= OWN_IN) & (with_it <= OWN_OUT), without - with_it, -1.0).max(axis=1)
     for j in np.argsort(-gap, kind="stable")[:OWN_TRIED]:
-        if gap[j] <= 0:
+        if gap[j] < 0:
             break
         plays = decks.by_card[:, tried[j]].toarray().ravel()[members] > 0
         if decks.apart(members[plays], members[~plays], p_max=SPLIT_P / OWN_TRIED):
