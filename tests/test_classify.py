@@ -300,7 +300,9 @@ def test_page_reads_partial_lists_as_the_command_does(demo, browser, monkeypatch
             page.fill("#classify-text", _deck_text(leader, partial[mine[0]].cards, 0))
             page.click("#classify-go")
             page.wait_for_selector("#classify-result[data-done]")
-            assert "it is read as a partial list" in page.locator("#classify-result").text_content()
+            said = page.locator("#classify-result").text_content()
+            total = sum(partial[mine[0]].cards.values())
+            assert f"This list holds {total} cards, under 90% of the" in said and "it is read as a partial list" in said
             rows = page.evaluate(_PASTE_ALL, [_deck_text(leader, partial[i].cards, i) for i in mine])
             got.update({i: _slug_of_href(row["href"]) for i, row in zip(mine, rows)})
     assert [got[i] for i in range(len(partial))] == want

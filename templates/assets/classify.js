@@ -398,7 +398,7 @@
     res.renamed.forEach(function (r) { notes.push("Read '" + shortText(r[0]) + "' as '" + r[1] + "'."); });
     if (res.share < 1) {
       notes.push("This list holds " + res.total + " cards, under " + Math.round(model.length.whole * 100) + "% of the " +
-        model.length.full + " of a usual deck of " + leaderName + " in " + season + ": it is read as a partial list " +
+        model.length.full + " cards of a usual deck of " + leaderName + " in " + season + ": it is read as a partial list " +
         "(about " + Math.round(res.share * 100) + "% of a deck), so each card it lacks counts for less.");
     }
     list(out, "Notes", notes);
