@@ -3,6 +3,7 @@
     python bench/stress.py --grid small        # a few small partitions (what the tests run)
     python bench/stress.py --grid dev          # the development settings
     python bench/stress.py --grid draw         # development draws: drawn like the evaluation grid, other seeds
+    python bench/stress.py --grid draw2        # later development draws, drawn the same way
     python bench/stress.py --grid eval         # the evaluation grid: never used to tune the method
     python bench/stress.py --grid eval --list  # print the grid's settings and stop
     python bench/stress.py --grid eval --identity  # identity across planted seasons (pages, names)
@@ -1140,13 +1141,16 @@ def eval_grid(small: bool = False) -> tuple[Cell, ...]:
 #: grid's way (:func:`_draw_settings`), one partition each; none of their seeds is an evaluation seed.
 DRAW_SETS = ((9100, 300), (9200, 300), (9300, 300), (9400, 1000), (9500, 2500), (9600, 500))
 DRAW_CELLS = 16
+#: Later development draws, the same way (``--grid draw2``): each set was first looked at to check a
+#: step chosen on the sets before it (docs/method.md, runs 15-17).
+LATER_DRAW_SETS = ((9700, 300), (9800, 600), (9900, 1200), (9750, 400), (9910, 300), (9920, 300), (9930, 300))
 
 
-def draw_grid() -> tuple[Cell, ...]:
+def draw_grid(sets: Sequence[tuple[int, int]] = DRAW_SETS) -> tuple[Cell, ...]:
     """The development draws: settings of the evaluation grid's kind (so the method can be tuned on
     data like it) from development seeds, named ``draw-<seed>-<i>``."""
     out = []
-    for seed, size in DRAW_SETS:
+    for seed, size in sets:
         rng = np.random.default_rng(seed)
         out.extend(Cell(f"draw-{seed}-{j:02d}", _draw_settings(rng, (size,), 20000 + seed + j))
                    for j in range(DRAW_CELLS))
@@ -1159,9 +1163,11 @@ def grid(name: str) -> tuple[Cell, ...]:
         return DEV_GRID
     if name == "draw":
         return draw_grid()
+    if name == "draw2":
+        return draw_grid(LATER_DRAW_SETS)
     if name in ("eval", "small"):
         return eval_grid(small=name == "small")
-    raise ValueError(f"grid must be dev, draw, eval or small, got {name!r}")
+    raise ValueError(f"grid must be dev, draw, draw2, eval or small, got {name!r}")
 
 
 # ---------------------------------------------------------------- table
@@ -1258,7 +1264,7 @@ def format_partitions(scores: Sequence[CellScore]) -> str:
 
 def main(argv: Sequence[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description="Archetype quality on the planted stress grid.")
-    ap.add_argument("--grid", choices=("small", "dev", "draw", "eval"), default="small")
+    ap.add_argument("--grid", choices=("small", "dev", "draw", "draw2", "eval"), default="small")
     ap.add_argument("--list", action="store_true", help="print the grid's settings and stop")
     ap.add_argument("--processes", type=int, default=2, help="worker processes (default 2)")
     ap.add_argument("--partitions", action="store_true", help="also print one row per partition")
