@@ -203,14 +203,21 @@ def kept_rates(rates: CardRates, keep: np.ndarray) -> CardRates:
                    levels=None if rates.levels is None else rates.levels[rows])
 
 
-def place(copies: sp.csr_matrix, rates: CardRates, sizes: np.ndarray | None = None) -> np.ndarray:
+def likeliest(copies: sp.spmatrix, rates: CardRates, sizes: np.ndarray | None = None) -> np.ndarray:
+    """Each deck's likeliest row of ``rates``, the other decks' rows included (ties: the first)."""
+    return np.argmax(scores(copies, rates, sizes), axis=1)
+
+
+def place(copies: sp.csr_matrix, rates: CardRates, sizes: np.ndarray | None = None,
+          row: np.ndarray | None = None) -> np.ndarray:
     """The build's rule for any decks (copies of each of the rule's cards; 1s where copies are not
     read): the group under whose card rates the deck is likeliest, -1 for the other decks' (ties: the
     first). A deck with none of the rule's cards is an other deck: nothing in it speaks for an archetype.
-    ``sizes``: each deck's copies in all, cards the rule does not know included (as :func:`scores`)."""
+    ``sizes``: each deck's copies in all, cards the rule does not know included (as :func:`scores`);
+    ``row``: the decks' :func:`likeliest` rows, when already at hand."""
     n = copies.shape[0]
     k = rates.n_archetypes
     if k <= 0:
         return np.full(n, -1)
-    best = np.argmax(scores(copies, rates, sizes), axis=1)
+    best = likeliest(copies, rates, sizes) if row is None else row
     return np.where((best >= k) | (np.diff(as_presence(copies).indptr) == 0), -1, best)

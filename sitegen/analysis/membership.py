@@ -73,7 +73,7 @@ from typing import Sequence
 import numpy as np
 import scipy.sparse as sp
 
-from .card_rates import CardRates, as_levels, deck_sizes, fit_rates, group_sums, kept_rates, place, scores
+from .card_rates import CardRates, as_levels, deck_sizes, fit_rates, group_sums, kept_rates, likeliest, place
 from .random_decks import RandomDecks
 
 #: Share of random decks the cuts keep out, over all of a partition's centres.
@@ -384,34 +384,32 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     null_copies = nulls.copies(staples)
     full_size = float(np.median(deck_sizes(copies)))  # a full deck: partial lists are read against it
     for _ in range(RATE_ROUNDS):
-        labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, full_size)
+        labels, rates, given_up, row = _place_by_rates(copies, labels, null_copies, least, full_size)
         dropped_small += given_up
-    k = int(labels.max(initial=-1)) + 1
+    k = rates.n_archetypes
     own = _own_groups(decks, labels, k, smalls) if k else []
     if own:
-        labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, full_size, own)
+        labels, rates, given_up, row = _place_by_rates(copies, labels, null_copies, least, full_size, own)
         dropped_small += given_up
-        k = int(labels.max(initial=-1)) + 1
-        row = np.argmax(scores(copies, rates), axis=1)
+        k = rates.n_archetypes
         for _ in range(RATE_ROUNDS):  # each small group refitted on the decks its rates drew, as archetypes are
             drawn = [np.flatnonzero(row == k + j) for j in range(len(own))]
             drawn = [now if len(now) >= OWN_FLOOR else was for now, was in zip(drawn, own)]
             if all(np.array_equal(now, was) for now, was in zip(drawn, own)):
                 break
             own = drawn
-            labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, full_size, own)
+            labels, rates, given_up, row = _place_by_rates(copies, labels, null_copies, least, full_size, own)
             dropped_small += given_up
-            k = int(labels.max(initial=-1)) + 1
-            row = np.argmax(scores(copies, rates), axis=1)
+            k = rates.n_archetypes
         grown = [j for j in range(len(own)) if int((row == k + j).sum()) >= least]
         if grown:  # a group of its own that draws at least ``least`` decks is an archetype, not other decks
             for step, j in enumerate(grown):
                 labels[row == k + j] = k + step
             own = [members for j, members in enumerate(own) if j not in grown]
-            labels, rates, given_up = _place_by_rates(copies, labels, null_copies, least, full_size, own)
+            labels, rates, given_up, row = _place_by_rates(copies, labels, null_copies, least, full_size, own)
             dropped_small += given_up
             promoted += len(grown)
-            k = int(labels.max(initial=-1)) + 1
+            k = rates.n_archetypes
     if k == 0:
         return Membership(labels, np.zeros((0, m)), rates, np.zeros(n), int(n), dropped_small, dropped_loose,
                           merged, split, promoted=promoted)
@@ -419,20 +417,19 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     sims = similarities(weights, centres)
     sim = np.where(labels >= 0, sims[np.arange(n), np.maximum(labels, 0)], sims.max(axis=1))
     own_groups = rates.log_odds.shape[0] - 1 - k
-    own_decks = 0
-    if own_groups:  # other decks likeliest in a small group of their own, for the page
-        row = np.argmax(scores(copies, rates), axis=1)
-        own_decks = int(((row >= k) & (row < rates.log_odds.shape[0] - 1)).sum())
+    # Other decks likeliest in a small group of their own, for the page (``row``: under these rates).
+    own_decks = int(((row >= k) & (row < rates.log_odds.shape[0] - 1)).sum()) if own_groups else 0
     return Membership(labels, centres, rates, sim, int((labels < 0).sum()), dropped_small, dropped_loose,
                       merged, split, own_groups, own_decks, promoted)
 
 
 def _place_by_rates(copies, labels, null_copies, least, full_size, own: Sequence[np.ndarray] = ()
-                    ) -> tuple[np.ndarray, CardRates, int]:
+                    ) -> tuple[np.ndarray, CardRates, int, np.ndarray]:
     """One round: rates fitted on ``labels``, every deck placed by them; groups left under ``least``
     decks given up (fewest first, one at a time) and the round placed again without them. ``full_size``:
     a full deck's copies, which shorter decks are read against. ``own``:
-    member sets of small groups of their own, each fitted as a group whose decks are other decks."""
+    member sets of small groups of their own, each fitted as a group whose decks are other decks.
+    Returns the labels, the rates, the groups given up and each deck's likeliest row of the rates."""
     given_up = 0
     while True:
         k = int(labels.max(initial=-1)) + 1
@@ -441,10 +438,11 @@ def _place_by_rates(copies, labels, null_copies, least, full_size, own: Sequence
             fit[members] = k + j
         rates = fit_rates(copies, fit, k + len(own), null_copies, float(least), full_size)
         rates = replace(rates, archetypes=k)
-        placed = place(copies, rates)
+        row = likeliest(copies, rates)
+        placed = place(copies, rates, row=row)
         sizes = np.bincount(placed[placed >= 0], minlength=k)
-        if k == 0 or sizes.min() >= least:
-            return _compact(placed), kept_rates(rates, sizes > 0), given_up
+        if k == 0 or sizes.min() >= least:  # every archetype row kept (sizes > 0), so ``row`` holds
+            return _compact(placed), kept_rates(rates, sizes > 0), given_up, row
         worst = int(np.argmin(sizes))
         labels = _compact(np.where(labels == worst, -1, labels))
         given_up += 1
@@ -486,9 +484,7 @@ def _split_one(decks: DeckCards, rows, labels, least, seed, tried) -> np.ndarray
     pair's Fisher test under :data:`SPLIT_P`): its 2-way k-means cut (on the reduced ``rows``), or
     else the cut between the decks playing one card and the rest (:func:`_card_cut`). ``tried``
     remembers groups already looked at, so none is tried twice."""
-    from sklearn.cluster import KMeans
-
-    from .cluster import distinct_rows, sample_rows
+    from .cluster import distinct_rows, kmeans, nearest, sample_rows
 
     k = int(labels.max(initial=-1)) + 1
     sizes = np.bincount(labels[labels >= 0], minlength=k)
@@ -501,9 +497,7 @@ def _split_one(decks: DeckCards, rows, labels, least, seed, tried) -> np.ndarray
         fit = members[sample_rows(len(members), 5000, seed)]
         cut = labels.copy()
         if distinct_rows(rows[fit]) >= 2:
-            km = KMeans(n_clusters=2, n_init=4, random_state=seed, algorithm="lloyd").fit(rows[fit])
-            scores = rows[members] @ km.cluster_centers_.T * -2.0 + (km.cluster_centers_ ** 2).sum(axis=1)
-            piece = np.argmin(scores, axis=1)
+            piece = nearest(rows[members], kmeans(rows[fit], 2, seed, n_init=4).cluster_centers_)
             if (min(np.bincount(piece, minlength=2)) >= least
                     and decks.apart(members[piece == 0], members[piece == 1], p_max=SPLIT_P)):
                 cut[members[piece == 1]] = k
@@ -526,12 +520,13 @@ def _card_cut(decks: DeckCards, members: np.ndarray, least: int, seed: int) -> n
     from .cluster import sample_rows
 
     n = len(members)
-    played = np.asarray(decks.present[members].sum(axis=0)).ravel()
+    group = decks.present[members]
+    played = np.asarray(group.sum(axis=0)).ravel()
     tried = np.flatnonzero((played >= least) & (played <= n / 2) & (n - played >= least))
     if len(tried) == 0:
         return None
-    look = decks.present[members[sample_rows(n, 5000, seed)]]
-    seen = np.asarray(look.sum(axis=0)).ravel()
+    look = group if n <= 5000 else group[sample_rows(n, 5000, seed)]
+    seen = played if n <= 5000 else np.asarray(look.sum(axis=0)).ravel()
     both = np.asarray((look[:, tried].T @ look).todense())  # tried x cards: decks playing the two
     with_it = both / np.maximum(seen[tried], 1.0)[:, None]
     without = (seen[None, :] - both) / np.maximum(look.shape[0] - seen[tried], 1.0)[:, None]
