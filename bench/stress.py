@@ -1144,6 +1144,9 @@ DRAW_CELLS = 16
 #: Later development draws, the same way (``--grid draw2``): each set was first looked at to check a
 #: step chosen on the sets before it (docs/method.md, runs 15-17).
 LATER_DRAW_SETS = ((9700, 300), (9800, 600), (9900, 1200), (9750, 400), (9910, 300), (9920, 300), (9930, 300))
+#: Development draws of larger partitions (``--grid draw3``), where variants of under ``min_share``
+#: hold enough decks to be told apart (docs/method.md, run 18).
+LARGE_DRAW_SETS = ((9940, 3000), (9950, 6000), (9960, 12000))
 
 
 def draw_grid(sets: Sequence[tuple[int, int]] = DRAW_SETS) -> tuple[Cell, ...]:
@@ -1158,16 +1161,18 @@ def draw_grid(sets: Sequence[tuple[int, int]] = DRAW_SETS) -> tuple[Cell, ...]:
 
 
 def grid(name: str) -> tuple[Cell, ...]:
-    """A grid by name: ``dev``, ``draw``, ``eval`` or ``small``."""
+    """A grid by name: ``dev``, ``draw``, ``draw2``, ``draw3``, ``eval`` or ``small``."""
     if name == "dev":
         return DEV_GRID
     if name == "draw":
         return draw_grid()
     if name == "draw2":
         return draw_grid(LATER_DRAW_SETS)
+    if name == "draw3":
+        return draw_grid(LARGE_DRAW_SETS)
     if name in ("eval", "small"):
         return eval_grid(small=name == "small")
-    raise ValueError(f"grid must be dev, draw, draw2, eval or small, got {name!r}")
+    raise ValueError(f"grid must be dev, draw, draw2, draw3, eval or small, got {name!r}")
 
 
 # ---------------------------------------------------------------- table
@@ -1264,7 +1269,7 @@ def format_partitions(scores: Sequence[CellScore]) -> str:
 
 def main(argv: Sequence[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description="Archetype quality on the planted stress grid.")
-    ap.add_argument("--grid", choices=("small", "dev", "draw", "draw2", "eval"), default="small")
+    ap.add_argument("--grid", choices=("small", "dev", "draw", "draw2", "draw3", "eval"), default="small")
     ap.add_argument("--list", action="store_true", help="print the grid's settings and stop")
     ap.add_argument("--processes", type=int, default=2, help="worker processes (default 2)")
     ap.add_argument("--partitions", action="store_true", help="also print one row per partition")

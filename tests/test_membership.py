@@ -161,6 +161,49 @@ def test_a_small_variant_inside_a_group_is_cut_out_by_its_own_card():
     assert membership._card_cut(decks, np.arange(n_parent), 6, seed=0) is None
 
 
+def test_a_variant_too_small_for_an_archetype_is_cut_out_of_its_parent_as_other_decks():
+    # Planted: an archetype of 600 decks (core cards 0-5 at 85%) holding a variant of 24 decks that keeps
+    # cards 0-3, drops 4-5 and plays its own cards 6-7 at 85%; every deck plays 40 flex cards (8-47)
+    # independently at 2-40%. least = 50 (2% of 2 500 decks): the variant is too small for an
+    # archetype, and its own card cuts it out as a small group of its own; the parent alone gives none.
+    rng = np.random.default_rng(11)
+    n_parent, n_variant, least = 600, 24, 50
+    n = n_parent + n_variant
+    dense = np.zeros((n, 48))
+    dense[:, :4] = rng.random((n, 4)) < 0.85
+    dense[:n_parent, 4:6] = rng.random((n_parent, 2)) < 0.85
+    dense[n_parent:, 6:8] = rng.random((n_variant, 2)) < 0.85
+    dense[:, 8:] = rng.random((n, 40)) < rng.uniform(0.02, 0.4, 40)
+    decks = membership.DeckCards.of(sp.csr_matrix(dense))
+    labels = np.zeros(n, dtype=int)
+    cuts = membership._own_cuts(decks, labels, 1, least, seed=0, found=[])
+    assert len(cuts) == 1
+    variant = set(range(n_parent, n))
+    caught = set(cuts[0].tolist())
+    assert len(caught & variant) >= 0.9 * len(caught) and len(caught & variant) >= 0.7 * n_variant
+    assert membership._own_cuts(decks, labels[:n_parent], 1, least, seed=0, found=[]) == []
+    # A group already found for the same decks is not found twice.
+    assert membership._own_cuts(decks, labels, 1, least, seed=0, found=[cuts[0]]) == []
+
+
+def test_a_small_cut_holds_every_pair_to_its_bonferroni_share():
+    # A pair with Q between -0.8 and -0.5 passes on a one-sided Fisher p under 1e-6 (scipy's
+    # fisher_exact) for two groups found apart; a small cut, picked from many pairs, must also bring
+    # the p under its own share of the family-wise level (``p_max``).
+    from scipy.stats import fisher_exact
+
+    present = _two_card_decks(7, 29, 1491, 892)
+    a = np.arange(36)
+    b = np.setdiff1d(np.arange(7 + 29 + 1491 + 892), a)
+    q = membership.yules_q(7, 29, 1491, 892)
+    p = fisher_exact([[7, 29], [1491, 892]], alternative="less").pvalue
+    assert membership.EXCLUSION < q <= membership.EXCLUSION_LOOSE
+    assert 1e-8 < p < membership.EXCLUSION_P
+    rates = (np.array([1.0, 7 / 36]), np.asarray(present[b].mean(axis=0)).ravel())
+    assert membership.distinct(present, a, b, *rates, strict=True)
+    assert not membership.distinct(present, a, b, *rates, strict=True, p_max=1e-8)
+
+
 def test_yules_q_of_the_exclusion_check_matches_statsmodels():
     # Two own cards that never meet: Yule's Q is -1 (statsmodels' odds ratio is 0 there).
     present = sp.csr_matrix(np.array([[1, 0]] * 10 + [[0, 1]] * 10 + [[0, 0]] * 5, dtype=float))

@@ -232,11 +232,12 @@ def test_several_seasons_keep_ids_and_record_events():
 # ---------------------------------------------------------------- grids and runner
 
 def test_grids_are_fixed_and_apart():
-    dev = stress.grid("dev") + stress.grid("draw") + stress.grid("draw2")
+    dev = stress.grid("dev") + stress.grid("draw") + stress.grid("draw2") + stress.grid("draw3")
     ev, small = stress.grid("eval"), stress.grid("small")
     assert ev == stress.grid("eval") and small == stress.grid("small")  # drawn from fixed seeds
     assert stress.grid("draw") == stress.draw_grid() and len(stress.grid("draw")) == 96
-    assert len(stress.grid("draw2")) == 112
+    assert len(stress.grid("draw2")) == 112 and len(stress.grid("draw3")) == 48
+    assert min(n for c in stress.grid("draw3") for n in c.settings.sizes) >= 3000
     seeds = [{c.settings.seed for c in g} for g in (dev, ev, small)]
     assert not seeds[0] & seeds[1] and not seeds[0] & seeds[2] and not seeds[1] & seeds[2]
     no_size = lambda c: stress.replace(c.settings, sizes=(), seed=0)  # noqa: E731

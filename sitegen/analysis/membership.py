@@ -56,7 +56,10 @@ distances in (card presence weighted by rarity, each deck a unit row):
   (from :data:`SMALL_SHARE` of ``min_share``) that the placement gave to an
   archetype, yet is distinct from the rest of it (the strict test above: a
   close variant of it), gets card rates of its own in one last round; the
-  decks likeliest under them are other decks, not the archetype's. One that
+  decks likeliest under them are other decks, not the archetype's. So is a
+  variant no dense region showed: the decks of an archetype that play one card,
+  when they and the rest pass the strict test with the pair's Fisher p under
+  :data:`SPLIT_P` shared among every pair looked at (:func:`_own_cuts`). One that
   draws at least ``least`` decks that way is not too small: it is an
   archetype, and the round is placed again.
 
@@ -178,7 +181,8 @@ def distinct(present: sp.csr_matrix, a: np.ndarray, b: np.ndarray, rate_a: np.nd
     and two levels of one card, which no deck plays at once, are never taken
     for a pair that excludes each other. ``p_max``: a pair at most
     :data:`EXCLUSION` must also show so few decks playing both that chance
-    would give it less often than this (Fisher's exact test, one-sided).
+    would give it less often than this (Fisher's exact test, one-sided), and
+    a pair between -0.5 and -0.8 a p under it as well as under 1e-6.
     """
     if rate_a is None:
         rate_a = np.asarray(present[a].mean(axis=0)).ravel()
@@ -214,7 +218,7 @@ def distinct(present: sp.csr_matrix, a: np.ndarray, b: np.ndarray, rate_a: np.nd
     for i, j in zip(*np.nonzero(q <= EXCLUSION_LOOSE)):
         table = [[together[i, j], only_x[i, j]], [only_y[i, j], neither[i, j]]]
         p = fisher_exact(table, alternative="less").pvalue
-        if p < EXCLUSION_P or (p_max is not None and q[i, j] <= EXCLUSION and p < p_max):
+        if p < min(EXCLUSION_P, p_max or 1.0) or (p_max is not None and q[i, j] <= EXCLUSION and p < p_max):
             return True
     return False
 
@@ -388,6 +392,7 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
         dropped_small += given_up
     k = rates.n_archetypes
     own = _own_groups(decks, labels, k, smalls) if k else []
+    own += _own_cuts(decks, labels, k, least, seed, own)
     if own:
         labels, rates, given_up, row = _place_by_rates(copies, labels, null_copies, least, full_size, own)
         dropped_small += given_up
@@ -466,6 +471,23 @@ def _own_groups(decks: DeckCards, labels, k, smalls) -> list[np.ndarray]:
     return out
 
 
+def _own_cuts(decks: DeckCards, labels, k, least, seed, found: Sequence[np.ndarray]) -> list[np.ndarray]:
+    """Small variants inside archetypes that no dense region showed: in each archetype, the decks
+    playing one card, from the small groups' size (:data:`SMALL_SHARE` of ``least``, at least
+    :data:`OWN_FLOOR`) to under ``least`` decks, that are apart from the rest of it
+    (:func:`_card_cut` with ``small``); none that is mostly a group already ``found``."""
+    small = max(OWN_FLOOR, int(np.ceil(SMALL_SHARE * least - 1e-9)))
+    out: list[np.ndarray] = []
+    for c in range(k):
+        members = np.flatnonzero(labels == c)
+        if len(members) < least + small:
+            continue
+        piece = _card_cut(decks, members, least, seed, small=small)
+        if piece is not None and not any(2 * len(np.intersect1d(piece, m)) > len(piece) for m in found):
+            out.append(piece)
+    return out
+
+
 def _join_closest(weights: sp.csr_matrix, labels: np.ndarray) -> np.ndarray:
     """Labels with the two groups whose centres are most alike joined (to keep at most analysis.k_max)."""
     k = int(labels.max(initial=-1)) + 1
@@ -509,20 +531,25 @@ def _split_one(decks: DeckCards, rows, labels, least, seed, tried) -> np.ndarray
     return None
 
 
-def _card_cut(decks: DeckCards, members: np.ndarray, least: int, seed: int) -> np.ndarray | None:
+def _card_cut(decks: DeckCards, members: np.ndarray, least: int, seed: int, small: int | None = None
+              ) -> np.ndarray | None:
     """The decks of ``members`` that play one card, when they and the rest are two archetypes; else
     None. A variant of a few percent inside a large group is a cut k-means passes by (its best 2-way
     cut halves the group); its own card finds it. Tried: the :data:`OWN_TRIED` cards played by at
     least ``least`` decks and at most half the group whose players most lack a card the rest mostly
     plays (a card of the rest's own), ranked on up to 5 000 of the group's decks; each cut is held to
     :meth:`DeckCards.apart` with the pair's Fisher test under :data:`SPLIT_P` / :data:`OWN_TRIED`
-    (Bonferroni over the cards tried)."""
+    (Bonferroni over the cards tried). ``small``: look instead for a piece of from ``small`` to under
+    ``least`` decks (a variant too small to be an archetype), its Fisher test then under
+    :data:`SPLIT_P` divided by every pair of cards the ranking looked at (Bonferroni over them: a
+    few decks lack a card together by chance more often than many do)."""
     from .cluster import sample_rows
 
     n = len(members)
     group = decks.present[members]
     played = np.asarray(group.sum(axis=0)).ravel()
-    tried = np.flatnonzero((played >= least) & (played <= n / 2) & (n - played >= least))
+    low, high = (least, n / 2) if small is None else (small, min(least - 1, n / 2))
+    tried = np.flatnonzero((played >= low) & (played <= high) & (n - played >= least))
     if len(tried) == 0:
         return None
     look = group if n <= 5000 else group[sample_rows(n, 5000, seed)]
@@ -533,11 +560,14 @@ def _card_cut(decks: DeckCards, members: np.ndarray, least: int, seed: int) -> n
     # Only a card whose players lack a card of the rest's own (OWN_IN of the rest, OWN_OUT of them at
     # most) can pass the test: the others are not tried.
     gap = np.where((without >= OWN_IN) & (with_it <= OWN_OUT), without - with_it, -1.0).max(axis=1)
+    # Each pair is tested on presence and again on copy levels where copies are read: two tests a pair.
+    pairs = max(1, int((without >= OWN_IN).sum())) * (1 if decks.levels is None else 2)
+    p_max = SPLIT_P / (OWN_TRIED if small is None else pairs)
     for j in np.argsort(-gap, kind="stable")[:OWN_TRIED]:
         if gap[j] < 0:
             break
         plays = decks.by_card[:, tried[j]].toarray().ravel()[members] > 0
-        if decks.apart(members[plays], members[~plays], p_max=SPLIT_P / OWN_TRIED):
+        if decks.apart(members[plays], members[~plays], p_max=p_max):
             return members[plays]
     return None
 
