@@ -372,6 +372,36 @@ def test_card_rates_are_scikit_learn_bernoulli_naive_bayes():
     assert (card_rates.place(present, rates) == -1).any() and len(set(card_rates.place(present, rates))) == 4
 
 
+def test_card_rates_on_chances_are_scikit_learn_bernoulli_naive_bayes_on_weighted_copies():
+    # Reference: sklearn.naive_bayes.BernoulliNB fitted on every deck once per group, weighted by its
+    # chance of belonging to that group (the M step of expectation-maximisation for a Bernoulli
+    # mixture), the random decks with the other decks as above. One-hot chances give the hard labels' fit.
+    from sklearn.naive_bayes import BernoulliNB
+
+    counts, _ = _rows(8, n=60, m=20, p=0.3)
+    present = features.presence(counts)
+    null = features.presence(_rows(9, n=30, m=20, p=0.25)[0])
+    rng = np.random.default_rng(10)
+    chance = rng.dirichlet(np.full(4, 0.7), size=60)
+    rates = card_rates.fit_rates(present, None, 3, null, 9.0, weights=chance)
+    x = np.vstack([np.tile(present.toarray(), (4, 1)), null.toarray()])
+    y = np.concatenate([np.repeat(np.arange(4), 60), np.full(30, 3)])
+    weight = np.concatenate([chance.T.ravel(), np.full(30, 9.0 / 30)])
+    nb = BernoulliNB(alpha=card_rates.RATE_SMOOTHING, force_alpha=True).fit(x, y, sample_weight=weight)
+    alone = BernoulliNB(alpha=card_rates.RATE_SMOOTHING, force_alpha=True).fit(null.toarray(), np.zeros(30))
+    nb.feature_log_prob_[3] = np.minimum(nb.feature_log_prob_[3], alone.feature_log_prob_[0])
+    np.testing.assert_allclose(rates.log_odds, nb.feature_log_prob_ - np.log1p(-np.exp(nb.feature_log_prob_)), atol=1e-12)
+    np.testing.assert_allclose(present.toarray() @ rates.log_odds.T + rates.constants,
+                               nb.predict_joint_log_proba(present.toarray()), atol=1e-9)
+    labels = rng.integers(-1, 3, 60)
+    onehot = np.eye(4)[np.where(labels >= 0, labels, 3)]
+    hard, soft = card_rates.fit_rates(counts, labels, 3, null, 9.0), card_rates.fit_rates(counts, None, 3, null, 9.0,
+                                                                                           weights=onehot)
+    np.testing.assert_allclose(soft.log_odds, hard.log_odds, atol=1e-12)
+    np.testing.assert_allclose(soft.constants, hard.constants, atol=1e-12)
+    np.testing.assert_allclose(soft.levels, hard.levels, atol=1e-12)
+
+
 def test_a_partial_list_scores_its_card_rates_scaled_by_its_length():
     # Reference: scipy.stats.bernoulli.logpmf of each card at rate f x r (f: the deck's length share,
     # r: the group's rate), summed over the cards. The log f of each card played is the same in every

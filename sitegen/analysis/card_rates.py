@@ -138,8 +138,8 @@ def scores(counts: sp.spmatrix, rates: CardRates, sizes: np.ndarray | None = Non
     return out
 
 
-def fit_rates(copies: sp.csr_matrix, labels: np.ndarray, k: int, null_copies: sp.csr_matrix,
-              null_weight: float, full_size: float = 0.0) -> CardRates:
+def fit_rates(copies: sp.csr_matrix, labels: np.ndarray | None, k: int, null_copies: sp.csr_matrix,
+              null_weight: float, full_size: float = 0.0, weights: np.ndarray | None = None) -> CardRates:
     """Card rates of groups 0..k-1 and of the other decks (-1), as a naive Bayes model.
 
     Group i's rate of a card is (decks playing it + a) / (decks + 2a), a =
@@ -164,15 +164,28 @@ def fit_rates(copies: sp.csr_matrix, labels: np.ndarray, k: int, null_copies: sp
     decks a rate is taken over, so partial lists do not pull a group's rates
     down (at most the rate of a card every deck plays). ``full_size`` 0: every
     deck is full, as above.
+
+    ``weights``: each deck's chance of belonging to each group (decks x
+    k + 1, the other decks last; rows summing to 1), in place of ``labels``:
+    every sum above is then taken with each deck counted in every group by
+    its chance (the M step of expectation-maximisation); one-hot rows give
+    what ``labels`` give.
     """
     present, null_present = as_presence(copies), as_presence(null_copies)
-    group = np.where(labels >= 0, labels, k)
-    counts = group_sums(present, group, k + 1)
-    levels = group_sums(as_levels(copies), group, k + 1)
+    lengths = length_shares(deck_sizes(copies), full_size)
+    if weights is None:
+        group = np.where(labels >= 0, labels, k)
+        counts = group_sums(present, group, k + 1)
+        levels = group_sums(as_levels(copies), group, k + 1)
+        sizes = np.bincount(group, minlength=k + 1).astype(np.float64)
+        reach = np.bincount(group, weights=lengths, minlength=k + 1)
+    else:
+        counts = np.asarray(present.T @ weights).T.copy()
+        levels = np.asarray(as_levels(copies).T @ weights).T.copy()
+        sizes = weights.sum(axis=0).astype(np.float64)
+        reach = weights.T @ lengths
     # The partition's own mix of each card's levels: its decks at each level over its decks playing it.
     mix = levels.sum(axis=0) / np.maximum(np.tile(counts.sum(axis=0), LEVELS), 1.0)
-    sizes = np.bincount(group, minlength=k + 1).astype(np.float64)
-    reach = np.bincount(group, weights=length_shares(deck_sizes(copies), full_size), minlength=k + 1)
     n_null = null_present.shape[0]
     null_reach = float(length_shares(deck_sizes(null_copies), full_size).sum())
     if n_null and null_weight > 0:

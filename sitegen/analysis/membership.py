@@ -70,14 +70,15 @@ rule. The measurements behind these choices are in docs/method.md.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from typing import Sequence
 
 import numpy as np
 import scipy.sparse as sp
 
-from .card_rates import CardRates, as_levels, deck_sizes, fit_rates, group_sums, kept_rates, likeliest, place
+from .card_rates import CardRates, as_levels, deck_sizes, group_sums
 from .random_decks import RandomDecks
+from .rate_rounds import RATE_ROUNDS, compact, place_round, soft_rounds
 
 #: Share of random decks the cuts keep out, over all of a partition's centres.
 NULL_QUANTILE = 0.98
@@ -101,8 +102,6 @@ EXCLUSION_P = 1e-6
 SPLIT_P = 1e-3
 #: Staples: cards played by at least this share of the decks of every group.
 STAPLE_SHARE = 0.5
-#: Rounds of placing every deck by card rates, each on the groups the round before left.
-RATE_ROUNDS = 2
 #: Small groups of their own (too small to be archetypes unless they draw enough decks) are looked
 #: for from this share of min_share (dense groups of at least that many of the decks looked at),
 #: and from OWN_FLOOR decks.
@@ -341,7 +340,7 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     n = present.shape[0]
     decks = DeckCards.of(present, copies)
     copies = present if copies is None else copies
-    labels = _compact(labels)
+    labels = compact(labels)
     merged = dropped_small = dropped_loose = 0
     split = promoted = 0
     tried: set[bytes] = set()
@@ -357,10 +356,10 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
                          else (labels, 0))
         if count:
             merged += count
-            labels = _compact(joined)
+            labels = compact(joined)
             continue
         if most is not None and labels.max(initial=-1) + 1 > most:
-            labels = _compact(_join_closest(weights, labels))
+            labels = compact(_join_closest(weights, labels))
             merged += 1
             continue
         if rows is None or (most is not None and labels.max(initial=-1) + 1 >= most):
@@ -388,13 +387,13 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     null_copies = nulls.copies(staples)
     full_size = float(np.median(deck_sizes(copies)))  # a full deck: partial lists are read against it
     for _ in range(RATE_ROUNDS):
-        labels, rates, given_up, row = _place_by_rates(copies, labels, null_copies, least, full_size)
+        labels, rates, given_up, row = place_round(copies, labels, null_copies, least, full_size)
         dropped_small += given_up
     k = rates.n_archetypes
     own = _own_groups(decks, labels, k, smalls) if k else []
     own += _own_cuts(decks, labels, k, least, seed, own)
     if own:
-        labels, rates, given_up, row = _place_by_rates(copies, labels, null_copies, least, full_size, own)
+        labels, rates, given_up, row = place_round(copies, labels, null_copies, least, full_size, own)
         dropped_small += given_up
         k = rates.n_archetypes
         for _ in range(RATE_ROUNDS):  # each small group refitted on the decks its rates drew, as archetypes are
@@ -403,7 +402,7 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
             if all(np.array_equal(now, was) for now, was in zip(drawn, own)):
                 break
             own = drawn
-            labels, rates, given_up, row = _place_by_rates(copies, labels, null_copies, least, full_size, own)
+            labels, rates, given_up, row = place_round(copies, labels, null_copies, least, full_size, own)
             dropped_small += given_up
             k = rates.n_archetypes
         grown = [j for j in range(len(own)) if int((row == k + j).sum()) >= least]
@@ -411,10 +410,12 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
             for step, j in enumerate(grown):
                 labels[row == k + j] = k + step
             own = [members for j, members in enumerate(own) if j not in grown]
-            labels, rates, given_up, row = _place_by_rates(copies, labels, null_copies, least, full_size, own)
+            labels, rates, given_up, row = place_round(copies, labels, null_copies, least, full_size, own)
             dropped_small += given_up
             promoted += len(grown)
             k = rates.n_archetypes
+    if k:
+        labels, rates, row = soft_rounds(copies, labels, rates, row, null_copies, least, full_size)
     if k == 0:
         return Membership(labels, np.zeros((0, m)), rates, np.zeros(n), int(n), dropped_small, dropped_loose,
                           merged, split, promoted=promoted)
@@ -426,31 +427,6 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     own_decks = int(((row >= k) & (row < rates.log_odds.shape[0] - 1)).sum()) if own_groups else 0
     return Membership(labels, centres, rates, sim, int((labels < 0).sum()), dropped_small, dropped_loose,
                       merged, split, own_groups, own_decks, promoted)
-
-
-def _place_by_rates(copies, labels, null_copies, least, full_size, own: Sequence[np.ndarray] = ()
-                    ) -> tuple[np.ndarray, CardRates, int, np.ndarray]:
-    """One round: rates fitted on ``labels``, every deck placed by them; groups left under ``least``
-    decks given up (fewest first, one at a time) and the round placed again without them. ``full_size``:
-    a full deck's copies, which shorter decks are read against. ``own``:
-    member sets of small groups of their own, each fitted as a group whose decks are other decks.
-    Returns the labels, the rates, the groups given up and each deck's likeliest row of the rates."""
-    given_up = 0
-    while True:
-        k = int(labels.max(initial=-1)) + 1
-        fit = labels.copy()
-        for j, members in enumerate(own):
-            fit[members] = k + j
-        rates = fit_rates(copies, fit, k + len(own), null_copies, float(least), full_size)
-        rates = replace(rates, archetypes=k)
-        row = likeliest(copies, rates)
-        placed = place(copies, rates, row=row)
-        sizes = np.bincount(placed[placed >= 0], minlength=k)
-        if k == 0 or sizes.min() >= least:  # every archetype row kept (sizes > 0), so ``row`` holds
-            return _compact(placed), kept_rates(rates, sizes > 0), given_up, row
-        worst = int(np.argmin(sizes))
-        labels = _compact(np.where(labels == worst, -1, labels))
-        given_up += 1
 
 
 def _own_groups(decks: DeckCards, labels, k, smalls) -> list[np.ndarray]:
@@ -572,15 +548,6 @@ def _card_cut(decks: DeckCards, members: np.ndarray, least: int, seed: int, smal
     return None
 
 
-def _compact(labels: np.ndarray) -> np.ndarray:
-    """Labels renumbered 0..k-1 in order of their old number; -1 stays -1."""
-    labels = np.asarray(labels)
-    keys = np.unique(labels[labels >= 0])
-    out = np.full(len(labels), -1)
-    out[labels >= 0] = np.searchsorted(keys, labels[labels >= 0])
-    return out
-
-
 def _blind(weights: sp.csr_matrix, staples: np.ndarray) -> sp.csr_matrix:
     """The rows with the staples' columns set to zero (each row keeps its length: a deck's staples
     still count in its norm, so a deck made mostly of staples is like no centre)."""
@@ -629,8 +596,8 @@ def _prune(present, weights, nulls, labels, least) -> tuple[np.ndarray, int, int
         settled = np.array_equal(placed, labels)
         labels = np.where((placed >= 0) & alive[np.maximum(placed, 0)], placed, -1)
         if not failed and settled:
-            return _compact(labels), small, loose
-    return _compact(labels), small, loose
+            return compact(labels), small, loose
+    return compact(labels), small, loose
 
 
 def _own_out_similarities(weights: sp.csr_matrix, labels: np.ndarray, k: int) -> np.ndarray:
