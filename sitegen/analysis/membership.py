@@ -44,7 +44,8 @@ distances in (card presence weighted by rarity, each deck a unit row):
   decks), smoothed, as a Bernoulli naive Bayes model; each deck goes to the
   group under whose rates the cards it plays and lacks are likeliest. Twice,
   each time refitted on the groups the last time left; a group left under
-  ``least`` decks is given up. Cosine similarity weighs a card by its rarity,
+  ``least`` decks is given up. Last come soft rounds (:mod:`.rate_rounds`):
+  rates refitted on each deck's chances of belonging to each group. Cosine similarity weighs a card by its rarity,
   so a short list whose one-off cards outweigh its few common core cards
   falls below the cut; card rates weigh each card by how much likelier it is
   in one group than in another, as the planted truth would. They also read
