@@ -16,6 +16,7 @@ than numpy and scipy.sparse, so the building process may import it.
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from functools import cached_property
 
 import numpy as np
 import scipy.sparse as sp
@@ -103,6 +104,34 @@ def deck_sizes(counts: sp.spmatrix) -> np.ndarray:
     return np.asarray(sp.csr_matrix(counts).sum(axis=1), dtype=np.float64).ravel()
 
 
+class ReadDecks:
+    """Decks as the card rates read them, each reading made once and kept: the rounds of placing
+    fit and score the same decks several times. ``copies``: each deck's copies of each card."""
+
+    def __init__(self, copies: sp.spmatrix) -> None:
+        self.copies = copies
+
+    @classmethod
+    def of(cls, copies: "sp.spmatrix | ReadDecks") -> "ReadDecks":
+        return copies if isinstance(copies, ReadDecks) else cls(copies)
+
+    @property
+    def shape(self) -> tuple[int, int]:
+        return self.copies.shape
+
+    @cached_property
+    def present(self) -> sp.csr_matrix:
+        return as_presence(self.copies)
+
+    @cached_property
+    def levels(self) -> sp.csr_matrix:
+        return as_levels(self.copies)
+
+    @cached_property
+    def sizes(self) -> np.ndarray:
+        return deck_sizes(self.copies)
+
+
 def length_shares(sizes: np.ndarray, full_size: float) -> np.ndarray:
     """Each deck's length as a share of a full deck of ``full_size`` copies: whole steps of
     1/:data:`LENGTH_STEPS` of it, rounded down, between :data:`LENGTH_FLOOR` and 1, and 1 from
@@ -116,14 +145,15 @@ def length_shares(sizes: np.ndarray, full_size: float) -> np.ndarray:
     return np.where(share >= LENGTH_FULL, 1.0, share)
 
 
-def scores(counts: sp.spmatrix, rates: CardRates, sizes: np.ndarray | None = None) -> np.ndarray:
+def scores(counts: "sp.spmatrix | ReadDecks", rates: CardRates, sizes: np.ndarray | None = None) -> np.ndarray:
     """Each deck's score under each row of ``rates`` (decks x rows): its log-likelihood plus log prior.
     ``sizes``: each deck's copies in all, where ``counts`` holds only some of its cards (default:
     the copies in ``counts``)."""
-    present = as_presence(counts)
+    decks = ReadDecks.of(counts)
+    present = decks.present
     out = np.asarray(present @ rates.log_odds.T) + rates.constants
     if rates.full_size > 0 and present.shape[0]:
-        share = length_shares(deck_sizes(counts) if sizes is None else sizes, rates.full_size)
+        share = length_shares(decks.sizes if sizes is None else sizes, rates.full_size)
         if (share < 1.0).any():
             # A card rate r read at share f: playing it scores log(f r), lacking it log(1 - f r). The
             # log f of each card played is the same in every row, so only the cards lacked gain.
@@ -134,11 +164,12 @@ def scores(counts: sp.spmatrix, rates: CardRates, sizes: np.ndarray | None = Non
                 gain = np.log1p(-f * rate) - miss
                 out[rows] += gain.sum(axis=1) - np.asarray(present[rows] @ gain.T)
     if rates.levels is not None:
-        out += np.asarray(as_levels(counts) @ rates.levels.T)
+        out += np.asarray(decks.levels @ rates.levels.T)
     return out
 
 
-def fit_rates(copies: sp.csr_matrix, labels: np.ndarray | None, k: int, null_copies: sp.csr_matrix,
+def fit_rates(copies: "sp.csr_matrix | ReadDecks", labels: np.ndarray | None, k: int,
+              null_copies: "sp.csr_matrix | ReadDecks",
               null_weight: float, full_size: float = 0.0, weights: np.ndarray | None = None) -> CardRates:
     """Card rates of groups 0..k-1 and of the other decks (-1), as a naive Bayes model.
 
@@ -171,26 +202,27 @@ def fit_rates(copies: sp.csr_matrix, labels: np.ndarray | None, k: int, null_cop
     its chance (the M step of expectation-maximisation); one-hot rows give
     what ``labels`` give.
     """
-    present, null_present = as_presence(copies), as_presence(null_copies)
-    lengths = length_shares(deck_sizes(copies), full_size)
+    decks, nulls = ReadDecks.of(copies), ReadDecks.of(null_copies)
+    present, null_present = decks.present, nulls.present
+    lengths = length_shares(decks.sizes, full_size)
     if weights is None:
         group = np.where(labels >= 0, labels, k)
         counts = group_sums(present, group, k + 1)
-        levels = group_sums(as_levels(copies), group, k + 1)
+        levels = group_sums(decks.levels, group, k + 1)
         sizes = np.bincount(group, minlength=k + 1).astype(np.float64)
         reach = np.bincount(group, weights=lengths, minlength=k + 1)
     else:
         counts = np.asarray(present.T @ weights).T.copy()
-        levels = np.asarray(as_levels(copies).T @ weights).T.copy()
+        levels = np.asarray(decks.levels.T @ weights).T.copy()
         sizes = weights.sum(axis=0).astype(np.float64)
         reach = weights.T @ lengths
     # The partition's own mix of each card's levels: its decks at each level over its decks playing it.
     mix = levels.sum(axis=0) / np.maximum(np.tile(counts.sum(axis=0), LEVELS), 1.0)
     n_null = null_present.shape[0]
-    null_reach = float(length_shares(deck_sizes(null_copies), full_size).sum())
+    null_reach = float(length_shares(nulls.sizes, full_size).sum())
     if n_null and null_weight > 0:
         counts[k] += null_weight / n_null * np.asarray(null_present.sum(axis=0)).ravel()
-        levels[k] += null_weight / n_null * np.asarray(as_levels(null_copies).sum(axis=0)).ravel()
+        levels[k] += null_weight / n_null * np.asarray(nulls.levels.sum(axis=0)).ravel()
         sizes[k] += null_weight
         reach[k] += null_weight / n_null * null_reach
     rate = np.minimum((counts + RATE_SMOOTHING) / (reach[:, None] + 2.0 * RATE_SMOOTHING),
@@ -216,12 +248,12 @@ def kept_rates(rates: CardRates, keep: np.ndarray) -> CardRates:
                    levels=None if rates.levels is None else rates.levels[rows])
 
 
-def likeliest(copies: sp.spmatrix, rates: CardRates, sizes: np.ndarray | None = None) -> np.ndarray:
+def likeliest(copies: "sp.spmatrix | ReadDecks", rates: CardRates, sizes: np.ndarray | None = None) -> np.ndarray:
     """Each deck's likeliest row of ``rates``, the other decks' rows included (ties: the first)."""
     return np.argmax(scores(copies, rates, sizes), axis=1)
 
 
-def place(copies: sp.csr_matrix, rates: CardRates, sizes: np.ndarray | None = None,
+def place(copies: "sp.csr_matrix | ReadDecks", rates: CardRates, sizes: np.ndarray | None = None,
           row: np.ndarray | None = None) -> np.ndarray:
     """The build's rule for any decks (copies of each of the rule's cards; 1s where copies are not
     read): the group under whose card rates the deck is likeliest, -1 for the other decks' (ties: the
@@ -233,4 +265,4 @@ def place(copies: sp.csr_matrix, rates: CardRates, sizes: np.ndarray | None = No
     if k <= 0:
         return np.full(n, -1)
     best = likeliest(copies, rates, sizes) if row is None else row
-    return np.where((best >= k) | (np.diff(as_presence(copies).indptr) == 0), -1, best)
+    return np.where((best >= k) | (np.diff(ReadDecks.of(copies).present.indptr) == 0), -1, best)

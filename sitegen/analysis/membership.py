@@ -77,7 +77,7 @@ from typing import Sequence
 import numpy as np
 import scipy.sparse as sp
 
-from .card_rates import CardRates, as_levels, deck_sizes, group_sums
+from .card_rates import CardRates, ReadDecks, group_sums
 from .random_decks import RandomDecks
 from .rate_rounds import RATE_ROUNDS, compact, place_round, soft_rounds
 
@@ -266,9 +266,9 @@ class DeckCards:
     by_level: sp.csc_matrix | None = None
 
     @classmethod
-    def of(cls, present: sp.csr_matrix, copies: sp.csr_matrix | None = None) -> "DeckCards":
+    def of(cls, present: sp.csr_matrix, copies: "sp.csr_matrix | ReadDecks | None" = None) -> "DeckCards":
         """``copies``: each deck's copies of each card (None, or every copy 1: presence alone)."""
-        levels = None if copies is None else as_levels(copies)
+        levels = None if copies is None else ReadDecks.of(copies).levels
         if levels is not None and levels.nnz and levels.indices.max() < present.shape[1]:
             levels = None  # one copy of every card: the levels say what presence says
         return cls(present, sp.csc_matrix(present), levels, None if levels is None else sp.csc_matrix(levels))
@@ -339,13 +339,13 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     deck's copies of each card, read by the card rates (None: presence alone).
     """
     n = present.shape[0]
-    decks = DeckCards.of(present, copies)
-    copies = present if copies is None else copies
+    copies = ReadDecks(present if copies is None else copies)  # read once for the tests and every round
+    decks = DeckCards.of(present, None if copies.copies is present else copies)
     labels = compact(labels)
     merged = dropped_small = dropped_loose = 0
     split = promoted = 0
     tried: set[bytes] = set()
-    nulls = RandomDecks(copies, idf, seed) if nulls is None else nulls
+    nulls = RandomDecks(copies.copies, idf, seed) if nulls is None else nulls
     known: dict = {}
     for _ in range(64):
         labels, small, loose = _prune(present, weights, nulls, labels, least)
@@ -385,8 +385,8 @@ def settle(present: sp.csr_matrix, weights: sp.csr_matrix, idf: np.ndarray, labe
     near = np.argmax(sims, axis=1)
     null = nulls(staples)
     labels = np.where(sims[np.arange(n), near] >= cuts_for(null, centres)[near], near, -1)
-    null_copies = nulls.copies(staples)
-    full_size = float(np.median(deck_sizes(copies)))  # a full deck: partial lists are read against it
+    null_copies = ReadDecks(nulls.copies(staples))
+    full_size = float(np.median(copies.sizes))  # a full deck: partial lists are read against it
     for _ in range(RATE_ROUNDS):
         labels, rates, given_up, row = place_round(copies, labels, null_copies, least, full_size)
         dropped_small += given_up
