@@ -748,16 +748,18 @@ def copies_matrix(planted: PlantedPartition) -> sp.csr_matrix:
     return out
 
 
-def copies_fit_labels(copies: sp.csr_matrix, truth: Sequence) -> np.ndarray:
+def copies_fit_labels(copies: sp.csr_matrix, truth: Sequence, pooled: bool = True) -> np.ndarray:
     """Each deck's likeliest planted label (archetype or :data:`BREW`) under the method's own model
-    of cards and copies (:func:`sitegen.analysis.card_rates.fit_rates`: card rates and copy levels)
-    fitted on the planted labels of these very decks: what the method's placement would do if it
-    had found every planted group exactly."""
+    of cards and copies (:func:`sitegen.analysis.card_rates.fit_rates`: card rates and copy levels,
+    each group's rates drawn towards the groups' pooled rates unless ``pooled`` is off) fitted on the
+    planted labels of these very decks: what the method's placement would do if it had found every
+    planted group exactly."""
     from sitegen.analysis import card_rates
 
     t = np.asarray(truth, dtype=object).astype(str)
     keys, idx = np.unique(t, return_inverse=True)
-    rates = card_rates.fit_rates(copies, idx, len(keys), sp.csr_matrix((0, copies.shape[1])), 0.0)
+    rates = card_rates.fit_rates(copies, idx, len(keys), sp.csr_matrix((0, copies.shape[1])), 0.0,
+                                 pooled=len(keys) if pooled else 0)
     return keys[np.argmax(card_rates.scores(copies, rates)[:, :len(keys)], axis=1)].astype(object)
 
 

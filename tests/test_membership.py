@@ -402,6 +402,57 @@ def test_card_rates_on_chances_are_scikit_learn_bernoulli_naive_bayes_on_weighte
     np.testing.assert_allclose(soft.levels, hard.levels, atol=1e-12)
 
 
+def test_pooled_strength_recovers_a_planted_beta_prior():
+    # Planted with scipy.stats.betabinom: each group's plays of card 0 are beta-binomial with a + b = 20
+    # (mean 0.3), so the method of moments for the beta-binomial (from memory: the spread of the groups'
+    # rates beyond binomial sampling is p(1-p)/(a+b+1)) must give back about 20; card 1 is played at one
+    # rate by every group (a deck's fill): the groups differ by sampling alone, a strength far above any
+    # group's size; card 2 is a core card of half the groups: about 0, each group its own rate.
+    from scipy.stats import betabinom, binom
+
+    rng = np.random.default_rng(11)
+    reach = rng.integers(30, 200, 3000).astype(np.float64)
+    counts = np.column_stack([
+        betabinom(reach.astype(int), 6.0, 14.0).rvs(random_state=rng),
+        binom(reach.astype(int), 0.05).rvs(random_state=rng),
+        binom(reach.astype(int), np.where(np.arange(3000) % 2, 0.9, 0.02)).rvs(random_state=rng),
+        np.zeros(3000)]).astype(np.float64)
+    strength, pooled = card_rates.pooled_strength(counts, reach)
+    assert strength[0] == pytest.approx(20.0, rel=0.15) and pooled[0] == pytest.approx(0.3, abs=0.01)
+    assert strength[1] > 1000 and strength[2] < 0.5 and strength[3] == 0.0 and pooled[3] == 0.0
+    one_group, _ = card_rates.pooled_strength(counts[:1], reach[:1])
+    assert (one_group == 0).all()
+
+
+def test_pooled_card_rates_are_each_groups_beta_posterior_mean():
+    # Reference: scipy.stats.beta, the posterior of a binomial rate under the prior Beta(s p, s (1 - p))
+    # (s: pooled_strength's weight, p: the pooled rate) with the add-half on top, is Beta(s p + c + 0.5,
+    # s (1 - p) + n - c + 0.5) for c plays in n decks: each group's rate must be its mean. The other
+    # decks' row is not pooled. A card played alike by every group is then read alike in all of them.
+    from scipy.stats import beta
+
+    counts, _ = _rows(12, n=120, m=30, p=0.2)
+    present = features.presence(counts).toarray()
+    present[:60, :4] = 1.0  # a core of group 0's own
+    present[60:, :4] = 0.0
+    present = sp.csr_matrix(present)
+    labels = np.repeat([0, 1, -1], [60, 40, 20])
+    null = features.presence(_rows(13, n=30, m=30, p=0.2)[0])
+    plain = card_rates.fit_rates(present, labels, 2, null, 6.0)
+    rates = card_rates.fit_rates(present, labels, 2, null, 6.0, pooled=2)
+    plays = card_rates.group_sums(present, np.where(labels >= 0, labels, 2), 2)
+    decks = np.bincount(labels[labels >= 0]).astype(np.float64)
+    strength, p = card_rates.pooled_strength(plays, decks)
+    assert (strength[:4] < 1).all() and (strength[4:] > 1).any()
+    want = beta(strength * p + plays + 0.5, strength * (1 - p) + decks[:, None] - plays + 0.5).mean()
+    want = np.minimum(want, ((decks + 0.5) / (decks + 1.0))[:, None])
+    np.testing.assert_allclose(1 / (1 + np.exp(-rates.log_odds[:2])), want, rtol=1e-9)
+    np.testing.assert_allclose(rates.log_odds[2], plain.log_odds[2], atol=1e-12)
+    fill = strength >= card_rates.POOL_MOST
+    assert fill.any()
+    np.testing.assert_allclose(rates.log_odds[0, fill], rates.log_odds[1, fill], atol=1e-4)
+
+
 def test_a_partial_list_scores_its_card_rates_scaled_by_its_length():
     # Reference: scipy.stats.bernoulli.logpmf of each card at rate f x r (f: the deck's length share,
     # r: the group's rate), summed over the cards. The log f of each card played is the same in every

@@ -23,6 +23,9 @@ import scipy.sparse as sp
 
 #: Card rates are smoothed by adding this many plays and this many misses (add-half).
 RATE_SMOOTHING = 0.5
+#: Most decks' weight an archetype's rate of a card is drawn towards the archetypes' pooled rate of it
+#: with (:func:`pooled_strength`): a card they all play alike is read at the pooled rate.
+POOL_MOST = 1e6
 #: Copy levels the card rates read besides a card's presence: 1 copy, 2 copies, LEVELS or more.
 LEVELS = 3
 #: A group's mix of a card's copy levels is drawn towards the partition's own mix by this many decks.
@@ -168,9 +171,34 @@ def scores(counts: "sp.spmatrix | ReadDecks", rates: CardRates, sizes: np.ndarra
     return out
 
 
+def pooled_strength(counts: np.ndarray, reach: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Each card's pooled rate over the groups (``counts``: groups x cards, decks playing it; ``reach``:
+    each group's decks) and the weight, in decks, with which each group's own rate of it is drawn
+    towards that: the strength a + b of a beta prior Beta(a, b) fitted to the groups' rates by the
+    method of moments (empirical Bayes for binomial counts). The spread of the groups' rates beyond
+    what sampling alone gives is the prior's variance p(1-p)/(a+b+1). A card every group plays at the
+    same rate but for sampling (a deck's fill) gets :data:`POOL_MOST`; a card some groups play and
+    others lack (a core card) gets about 0, its own rate in each. Groups of under one deck count for
+    nothing; with fewer than two groups, or a card no group plays (or every deck does), it is 0."""
+    m = counts.shape[1]
+    keep = reach >= 1.0
+    if keep.sum() < 2:
+        return np.zeros(m), np.zeros(m)
+    counts, reach = counts[keep], reach[keep]
+    pooled = counts.sum(axis=0) / reach.sum()
+    share = reach / reach.sum()
+    spread = (share[:, None] * (counts / reach[:, None] - pooled) ** 2).sum(axis=0)
+    both = pooled * (1.0 - pooled)
+    between = spread - both * (share / reach).sum()
+    with np.errstate(divide="ignore", invalid="ignore"):
+        strength = np.where(between > 0, both / np.where(between > 0, between, 1.0) - 1.0, POOL_MOST)
+    return np.where(both > 0, np.clip(strength, 0.0, POOL_MOST), 0.0), pooled
+
+
 def fit_rates(copies: "sp.csr_matrix | ReadDecks", labels: np.ndarray | None, k: int,
               null_copies: "sp.csr_matrix | ReadDecks",
-              null_weight: float, full_size: float = 0.0, weights: np.ndarray | None = None) -> CardRates:
+              null_weight: float, full_size: float = 0.0, weights: np.ndarray | None = None,
+              pooled: int = 0) -> CardRates:
     """Card rates of groups 0..k-1 and of the other decks (-1), as a naive Bayes model.
 
     Group i's rate of a card is (decks playing it + a) / (decks + 2a), a =
@@ -201,6 +229,18 @@ def fit_rates(copies: "sp.csr_matrix | ReadDecks", labels: np.ndarray | None, k:
     every sum above is then taken with each deck counted in every group by
     its chance (the M step of expectation-maximisation); one-hot rows give
     what ``labels`` give.
+
+    ``pooled``: groups 0..pooled-1 (the archetypes; not small groups of
+    their own after them, nor the other decks) each draw their rate of a
+    card towards those groups' pooled rate of it by :func:`pooled_strength`
+    decks, as the posterior mean under that beta prior (plus the add-half):
+    decks play most cards of a partition (fill) alike whatever their group,
+    and a group's own rate of such a card says only how few decks it holds.
+    Without it, a small group's rate of a card none of its decks plays is
+    higher than a large group's (0.5 over its few decks), and a deck with
+    several such cards is drawn to the small group; the deck's own cards
+    also count more in a small group's rates, so it stays there. 0 (the
+    default): the naive Bayes model above.
     """
     decks, nulls = ReadDecks.of(copies), ReadDecks.of(null_copies)
     present, null_present = decks.present, nulls.present
@@ -225,7 +265,13 @@ def fit_rates(copies: "sp.csr_matrix | ReadDecks", labels: np.ndarray | None, k:
         levels[k] += null_weight / n_null * np.asarray(nulls.levels.sum(axis=0)).ravel()
         sizes[k] += null_weight
         reach[k] += null_weight / n_null * null_reach
-    rate = np.minimum((counts + RATE_SMOOTHING) / (reach[:, None] + 2.0 * RATE_SMOOTHING),
+    pseudo = np.zeros_like(counts)  # each group's pseudo-decks towards the pooled rate, and their plays
+    plays = np.zeros_like(counts)
+    if pooled:
+        strength, rate_pooled = pooled_strength(counts[:pooled], reach[:pooled])
+        pseudo[:pooled] = strength
+        plays[:pooled] = strength * rate_pooled
+    rate = np.minimum((counts + plays + RATE_SMOOTHING) / (reach[:, None] + pseudo + 2.0 * RATE_SMOOTHING),
                       ((sizes + RATE_SMOOTHING) / (sizes + 2.0 * RATE_SMOOTHING))[:, None])
     if n_null:  # the other decks play no card more often than random decks do
         random_rate = np.minimum((np.asarray(null_present.sum(axis=0)).ravel() + RATE_SMOOTHING)

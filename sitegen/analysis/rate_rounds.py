@@ -38,7 +38,7 @@ def place_round(copies, labels, null_copies, least, full_size, own: Sequence[np.
         fit = labels.copy()
         for j, members in enumerate(own):
             fit[members] = k + j
-        rates = fit_rates(copies, fit, k + len(own), null_copies, float(least), full_size)
+        rates = fit_rates(copies, fit, k + len(own), null_copies, float(least), full_size, pooled=k)
         rates = replace(rates, archetypes=k)
         row = likeliest(copies, rates)
         placed = place(copies, rates, row=row)
@@ -64,7 +64,7 @@ def soft_rounds(copies, labels, rates: CardRates, row, null_copies, least, full_
         chance = np.exp(score - score.max(axis=1, keepdims=True))
         chance /= chance.sum(axis=1, keepdims=True)
         soft = replace(fit_rates(copies, None, chance.shape[1] - 1, null_copies, float(least), full_size,
-                                 weights=chance), archetypes=k)
+                                 weights=chance, pooled=k), archetypes=k)
         now = likeliest(copies, soft)
         placed = place(copies, soft, row=now)
         if np.bincount(placed[placed >= 0], minlength=k).min() < least:
