@@ -5,7 +5,9 @@ described by its rate of playing each card and, among its decks playing a
 card, the share at each copy level (1, 2, :data:`LEVELS` or more); a deck
 goes to the group under whose rates the cards it plays, the copies it plays
 them at and the cards it lacks are likeliest (a naive Bayes model). On
-presence alone this is scikit-learn's BernoulliNB (tested). A deck shorter
+presence alone this is scikit-learn's BernoulliNB (tested); the rule of
+:mod:`.membership` also draws each archetype's rates towards the archetypes'
+pooled rates (:func:`pooled_strength`). A deck shorter
 than the partition's usual deck is read as a partial list: a card it lacks
 counts as missing in proportion to its length (:func:`length_shares`). The rule of
 :mod:`.membership` fits the rates on the groups it settles; the build stores

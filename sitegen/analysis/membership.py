@@ -40,8 +40,9 @@ distances in (card presence weighted by rarity, each deck a unit row):
   (:class:`DeckCards`).
 
 - **Every deck is placed last by card rates** (:mod:`.card_rates`): each
-  archetype's rate of playing each card, and the other decks' (with the random
-  decks), smoothed, as a Bernoulli naive Bayes model; each deck goes to the
+  archetype's rate of playing each card (drawn towards the archetypes' pooled
+  rate of it, :func:`.card_rates.pooled_strength`), and the other decks' (with
+  the random decks), smoothed, as a Bernoulli naive Bayes model; each deck goes to the
   group under whose rates the cards it plays and lacks are likeliest. Twice,
   each time refitted on the groups the last time left; a group left under
   ``least`` decks is given up. Last come soft rounds (:mod:`.rate_rounds`):
