@@ -4,6 +4,7 @@
     python bench/stress.py --grid dev          # the development settings
     python bench/stress.py --grid draw         # development draws: drawn like the evaluation grid, other seeds
     python bench/stress.py --grid draw2        # later development draws, drawn the same way
+    python bench/stress.py --grid draw3        # development draws of larger partitions (3 000-12 000 decks)
     python bench/stress.py --grid eval         # the evaluation grid: never used to tune the method
     python bench/stress.py --grid eval --list  # print the grid's settings and stop
     python bench/stress.py --grid eval --identity  # identity across planted seasons (pages, names)

@@ -267,12 +267,12 @@ def fit_rates(copies: "sp.csr_matrix | ReadDecks", labels: np.ndarray | None, k:
         levels[k] += null_weight / n_null * np.asarray(nulls.levels.sum(axis=0)).ravel()
         sizes[k] += null_weight
         reach[k] += null_weight / n_null * null_reach
-    pseudo = np.zeros_like(counts)  # each group's pseudo-decks towards the pooled rate, and their plays
-    plays = np.zeros_like(counts)
+    pseudo = plays = 0.0  # each group's pseudo-decks towards the pooled rate, and their plays
     if pooled:
         strength, rate_pooled = pooled_strength(counts[:pooled], reach[:pooled])
+        pseudo = np.zeros_like(counts)
         pseudo[:pooled] = strength
-        plays[:pooled] = strength * rate_pooled
+        plays = pseudo * rate_pooled
     rate = np.minimum((counts + plays + RATE_SMOOTHING) / (reach[:, None] + pseudo + 2.0 * RATE_SMOOTHING),
                       ((sizes + RATE_SMOOTHING) / (sizes + 2.0 * RATE_SMOOTHING))[:, None])
     if n_null:  # the other decks play no card more often than random decks do
